@@ -1,0 +1,81 @@
+"""Batch statistics: summaries, Wilson yield interval, sensitivity ranking."""
+import numpy as np
+import pytest
+from scipy.stats import spearmanr
+
+from circuitode.tolerance.statistics import (
+    PERCENTILES,
+    estimate_yield,
+    rank_correlations,
+    sensitivity_ranking,
+    summarise_figure,
+    wilson_interval,
+)
+
+
+@pytest.mark.parametrize(
+    "k, n, low, high",
+    [
+        # Wilson score intervals tabulated by Newcombe, "Two-sided confidence intervals
+        # for the single proportion", Statistics in Medicine 17 (1998) 857, Table I
+        # (values from memory, 4 decimals).
+        (81, 263, 0.2553, 0.3662),
+        (15, 148, 0.0624, 0.1605),
+        (0, 20, 0.0, 0.1611),
+        (1, 29, 0.0061, 0.1718),
+    ],
+)
+def test_wilson_interval_against_published_values(k, n, low, high):
+    lo, hi = wilson_interval(k, n)
+    assert lo == pytest.approx(low, abs=6e-5)
+    assert hi == pytest.approx(high, abs=6e-5)
+
+
+@pytest.mark.parametrize("k, n", [(3, 10), (950, 1000), (9999, 10000), (40, 41)])
+def test_wilson_bounds_solve_the_score_equation(k, n):
+    # Wilson (1927): the bounds are the p with (p̂ − p)² = z² p (1 − p) / n, z = 1.959964.
+    z = 1.959963984540054
+    p = k / n
+    # (1 + z²/n) p² − (2p̂ + z²/n) p + p̂² = 0
+    roots = np.sort(np.roots([1 + z * z / n, -(2 * p + z * z / n), p * p]).real)
+    assert np.allclose(wilson_interval(k, n), roots, atol=1e-12)
+
+
+def test_yield_counts_failed_runs_as_not_passing():
+    ran = np.array([True, True, True, False, True])
+    limits = {"a": np.array([True, False, True, True, True]), "b": np.array([True, True, True, True, False])}
+    y = estimate_yield(limits, ran)
+    assert (y.passed, y.total) == (2, 5)
+    assert y.per_limit == {"a": 3, "b": 3}
+    assert (y.low, y.high) == wilson_interval(2, 5)
+
+
+def test_summary_matches_numpy_and_names_the_extreme_samples():
+    rng = np.random.default_rng(0)
+    v = rng.normal(size=1001)
+    v[[10, 500]] = np.nan
+    s = summarise_figure("peak", v)
+    good = v[np.isfinite(v)]
+    assert (s.count, s.failed) == (999, 2)
+    assert s.mean == pytest.approx(good.mean()) and s.std == pytest.approx(good.std(ddof=1))
+    assert s.percentiles == pytest.approx(tuple(np.percentile(good, PERCENTILES)))
+    assert v[s.argmin] == good.min() and v[s.argmax] == good.max()
+
+
+def test_rank_correlation_equals_scipy_spearman():
+    rng = np.random.default_rng(1)
+    x = rng.normal(size=(300, 3))
+    y = np.exp(x[:, 0]) - 0.3 * x[:, 2] ** 3 + 0.1 * rng.normal(size=300)
+    ours = rank_correlations(x, y)
+    ref = [spearmanr(x[:, j], y).statistic for j in range(3)]
+    assert np.allclose(ours, ref, atol=1e-12)
+
+
+def test_sensitivity_ranks_the_strong_driver_first_and_constant_last():
+    rng = np.random.default_rng(2)
+    x = rng.uniform(size=(500, 3))
+    x[:, 1] = 0.5
+    y = -5 * x[:, 2] + 0.5 * x[:, 0]
+    ranking = sensitivity_ranking(("a", "b", "c"), x, y)
+    assert [d.parameter for d in ranking] == ["c", "a", "b"]
+    assert ranking[0].rho < -0.9 and np.isnan(ranking[2].rho)
