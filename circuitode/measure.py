@@ -1,0 +1,553 @@
+"""Waveform figures: pure, vectorised functions of sampled time and signal.
+
+Every figure takes ``t`` of shape ``(nt,)`` in seconds, non-decreasing (an
+event instant may appear twice: the value just before and just after it), and
+``y`` of shape ``(..., nt)`` batched along any leading axes.  It returns a
+numpy value of shape ``y.shape[:-1]`` (a 0-d value for 1-D input) in SI units;
+:func:`figure_unit` says which.  No figure loops in Python over samples.
+
+Terms follow IEEE Std 181-2011 (transitions, pulses and related waveforms)
+where it defines them: the *initial* and *final* state levels of a step, its
+*amplitude* (final − initial), *overshoot* and *undershoot* as aberrations
+expressed in percent of the amplitude, and the *transition duration* between
+the 10 % and 90 % reference levels (here called rise time, whichever way the
+step goes).  Damping ratio and damped frequency are measured on a ringing
+waveform from its successive extrema (logarithmic decrement; Ogata, Modern
+Control Engineering, ch. 5; Nise, Control Systems Engineering, ch. 4).
+
+Integrals (rms, mean, i2t, energy) use the trapezoidal rule on the samples;
+a repeated instant is an interval of zero length and contributes nothing.
+"""
+from __future__ import annotations
+
+import inspect
+from typing import Any, Callable, Mapping
+
+import numpy as np
+
+from .errors import CircuitodeError
+
+__all__ = [
+    "MeasurementError",
+    "FIGURE_UNITS",
+    "STANDARD_FIGURES",
+    "figure_unit",
+    "peak",
+    "time_of_peak",
+    "minimum",
+    "final",
+    "overshoot",
+    "undershoot",
+    "rise_time",
+    "settling_time",
+    "rms",
+    "mean",
+    "i2t",
+    "energy",
+    "max_slope",
+    "damping_ratio",
+    "damped_frequency",
+    "measure",
+    "summarise",
+]
+
+
+class MeasurementError(CircuitodeError):
+    """A figure was asked for with input it cannot be measured on (bad times, unknown figure…)."""
+
+
+#: Unit of each figure; "{s}" stands for the signal's own unit.  "" is dimensionless.
+FIGURE_UNITS: dict[str, str] = {
+    "peak": "{s}",
+    "time_of_peak": "s",
+    "minimum": "{s}",
+    "final": "{s}",
+    "overshoot": "%",
+    "undershoot": "%",
+    "rise_time": "s",
+    "settling_time": "s",
+    "rms": "{s}",
+    "mean": "{s}",
+    "i2t": "{s}²s",
+    "energy": "J",
+    "max_slope": "{s}/s",
+    "damping_ratio": "",
+    "damped_frequency": "Hz",
+}
+
+#: Figures :func:`summarise` reports for every signal (plus i2t for currents, energy for power).
+STANDARD_FIGURES = (
+    "peak",
+    "time_of_peak",
+    "minimum",
+    "final",
+    "overshoot",
+    "rise_time",
+    "settling_time",
+    "rms",
+    "damping_ratio",
+    "damped_frequency",
+)
+
+
+def figure_unit(figure: str, signal_unit: str) -> str:
+    """Unit of ``figure`` measured on a signal in ``signal_unit`` (e.g. ``("i2t", "A") -> "A²s"``)."""
+    try:
+        pattern = FIGURE_UNITS[figure]
+    except KeyError:
+        raise MeasurementError(_unknown_figure(figure)) from None
+    return pattern.replace("{s}", signal_unit)
+
+
+# --------------------------------------------------------------------------
+# Input checks and small vectorised helpers
+# --------------------------------------------------------------------------
+
+
+def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
+    t = np.asarray(t, dtype=float)
+    y = np.asarray(y, dtype=float)
+    if t.ndim != 1 or t.size < 2:
+        raise MeasurementError(f"time must be a 1-D array of at least 2 instants, got shape {t.shape}")
+    if y.ndim < 1 or y.shape[-1] != t.size:
+        raise MeasurementError(
+            f"signal of shape {y.shape} does not match {t.size} time instants; "
+            "the last axis of the signal must run along time"
+        )
+    if not np.all(np.isfinite(t)):
+        raise MeasurementError("time contains NaN or infinite values")
+    if np.any(np.diff(t) < 0):
+        raise MeasurementError("time must be non-decreasing (an instant may repeat at an event)")
+    if t[-1] <= t[0]:
+        raise MeasurementError("time must span a positive interval")
+    return t, y
+
+
+def _level(value: Any, default: np.ndarray) -> np.ndarray:
+    """An optional state level (scalar or array over the leading axes) or the default."""
+    if value is None:
+        return default
+    try:
+        return np.broadcast_to(np.asarray(value, dtype=float), default.shape)
+    except ValueError:
+        raise MeasurementError(
+            f"level of shape {np.shape(value)} does not fit signals of batch shape {default.shape}"
+        ) from None
+
+
+def _value_at(t: np.ndarray, y: np.ndarray, instant: float, side: str) -> np.ndarray:
+    """Linear interpolation of ``y`` at ``instant``; at a repeated instant, the value just
+    after it (``side="right"``) or just before it (``side="left"``)."""
+    k = int(np.searchsorted(t, instant, side=side))
+    k = min(max(k, 1), t.size - 1)
+    t0, t1 = t[k - 1], t[k]
+    frac = 0.0 if t1 == t0 else (instant - t0) / (t1 - t0)
+    frac = min(max(frac, 0.0), 1.0)
+    return y[..., k - 1] + frac * (y[..., k] - y[..., k - 1])
+
+
+def _window(t: np.ndarray, y: np.ndarray, start: float | None, end: float | None):
+    """Samples of the window [start, end] with interpolated end points."""
+    start = t[0] if start is None else float(start)
+    end = t[-1] if end is None else float(end)
+    if not (t[0] <= start < end <= t[-1]):
+        raise MeasurementError(
+            f"window [{start:g} s, {end:g} s] must be non-empty and lie within the "
+            f"simulated time [{t[0]:g} s, {t[-1]:g} s]"
+        )
+    inside = (t > start) & (t < end)
+    tw = np.concatenate(([start], t[inside], [end]))
+    yw = np.concatenate(
+        (_value_at(t, y, start, "right")[..., None], y[..., inside], _value_at(t, y, end, "left")[..., None]),
+        axis=-1,
+    )
+    return tw, yw
+
+
+def _trapezoid(t: np.ndarray, y: np.ndarray) -> np.ndarray:
+    dt = np.diff(t)
+    return np.sum(0.5 * (y[..., 1:] + y[..., :-1]) * dt, axis=-1)
+
+
+def _first_crossing(t: np.ndarray, z: np.ndarray, level: float) -> np.ndarray:
+    """First instant where the normalised signal ``z`` reaches ``level`` from below
+    (linear interpolation between samples); NaN where it never does."""
+    reached = z >= level
+    k = np.argmax(reached, axis=-1)
+    found = np.take_along_axis(reached, k[..., None], axis=-1)[..., 0]
+    kp = np.maximum(k - 1, 0)
+    z0 = np.take_along_axis(z, kp[..., None], axis=-1)[..., 0]
+    z1 = np.take_along_axis(z, k[..., None], axis=-1)[..., 0]
+    t0, t1 = t[kp], t[k]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.where((k > 0) & (z1 != z0), (level - z0) / (z1 - z0), 0.0)
+    crossing = t0 + np.clip(frac, 0.0, 1.0) * (t1 - t0)
+    return np.where(found, crossing, np.nan)
+
+
+def _step_levels(y: np.ndarray, initial: Any, final_level: Any):
+    y0 = _level(initial, y[..., 0])
+    yf = _level(final_level, y[..., -1])
+    amplitude = yf - y0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        direction = np.where(amplitude != 0, np.sign(amplitude), np.nan)
+    return y0, yf, amplitude, direction
+
+
+# --------------------------------------------------------------------------
+# Levels
+# --------------------------------------------------------------------------
+
+
+def peak(t, y) -> np.ndarray:
+    """Largest sample of ``y`` (signal unit), shape ``y.shape[:-1]``."""
+    t, y = _checked(t, y)
+    return np.max(y, axis=-1)
+
+
+def time_of_peak(t, y) -> np.ndarray:
+    """Instant (s, on the run's own clock) of the largest sample; the first one if repeated."""
+    t, y = _checked(t, y)
+    return t[np.argmax(y, axis=-1)]
+
+
+def minimum(t, y) -> np.ndarray:
+    """Smallest sample of ``y`` (signal unit)."""
+    t, y = _checked(t, y)
+    return np.min(y, axis=-1)
+
+
+def final(t, y, *, window: float | None = None) -> np.ndarray:
+    """Final state level (signal unit): the last sample, or with ``window`` (s) the
+    time-average over the last ``window`` seconds (useful when ripple remains)."""
+    t, y = _checked(t, y)
+    if window is None:
+        return y[..., -1].copy()
+    if not window > 0:
+        raise MeasurementError(f"final-value window must be a positive duration, got {window!r} s")
+    return mean(t, y, start=max(t[-1] - float(window), t[0]))
+
+
+# --------------------------------------------------------------------------
+# Step-response figures (IEEE Std 181-2011 terms)
+# --------------------------------------------------------------------------
+
+
+def overshoot(t, y, *, initial=None, final=None) -> np.ndarray:
+    """Overshoot (%): the largest excursion beyond the final state level in the direction
+    of the step, in percent of the amplitude |final − initial| (IEEE Std 181-2011).
+
+    ``initial`` and ``final`` default to the first and last samples.  0 when the signal
+    never passes the final level; NaN when the amplitude is zero (no step to refer to).
+    """
+    t, y = _checked(t, y)
+    y0, yf, amplitude, direction = _step_levels(y, initial, final)
+    beyond = np.max(direction[..., None] * (y - yf[..., None]), axis=-1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return 100.0 * np.maximum(beyond, 0.0) / np.abs(amplitude)
+
+
+def undershoot(t, y, *, initial=None, final=None) -> np.ndarray:
+    """Post-transition undershoot (%): after the signal first reaches the final state
+    level, its largest excursion back towards the initial level, in percent of the
+    amplitude (IEEE Std 181-2011).  For a ringing step this is the first trough.
+
+    0 when the signal never reaches the final level or never comes back; NaN when the
+    amplitude is zero.
+    """
+    t, y = _checked(t, y)
+    y0, yf, amplitude, direction = _step_levels(y, initial, final)
+    progress = direction[..., None] * (y - yf[..., None])  # ≥ 0 once at or beyond the final level
+    reached = np.cumsum(progress >= 0, axis=-1) > 0
+    back = np.max(np.where(reached, -progress, 0.0), axis=-1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(amplitude != 0, 100.0 * np.maximum(back, 0.0) / np.abs(amplitude), np.nan)
+
+
+def rise_time(t, y, *, low: float = 0.1, high: float = 0.9, initial=None, final=None) -> np.ndarray:
+    """Transition duration (s) between the ``low`` and ``high`` reference levels
+    (10 % and 90 % of the amplitude by default, IEEE Std 181-2011), taking the first
+    crossing of each, interpolated linearly between samples.  Works for falling steps
+    too.  NaN when a level is never reached or the amplitude is zero.
+    """
+    if not 0.0 <= low < high <= 1.0:
+        raise MeasurementError(f"reference levels need 0 ≤ low < high ≤ 1, got low={low!r}, high={high!r}")
+    t, y = _checked(t, y)
+    y0, yf, amplitude, _ = _step_levels(y, initial, final)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        z = (y - y0[..., None]) / amplitude[..., None]
+    return _first_crossing(t, z, high) - _first_crossing(t, z, low)
+
+
+def settling_time(
+    t, y, *, band: float = 0.02, initial=None, final=None, start: float | None = None
+) -> np.ndarray:
+    """Settling time (s): from ``start`` (default: the first instant) to the last
+    instant the signal is outside ``final ± band·|final − initial|`` (2 % band by
+    default; Ogata, ch. 5), interpolated to where it enters the band for good.
+
+    0 when it never leaves the band; NaN when it is still outside at the last sample
+    (not settled within the run) or the amplitude is zero.
+    """
+    if not band > 0:
+        raise MeasurementError(f"settling band must be a positive fraction, got {band!r}")
+    t, y = _checked(t, y)
+    y0, yf, amplitude, _ = _step_levels(y, initial, final)
+    origin = t[0] if start is None else float(start)
+    half_width = band * np.abs(amplitude)
+    error = y - yf[..., None]
+    outside = np.abs(error) > half_width[..., None]
+    nt = t.size
+    last = nt - 1 - np.argmax(outside[..., ::-1], axis=-1)
+    any_outside = np.any(outside, axis=-1)
+    k = np.minimum(last, nt - 2)
+    e0 = np.take_along_axis(error, k[..., None], axis=-1)[..., 0]
+    e1 = np.take_along_axis(error, (k + 1)[..., None], axis=-1)[..., 0]
+    boundary = np.sign(e0) * half_width
+    with np.errstate(invalid="ignore", divide="ignore"):
+        frac = np.where(e1 != e0, (e0 - boundary) / (e0 - e1), 0.0)
+    entered = t[k] + np.clip(frac, 0.0, 1.0) * (t[k + 1] - t[k])
+    result = np.where(any_outside, entered - origin, np.maximum(t[0] - origin, 0.0))
+    result = np.where(any_outside & (last == nt - 1), np.nan, result)
+    return np.where(amplitude != 0, result, np.nan)
+
+
+# --------------------------------------------------------------------------
+# Integrals over a window
+# --------------------------------------------------------------------------
+
+
+def mean(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
+    """Time-average (signal unit) over [start, end] s (default: the whole run), trapezoidal."""
+    t, y = _checked(t, y)
+    tw, yw = _window(t, y, start, end)
+    return _trapezoid(tw, yw) / (tw[-1] - tw[0])
+
+
+def rms(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
+    """Root-mean-square (signal unit) over [start, end] s, √(∫y² dt / T), trapezoidal.
+
+    For a periodic signal choose a window of whole periods."""
+    t, y = _checked(t, y)
+    tw, yw = _window(t, y, start, end)
+    return np.sqrt(_trapezoid(tw, yw * yw) / (tw[-1] - tw[0]))
+
+
+def i2t(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
+    """Joule integral ∫ y² dt over [start, end] (A²s for a current), trapezoidal on y²."""
+    t, y = _checked(t, y)
+    tw, yw = _window(t, y, start, end)
+    return _trapezoid(tw, yw * yw)
+
+
+def energy(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
+    """Energy ∫ p dt (J) of a power signal ``y`` in W over [start, end], trapezoidal."""
+    t, y = _checked(t, y)
+    tw, yw = _window(t, y, start, end)
+    return _trapezoid(tw, yw)
+
+
+# --------------------------------------------------------------------------
+# Slope and ringing
+# --------------------------------------------------------------------------
+
+
+def max_slope(t, y) -> np.ndarray:
+    """Largest |dy/dt| between successive samples (signal unit per s); intervals of
+    zero length (an event instant recorded twice) are skipped."""
+    t, y = _checked(t, y)
+    dt = np.diff(t)
+    positive = dt > 0
+    slopes = np.abs(np.diff(y, axis=-1)[..., positive]) / dt[positive]
+    return np.max(slopes, axis=-1)
+
+
+def _ringing(t, y, final_level, start, floor):
+    """Extrema of the deviation from the final level, fitted against their ordinal.
+
+    Returns (half-period decrement ln|x_k/x_{k+1}|, half period in s), both NaN where
+    fewer than two extrema above ``floor`` × the largest one exist.
+    """
+    if not 0 <= floor < 1:
+        raise MeasurementError(f"ringing floor must be a fraction in [0, 1), got {floor!r}")
+    t, y = _checked(t, y)
+    yf = _level(final_level, y[..., -1])
+    e = y - yf[..., None]
+    em, ek, ep = e[..., :-2], e[..., 1:-1], e[..., 2:]
+    h1 = t[1:-1] - t[:-2]
+    h2 = t[2:] - t[1:-1]
+    usable = (h1 > 0) & (h2 > 0)
+    if start is not None:
+        usable &= t[1:-1] >= float(start)
+    is_max = (ek > em) & (ek >= ep) & (ek > 0)
+    is_min = (ek < em) & (ek <= ep) & (ek < 0)
+    extremum = (is_max | is_min) & usable
+    # Parabola through the three samples: vertex height and instant refine the extremum.
+    with np.errstate(invalid="ignore", divide="ignore"):
+        d1 = (ek - em) / h1
+        d2 = (ep - ek) / h2
+        curvature = (d2 - d1) / (h1 + h2)
+        slope = (d1 * h2 + d2 * h1) / (h1 + h2)
+        shift = np.where(curvature != 0, -slope / (2 * curvature), 0.0)
+        shift = np.clip(shift, -h1, h2)
+        height = np.abs(ek + slope * shift + curvature * shift * shift)
+    instant = t[1:-1] + shift
+    largest = np.max(np.where(extremum, height, 0.0), axis=-1, keepdims=True)
+    keep = extremum & (height >= floor * largest) & (height > 0)
+    n = np.cumsum(keep, axis=-1) - 1.0
+    count = np.sum(keep, axis=-1)
+
+    def fitted_slope(values):
+        w = keep.astype(float)
+        sx = np.sum(w * n, axis=-1)
+        sy = np.sum(np.where(keep, values, 0.0), axis=-1)
+        sxx = np.sum(w * n * n, axis=-1)
+        sxy = np.sum(np.where(keep, n * values, 0.0), axis=-1)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(count >= 2, (count * sxy - sx * sy) / (count * sxx - sx * sx), np.nan)
+
+    with np.errstate(divide="ignore"):
+        log_height = np.log(np.where(keep, height, 1.0))
+    return -fitted_slope(log_height), fitted_slope(instant)
+
+
+def damping_ratio(t, y, *, final=None, start: float | None = None, floor: float = 1e-3) -> np.ndarray:
+    """Damping ratio (dimensionless) of a ringing waveform from its logarithmic decrement.
+
+    The extrema of ``y − final`` (maxima above it, minima below it, each refined by a
+    parabola through three samples) are fitted as ln|x_n| = a − n·δ/2 over their
+    ordinal n, so δ = ln(x_k / x_{k+1}) for peaks one period apart, and
+    ζ = δ / √(4π² + δ²) (Ogata, Modern Control Engineering, ch. 5).  Only extrema
+    after ``start`` (s) and at least ``floor`` × the largest one are used, so numerical
+    noise around the settled value does not count.  NaN (no exception) when fewer than
+    two such extrema exist, i.e. the waveform does not ring.
+    """
+    half_decrement, _ = _ringing(t, y, final, start, floor)
+    delta = 2.0 * half_decrement
+    return delta / np.sqrt(4.0 * np.pi**2 + delta**2)
+
+
+def damped_frequency(t, y, *, final=None, start: float | None = None, floor: float = 1e-3) -> np.ndarray:
+    """Damped frequency (Hz) of a ringing waveform, from the spacing of its extrema about
+    the final value (successive extrema are half a period apart); NaN when it does not
+    ring.  Options as for :func:`damping_ratio`."""
+    _, half_period = _ringing(t, y, final, start, floor)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return 1.0 / (2.0 * half_period)
+
+
+# --------------------------------------------------------------------------
+# Dispatch by name, and the standard summary of a run
+# --------------------------------------------------------------------------
+
+_FUNCTIONS: dict[str, Callable[..., np.ndarray]] = {
+    "peak": peak,
+    "time_of_peak": time_of_peak,
+    "minimum": minimum,
+    "final": final,
+    "overshoot": overshoot,
+    "undershoot": undershoot,
+    "rise_time": rise_time,
+    "settling_time": settling_time,
+    "rms": rms,
+    "mean": mean,
+    "i2t": i2t,
+    "energy": energy,
+    "max_slope": max_slope,
+    "damping_ratio": damping_ratio,
+    "damped_frequency": damped_frequency,
+}
+
+
+def _unknown_figure(figure: Any) -> str:
+    return f"unknown figure {figure!r}; choose one of: {', '.join(_FUNCTIONS)}"
+
+
+def _options_of(function: Callable) -> tuple[str, ...]:
+    return tuple(
+        name for name, p in inspect.signature(function).parameters.items() if p.kind is p.KEYWORD_ONLY
+    )
+
+
+def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarray:
+    """Measure ``figure`` (a name of :data:`FIGURE_UNITS`) on ``y`` sampled at ``t``.
+
+    Parameters
+    ----------
+    figure : canonical figure name, e.g. ``"peak"``, ``"i2t"``, ``"settling_time"``.
+    t : (nt,) s.  y : (..., nt) in ``signal_unit``.
+    signal_unit : unit of ``y`` ("V", "A", "W" …); energy needs a power signal ("W").
+    **options : the figure function's keyword options (``band``, ``start``, ``final`` …).
+
+    Returns
+    -------
+    ndarray of shape ``y.shape[:-1]`` in ``figure_unit(figure, signal_unit)``.
+    """
+    function = _FUNCTIONS.get(figure) if isinstance(figure, str) else None
+    if function is None:
+        raise MeasurementError(_unknown_figure(figure))
+    if figure == "energy" and signal_unit != "W":
+        raise MeasurementError(
+            f"energy is the integral of a power signal (W), but this signal is in {signal_unit!r}; "
+            "record the power in the element instead"
+        )
+    allowed = _options_of(function)
+    unknown = sorted(set(options) - set(allowed))
+    if unknown:
+        choices = ", ".join(allowed) if allowed else "none"
+        raise MeasurementError(f"figure {figure!r} has no option {', '.join(unknown)}; its options: {choices}")
+    return function(t, y, **options)
+
+
+def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
+    """The standard figures of every recorded signal of a run.
+
+    Parameters
+    ----------
+    waveforms : an object with ``t`` (nt,) s, ``signals`` {label: (..., nt)} and
+        ``units`` {label: unit} (the transient engine's ``Waveforms``).
+
+    Returns
+    -------
+    {label: {figure: (value, unit)}} with :data:`STANDARD_FIGURES`, plus ``i2t`` for
+    currents (unit "A") and ``energy`` for power signals (unit "W").  Values are
+    numpy values (floats for a single run); figures that do not apply are NaN —
+    in particular the step figures (overshoot, rise and settling time) of a signal
+    that returns to where it began, such as an inrush current pulse.
+    """
+    t = waveforms.t
+    out: dict[str, dict[str, tuple[Any, str]]] = {}
+    for label, y in waveforms.signals.items():
+        unit = waveforms.units.get(label, "")
+        y = np.asarray(y, dtype=float)
+        figures = list(STANDARD_FIGURES)
+        if unit == "A":
+            figures.append("i2t")
+        if unit == "W":
+            figures.append("energy")
+        no_step = _is_pulse(y)
+        row = {}
+        for name in figures:
+            value = measure(name, t, y, signal_unit=unit)
+            if name in _STEP_FIGURES:
+                value = np.where(no_step, np.nan, value)
+            row[name] = (_plain(value), figure_unit(name, unit))
+        out[label] = row
+    return out
+
+
+#: Figures that refer to a step from the initial to the final level.
+_STEP_FIGURES = ("overshoot", "undershoot", "rise_time", "settling_time")
+
+
+def _is_pulse(y: np.ndarray, ratio: float = 1e-3) -> np.ndarray:
+    """True where the signal ends (almost) where it began although it moved: an inrush
+    pulse rather than a step, for which step figures would divide by a vanishing
+    amplitude.  The threshold is |final − initial| < ratio × (max − min)."""
+    swing = np.max(y, axis=-1) - np.min(y, axis=-1)
+    return np.abs(y[..., -1] - y[..., 0]) < ratio * swing
+
+
+def _plain(value: np.ndarray) -> Any:
+    value = np.asarray(value)
+    return float(value) if value.ndim == 0 else value

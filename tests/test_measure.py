@@ -1,0 +1,305 @@
+"""Waveform figures checked against closed forms from circuit and control textbooks.
+
+Reference responses are generated here from their textbook formulas, never by the
+code under test.
+"""
+from __future__ import annotations
+
+from types import SimpleNamespace
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.optimize import brentq
+
+from circuitode import measure as m
+from circuitode.circuit import FIGURES
+from circuitode.errors import CircuitodeError
+from circuitode.measure import MeasurementError
+
+
+def second_order_step(zeta: float, wn: float, t: np.ndarray) -> np.ndarray:
+    """Unit step response of wn² / (s² + 2ζwn s + wn²), 0 < ζ < 1
+    (Ogata, Modern Control Engineering, ch. 5, eq. for the underdamped case)."""
+    root = np.sqrt(1 - zeta**2)
+    wd = wn * root
+    return 1 - np.exp(-zeta * wn * t) * (np.cos(wd * t) + zeta / root * np.sin(wd * t))
+
+
+WN = 2 * np.pi * 50.0  # rad/s, an invented 50 Hz resonance
+
+
+@pytest.mark.parametrize("zeta", [0.2, 0.5, 0.7])
+def test_second_order_overshoot_peak_time_and_undershoot(zeta):
+    # Ogata ch. 5 / Nise ch. 4: Mp = exp(-ζπ/√(1-ζ²)), tp = π/ωd; the k-th extremum of
+    # the step response has height exp(-kζπ/√(1-ζ²)) about the final value, so the
+    # first trough (post-transition undershoot) is exp(-2ζπ/√(1-ζ²)).
+    t = np.linspace(0.0, 0.3, 30001)
+    dt = t[1] - t[0]
+    y = second_order_step(zeta, WN, t)
+    root = np.sqrt(1 - zeta**2)
+    wd = WN * root
+    expected_mp = 100 * np.exp(-zeta * np.pi / root)
+    assert m.overshoot(t, y, final=1.0) == pytest.approx(expected_mp, rel=1e-5, abs=1e-6)
+    assert abs(m.time_of_peak(t, y) - np.pi / wd) <= dt
+    # the sampled maximum misses the true one by at most ~ (ωd Δt)² / 8 relative
+    assert m.peak(t, y) == pytest.approx(1 + expected_mp / 100, rel=1e-6)
+    expected_under = 100 * np.exp(-2 * zeta * np.pi / root)
+    assert m.undershoot(t, y, final=1.0) == pytest.approx(expected_under, rel=1e-4, abs=1e-6)
+
+
+@pytest.mark.parametrize("zeta", [0.2, 0.5, 0.7])
+def test_second_order_settling_time_within_envelope_bound(zeta):
+    # Ogata ch. 5: the response stays inside the envelope 1 ± exp(-ζωn t)/√(1-ζ²), so it is
+    # inside a 2 % band after ts_env = -ln(0.02 √(1-ζ²)) / (ζωn); the rule of thumb
+    # ts ≈ 4/(ζωn) comes from that envelope (Nise ch. 4), so the measured value must be
+    # within a modest factor of it.
+    t = np.linspace(0.0, 0.5, 50001)
+    y = second_order_step(zeta, WN, t)
+    measured = m.settling_time(t, y, final=1.0)
+    envelope_bound = -np.log(0.02 * np.sqrt(1 - zeta**2)) / (zeta * WN)
+    rule = 4 / (zeta * WN)
+    assert measured <= envelope_bound + (t[1] - t[0])
+    assert 0.6 * rule < measured < 1.1 * rule
+    # The signal really is inside the band after the measured instant and outside just before.
+    after = t > measured + 1e-9
+    assert np.all(np.abs(y[after] - 1) <= 0.02 + 1e-12)
+    just_before = np.searchsorted(t, measured) - 1
+    assert abs(y[just_before] - 1) > 0.02 - 1e-4
+
+
+@pytest.mark.parametrize("zeta", [0.2, 0.7])
+def test_second_order_rise_time_matches_root_finding(zeta):
+    # Reference: the 10 % and 90 % crossing instants of the closed-form response found by
+    # scipy.optimize.brentq (Ogata ch. 5 gives no closed form for the 10–90 % rise time).
+    t = np.linspace(0.0, 0.2, 20001)
+    y = second_order_step(zeta, WN, t)
+    tp = np.pi / (WN * np.sqrt(1 - zeta**2))
+    t10 = brentq(lambda s: second_order_step(zeta, WN, np.array(s)) - 0.1, 1e-9, tp)
+    t90 = brentq(lambda s: second_order_step(zeta, WN, np.array(s)) - 0.9, 1e-9, tp)
+    assert m.rise_time(t, y, final=1.0) == pytest.approx(t90 - t10, rel=1e-4)
+
+
+@pytest.mark.parametrize("direction", [+1.0, -1.0])
+def test_first_order_rise_time_is_tau_ln9(direction):
+    # 10–90 % rise time of a first-order step = τ ln 9 ≈ 2.2 τ (common practice;
+    # Alexander & Sadiku ch. 7 for the exponential response). Same for a falling step.
+    tau = 2.2e-3
+    t = np.linspace(0.0, 20 * tau, 8001)
+    y = 5.0 + direction * 12.0 * (1 - np.exp(-t / tau))
+    assert m.rise_time(t, y, final=5.0 + direction * 12.0) == pytest.approx(tau * np.log(9), rel=1e-5)
+    # First order never overshoots and settles to 2 % after τ ln 50 (same formula).
+    assert m.overshoot(t, y, final=5.0 + direction * 12.0) == 0.0
+    assert m.settling_time(t, y, final=5.0 + direction * 12.0) == pytest.approx(tau * np.log(50), rel=1e-5)
+
+
+@pytest.mark.parametrize("zeta_true", [0.05, 0.2, 0.45])
+def test_damping_ratio_from_logarithmic_decrement_of_damped_sine(zeta_true):
+    # Ogata ch. 5: x = X e^{-σt} sin(ωd t + φ), δ = ln(x_k/x_{k+1}) = σ Td and
+    # ζ = δ / √(4π² + δ²) = σ / √(σ² + ωd²).
+    fd = 1.3e3  # Hz
+    wd = 2 * np.pi * fd
+    sigma = zeta_true * wd / np.sqrt(1 - zeta_true**2)
+    t = np.linspace(0.0, 12 / fd, 24001)
+    offset = 48.0
+    y = offset + 7.0 * np.exp(-sigma * t) * np.sin(wd * t + 0.4)
+    zeta = m.damping_ratio(t, y, final=offset)
+    assert zeta == pytest.approx(zeta_true, rel=2e-4)
+    delta = sigma / fd
+    assert zeta == pytest.approx(delta / np.sqrt(4 * np.pi**2 + delta**2), rel=2e-4)
+    assert m.damped_frequency(t, y, final=offset) == pytest.approx(fd, rel=1e-4)
+
+
+def test_damping_ratio_of_step_response_and_coarse_sampling():
+    # Ogata ch. 5: the underdamped step response rings about 1 with decrement 2πζ/√(1-ζ²).
+    zeta = 0.3
+    t = np.linspace(0.0, 0.3, 1201)  # only ~ 50 samples per period: parabolic refinement matters
+    y = second_order_step(zeta, WN, t)
+    assert m.damping_ratio(t, y, final=1.0) == pytest.approx(zeta, rel=5e-3)
+    assert m.damped_frequency(t, y, final=1.0) == pytest.approx(WN * np.sqrt(1 - zeta**2) / (2 * np.pi), rel=1e-3)
+
+
+def test_no_ringing_gives_nan_not_an_error():
+    t = np.linspace(0.0, 1.0, 1001)
+    first_order = 1 - np.exp(-t / 0.1)
+    # Critically damped second order: 1 - (1 + ωn t) e^{-ωn t} (Ogata ch. 5) never crosses 1.
+    critical = 1 - (1 + 30 * t) * np.exp(-30 * t)
+    batch = np.stack([first_order, critical])
+    assert np.all(np.isnan(m.damping_ratio(t, batch)))
+    assert np.all(np.isnan(m.damped_frequency(t, batch)))
+    # A constant signal has no step: step figures are NaN, not a division error.
+    flat = np.full_like(t, 3.0)
+    assert np.isnan(m.overshoot(t, flat)) and np.isnan(m.rise_time(t, flat))
+
+
+def test_rc_charging_i2t_and_resistor_energy():
+    # Nilsson & Riedel ch. 7 (RC step response): i(t) = (V/R) e^{-t/RC}.
+    # ∫0^∞ i² dt = V² C / (2R); energy dissipated in R = ∫ i² R dt = ½ C V², the same as
+    # the energy finally stored in C.
+    V, R, C = 400.0, 8.2, 2.2e-3
+    tau = R * C
+    t = np.linspace(0.0, 30 * tau, 60001)
+    i = V / R * np.exp(-t / tau)
+    assert m.i2t(t, i) == pytest.approx(V**2 * C / (2 * R), rel=1e-6)
+    assert m.energy(t, i * i * R) == pytest.approx(0.5 * C * V**2, rel=1e-6)
+    assert m.peak(t, i) == pytest.approx(V / R)
+    # Partial window [τ, 2τ]: ∫ (V/R)² e^{-2t/τ} dt = (V/R)² τ/2 (e^{-2} - e^{-4}).
+    partial = (V / R) ** 2 * tau / 2 * (np.exp(-2) - np.exp(-4))
+    assert m.i2t(t, i, start=tau, end=2 * tau) == pytest.approx(partial, rel=1e-6)
+
+
+def test_rms_and_mean_of_sine_over_whole_periods():
+    # rms of A sin(ωt) over whole periods = A/√2; mean of an offset sine = the offset
+    # (Alexander & Sadiku ch. 11, effective value).
+    f = 50.0
+    t = np.linspace(0.0, 0.1, 5001)
+    y = 325.0 * np.sin(2 * np.pi * f * t)
+    assert m.rms(t, y) == pytest.approx(325.0 / np.sqrt(2), rel=1e-6)
+    # A window whose ends fall between samples, still three whole periods long.
+    start = 0.0123456
+    assert m.rms(t, y, start=start, end=start + 3 / f) == pytest.approx(325.0 / np.sqrt(2), rel=1e-5)
+    assert m.mean(t, 2.0 + y, start=start, end=start + 3 / f) == pytest.approx(2.0, abs=1e-4)
+
+
+def test_repeated_event_instants():
+    # A switch event recorded twice: 0 V up to 1 ms, 10 V from 1 ms on (exact integral known).
+    t = np.array([0.0, 0.5e-3, 1e-3, 1e-3, 2e-3, 3e-3])
+    y = np.array([0.0, 0.0, 0.0, 10.0, 10.0, 10.0])
+    assert m.mean(t, y) == pytest.approx(10.0 * 2e-3 / 3e-3)
+    assert m.i2t(t, y) == pytest.approx(100.0 * 2e-3)
+    # The jump is an interval of zero length: skipped, not an infinite slope.
+    assert m.max_slope(t, y) == 0.0
+    # A window that starts exactly on the event takes the value just after it.
+    assert m.mean(t, y, start=1e-3) == pytest.approx(10.0)
+    assert m.mean(t, y, end=1e-3) == pytest.approx(0.0)
+    # Rise time of an instantaneous step is zero; it rises at the event instant.
+    assert m.rise_time(t, y) == 0.0
+
+
+def test_max_slope_of_ramp_and_sine():
+    # d/dt A sin(ωt) peaks at Aω (calculus); sampled finite differences approach it.
+    t = np.linspace(0.0, 0.02, 20001)
+    y = 10.0 * np.sin(2 * np.pi * 50 * t)
+    assert m.max_slope(t, y) == pytest.approx(10.0 * 2 * np.pi * 50, rel=1e-5)
+    assert m.max_slope(t, -3.0 * t) == pytest.approx(3.0)
+
+
+def test_final_value_with_window_averages_ripple():
+    t = np.linspace(0.0, 0.1, 10001)
+    y = 12.0 + 0.5 * np.sin(2 * np.pi * 1e3 * t)
+    assert m.final(t, y) == pytest.approx(y[-1])
+    assert m.final(t, y, window=5e-3) == pytest.approx(12.0, abs=1e-6)  # five whole ripple periods
+
+
+def test_settling_nan_when_not_settled_and_zero_when_never_out():
+    t = np.linspace(0.0, 1.0, 101)
+    slow = 1 - np.exp(-t / 10.0)  # still far from the 1.0 final level at the end
+    assert np.isnan(m.settling_time(t, slow, final=1.0))
+    inside = 1.0 + 0.001 * np.sin(t)
+    assert m.settling_time(t, inside, initial=0.0, final=1.0) == 0.0
+
+
+def test_batched_equals_loop_of_single_calls():
+    rng = np.random.default_rng(7)
+    t = np.linspace(0.0, 0.2, 4001)
+    zetas = rng.uniform(0.1, 0.8, size=(3, 4))
+    wns = rng.uniform(100.0, 400.0, size=(3, 4))
+    y = 1 - np.exp(-zetas[..., None] * wns[..., None] * t) * (
+        np.cos(wns[..., None] * np.sqrt(1 - zetas[..., None] ** 2) * t)
+        + zetas[..., None] / np.sqrt(1 - zetas[..., None] ** 2) * np.sin(wns[..., None] * np.sqrt(1 - zetas[..., None] ** 2) * t)
+    )
+    for name in m.FIGURE_UNITS:
+        unit = "W" if name == "energy" else "V"
+        batched = m.measure(name, t, y, signal_unit=unit)
+        assert batched.shape == (3, 4), name
+        looped = np.array([[m.measure(name, t, y[i, j], signal_unit=unit) for j in range(4)] for i in range(3)])
+        np.testing.assert_allclose(batched, looped, rtol=1e-12, equal_nan=True, err_msg=name)
+    # and the batch figures are right, not only consistent: overshoot per sample (Ogata ch. 5)
+    expected = 100 * np.exp(-zetas * np.pi / np.sqrt(1 - zetas**2))
+    np.testing.assert_allclose(m.overshoot(t, y, final=1.0), expected, rtol=1e-4)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(st.floats(-1e3, 1e3), min_size=3, max_size=40))
+def test_rms_bounds_mean_and_peak(values):
+    # Cauchy–Schwarz: |mean| ≤ rms ≤ max |y| for any signal (any analysis text).
+    y = np.asarray(values)
+    t = np.linspace(0.0, 1.0, y.size)
+    assert abs(m.mean(t, y)) <= m.rms(t, y) * (1 + 1e-12) + 1e-12
+    assert m.rms(t, y) <= np.max(np.abs(y)) * (1 + 1e-12) + 1e-12
+
+
+def test_figure_units():
+    assert m.figure_unit("i2t", "A") == "A²s"
+    assert m.figure_unit("max_slope", "V") == "V/s"
+    assert m.figure_unit("energy", "W") == "J"
+    assert m.figure_unit("overshoot", "A") == "%"
+    assert m.figure_unit("damped_frequency", "V") == "Hz"
+    assert m.figure_unit("damping_ratio", "V") == ""
+    # every figure a requirement may name can be measured and has a unit
+    for name in FIGURES:
+        assert name in m.FIGURE_UNITS
+
+
+@pytest.mark.parametrize(
+    "call, words",
+    [
+        (lambda: m.measure("peak_current", [0, 1], [0, 1], signal_unit="A"), "unknown figure"),
+        (lambda: m.measure("energy", [0, 1], [0, 1], signal_unit="A"), "power"),
+        (lambda: m.measure("peak", [0, 1], [0, 1], signal_unit="A", band=0.05), "no option band"),
+        (lambda: m.peak([0, 2, 1], [0, 1, 2]), "non-decreasing"),
+        (lambda: m.peak([0, 1, 2], [0, 1]), "does not match"),
+        (lambda: m.peak([0.0], [1.0]), "at least 2"),
+        (lambda: m.rms([0, 1, 2], [0, 1, 2], start=1.5, end=3.0), "window"),
+        (lambda: m.settling_time([0, 1], [0, 1], band=-0.1), "band"),
+        (lambda: m.rise_time([0, 1], [0, 1], low=0.9, high=0.1), "reference levels"),
+        (lambda: m.figure_unit("loudness", "V"), "unknown figure"),
+    ],
+)
+def test_bad_input_gets_our_error(call, words):
+    with pytest.raises(MeasurementError, match=words) as info:
+        call()
+    assert isinstance(info.value, CircuitodeError)
+
+
+def test_summarise_standard_figures_per_signal():
+    # An invented run: capacitor charging through 10 Ω from 24 V (Nilsson & Riedel ch. 7).
+    R, C, V = 10.0, 1e-3, 24.0
+    tau = R * C
+    t = np.linspace(0.0, 20 * tau, 20001)
+    vc = V * (1 - np.exp(-t / tau))
+    i = V / R * np.exp(-t / tau)
+    waves = SimpleNamespace(
+        t=t,
+        signals={"voltage at link": vc, "current through R1": i, "power in R1": i * i * R},
+        units={"voltage at link": "V", "current through R1": "A", "power in R1": "W"},
+        probes={},
+    )
+    summary = m.summarise(waves)
+    v = summary["voltage at link"]
+    assert v["rise_time"] == (pytest.approx(tau * np.log(9), rel=1e-4), "s")
+    assert v["final"][1] == "V" and v["overshoot"][0] == 0.0
+    assert "i2t" not in v and "energy" not in v
+    cur = summary["current through R1"]
+    assert cur["i2t"] == (pytest.approx(V**2 * C / (2 * R), rel=1e-5), "A²s")
+    assert cur["peak"] == (pytest.approx(V / R), "A")
+    # the charging current is a falling step from V/R to 0, so it has a (fall) transition duration
+    assert cur["rise_time"][0] == pytest.approx(tau * np.log(9), rel=1e-4)
+    pw = summary["power in R1"]
+    assert pw["energy"] == (pytest.approx(0.5 * C * V**2, rel=1e-5), "J")
+    assert isinstance(v["peak"][0], float)
+
+
+def test_summarise_marks_step_figures_of_a_pulse_as_nan():
+    # An inrush pulse: a series RLC current starting and ending at zero (Nilsson & Riedel ch. 8).
+    t = np.linspace(0.0, 0.05, 5001)
+    i = 30.0 * np.exp(-200 * t) * np.sin(2 * np.pi * 100 * t)
+    waves = SimpleNamespace(t=t, signals={"current through K1": i}, units={"current through K1": "A"}, probes={})
+    row = m.summarise(waves)["current through K1"]
+    for name in ("overshoot", "rise_time", "settling_time"):
+        assert np.isnan(row[name][0]), name
+    assert row["peak"][0] > 0 and row["i2t"][0] > 0
+    # ringing figures still apply to the pulse: ζ = σ/√(σ²+ωd²) (Ogata ch. 5)
+    wd = 2 * np.pi * 100
+    assert row["damping_ratio"][0] == pytest.approx(200 / np.hypot(200, wd), rel=1e-3)
