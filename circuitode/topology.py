@@ -1,0 +1,958 @@
+"""Graph diagnostics on a built :class:`~circuitode.circuit.Circuit`, before any solve.
+
+Each check is one function that returns a list of
+:class:`~circuitode.errors.Diagnostic` and raises nothing; :func:`diagnose` runs
+them all and :func:`verify` raises the :class:`~circuitode.errors.TopologyError`
+subclass named by the first error.
+
+Switches make the graph change with time, so the loop and cut-set checks run
+on every switch configuration the run can reach (:func:`reachable_configurations`).
+An ideal switch (no on-resistance) is a short when closed; one with no
+off-resistance is an open when open.  A switch with a resistance in that state
+is simply a resistor.
+
+Decisions
+---------
+* Floating parts: a part of the circuit with no conducting path to ground in
+  some reachable configuration (for instance the DC link behind two open ideal
+  contactors) leaves its node voltages undetermined, so modified nodal
+  analysis is singular whatever the part contains -- resistors only as much as
+  capacitors.  It is reported as an error, with the time it first floats.
+* Shorted sources: any loop made only of voltage sources and closed ideal
+  switches (a source across a short, two sources in parallel, a source whose
+  terminals are one node) is ``shorted-source``; a loop that also holds a
+  capacitor is ``capacitor-loop``.  Two equal sources in parallel are still an
+  error: the split of current between them is undetermined.
+* A loop made only of closed ideal switches is harmless for the voltages and is
+  reported as a warning (``switch-loop``): the current in each switch of the
+  loop is undetermined.
+* A node touched by only one element terminal is an error
+  (``unconnected-node``): it is almost always a misspelt node name.
+"""
+from __future__ import annotations
+
+import itertools
+import math
+from dataclasses import dataclass
+from typing import Iterable, Sequence
+
+import networkx as nx
+import numpy as np
+
+from .circuit import (
+    Capacitor,
+    Circuit,
+    CurrentSource,
+    Inductor,
+    PeriodicSchedule,
+    Resistor,
+    Switch,
+    ThresholdRule,
+    TimedSchedule,
+    VoltageSource,
+)
+from .errors import (
+    BadCouplingError,
+    BadValueError,
+    CapacitorLoopError,
+    CircuitodeError,
+    Diagnostic,
+    DuplicateNameError,
+    FloatingPartError,
+    InductorCutsetError,
+    NoGroundError,
+    ShortedSourceError,
+    TopologyError,
+    UnconnectedNodeError,
+)
+
+__all__ = [
+    "Configuration",
+    "MAX_CONFIGURATIONS",
+    "reachable_configurations",
+    "check_duplicate_names",
+    "check_values",
+    "check_ground",
+    "check_unconnected_nodes",
+    "check_floating_parts",
+    "check_shorted_sources",
+    "check_capacitor_loops",
+    "check_inductor_cutsets",
+    "check_couplings",
+    "diagnose",
+    "verify",
+    "explain_singular_dc",
+]
+
+#: Most switch configurations enumerated; beyond it the checks cover a subset (with a warning).
+MAX_CONFIGURATIONS = 4096
+#: Periodic switches are followed for this many of their longest period after the last timed change.
+PERIODS_FOLLOWED = 64
+
+_ERROR_CLASSES: dict[str, type[TopologyError]] = {
+    cls.code: cls
+    for cls in (
+        NoGroundError,
+        UnconnectedNodeError,
+        FloatingPartError,
+        CapacitorLoopError,
+        InductorCutsetError,
+        ShortedSourceError,
+        BadCouplingError,
+        BadValueError,
+        DuplicateNameError,
+    )
+}
+
+
+# --------------------------------------------------------------------------
+# Switch configurations
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Configuration:
+    """One reachable assignment of switch states.
+
+    closed : one bool per switch, in ``circuit.switches`` order, True = closed.
+    first_time : s, when the run first reaches it; 0 for the start, nan when it
+        depends on a threshold switch acting.
+    cause : what brings it about, e.g. ``"K_main closes when voltage at link > 43 V"``.
+    """
+
+    closed: tuple[bool, ...]
+    first_time: float
+    cause: str
+
+    def when(self) -> str:
+        """Words for when this configuration occurs, to append to a message."""
+        if math.isnan(self.first_time):
+            return f"if {self.cause}"
+        if self.first_time == 0.0 and self.cause == "initial state":
+            return "from the start"
+        return f"from t = {_seconds(self.first_time)} ({self.cause})"
+
+
+def _seconds(t: float) -> str:
+    return f"{t:g} s"
+
+
+def _is_free(switch: Switch) -> bool:
+    """True when the switch may be in either state at an unknown time (threshold or broken schedule)."""
+    c = switch.control
+    if isinstance(c, ThresholdRule):
+        return True
+    if isinstance(c, PeriodicSchedule):
+        return not (math.isfinite(c.period) and c.period > 0 and 0 < c.duty < 1 and math.isfinite(c.start))
+    return not all(math.isfinite(t) for t, _ in c.changes)
+
+
+def _threshold_words(switch: Switch, closes: bool) -> str:
+    c = switch.control
+    verb = "closes" if closes else "opens"
+    if isinstance(c, ThresholdRule):
+        label = getattr(c.probe, "label", str(c.probe))
+        unit = getattr(c.probe, "unit", "")
+        return f"{switch.name} {verb} when {label} {'>' if c.above else '<'} {c.level:g} {unit}".rstrip()
+    return f"{switch.name} {verb} (its schedule is invalid, so either state is assumed)"
+
+
+def _horizon(circuit: Circuit, until: float | None, switches: Sequence[Switch]) -> float:
+    if until is None and circuit.analysis is not None:
+        until = circuit.analysis.until
+    horizon = math.inf if until is None or not math.isfinite(until) else float(until)
+    periodic = [s.control for s in switches if isinstance(s.control, PeriodicSchedule) and not _is_free(s)]
+    if periodic:
+        timed = [t for s in switches if isinstance(s.control, TimedSchedule) and not _is_free(s) for t, _ in s.control.changes]
+        last = max([0.0, *(t for t in timed if t < horizon), *(p.start for p in periodic)])
+        horizon = min(horizon, last + PERIODS_FOLLOWED * max(p.period for p in periodic))
+    return horizon
+
+
+def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuration], list[str]]:
+    """Configurations in order of first occurrence, plus notes on any cap applied."""
+    switches = circuit.switches
+    notes: list[str] = []
+    state = [s.initially_closed for s in switches]
+    scheduled = [Configuration(tuple(state), 0.0, "initial state")]
+    seen = {tuple(state)}
+    horizon = _horizon(circuit, until, switches)
+    events = sorted(
+        (t, i, closed)
+        for i, s in enumerate(switches)
+        if not _is_free(s)
+        for t, closed in s.scheduled_changes(-math.ulp(0.0), horizon)
+    )
+    for t, group in itertools.groupby(events, key=lambda e: e[0]):
+        words = []
+        for _, i, closed in group:
+            if state[i] != closed:
+                state[i] = closed
+                words.append(f"{switches[i].name} {'closes' if closed else 'opens'} at {_seconds(t)}")
+        key = tuple(state)
+        if words and key not in seen:
+            seen.add(key)
+            scheduled.append(Configuration(key, float(t), "; ".join(words)))
+
+    free = [i for i, s in enumerate(switches) if _is_free(s)]
+    if 2 ** len(free) <= MAX_CONFIGURATIONS:
+        flips = [c for r in range(len(free) + 1) for c in itertools.combinations(free, r)]
+    else:
+        flips = [()] + [(i,) for i in free] + [tuple(free)]
+        notes.append(
+            f"{len(free)} threshold-controlled switches give {2 ** len(free)} combinations; "
+            f"only each one acting alone and all acting together were checked"
+        )
+    out: list[Configuration] = []
+    seen = set()
+    for flip in flips:
+        for base in scheduled:
+            closed = list(base.closed)
+            for i in flip:
+                closed[i] = not switches[i].initially_closed
+            key = tuple(closed)
+            if key in seen:
+                continue
+            seen.add(key)
+            if flip:
+                words = "; ".join(_threshold_words(switches[i], closed[i]) for i in flip)
+                if base.cause != "initial state":
+                    words = f"{base.cause}; {words}"
+                out.append(Configuration(key, math.nan, words))
+            else:
+                out.append(base)
+            if len(out) >= MAX_CONFIGURATIONS:
+                notes.append(f"only the first {MAX_CONFIGURATIONS} switch configurations were checked")
+                return out, notes
+    return out, notes
+
+
+def reachable_configurations(circuit: Circuit, until: float | None = None) -> list[Configuration]:
+    """Every switch configuration the run can reach, in order of first occurrence.
+
+    Timed and periodic switches follow their schedules over [0, until]
+    (``until`` defaults to the circuit's analysis window, else no end);
+    periodic switches are followed for at most ``PERIODS_FOLLOWED`` of the longest
+    period after the last timed change.  Threshold switches (and switches whose
+    schedule is invalid) may be in either state, combined with every scheduled
+    configuration; with more than 12 of them only each acting alone and all
+    together are taken.  At most ``MAX_CONFIGURATIONS`` are returned.
+
+    Parameters
+    ----------
+    circuit : the built circuit.
+    until : end of the run, s, or None.
+
+    Returns
+    -------
+    list of Configuration; the first is the state at t = 0.
+
+    Examples
+    --------
+    >>> from circuitode.circuit import Circuit, Resistor, Switch, TimedSchedule
+    >>> k = Switch("K", "a", "b", TimedSchedule(False, ((1e-3, True),)))
+    >>> c = Circuit("demo", "b", (Resistor("R", "a", "b", 1.0), k))
+    >>> [(x.closed, x.first_time) for x in reachable_configurations(c)]
+    [((False,), 0.0), ((True,), 0.001)]
+    """
+    return _enumerate(circuit, until)[0]
+
+
+def _configurations(circuit: Circuit, configurations: Sequence[Configuration] | None) -> Sequence[Configuration]:
+    return reachable_configurations(circuit) if configurations is None else configurations
+
+
+def _distinct(configurations: Iterable[Configuration], relevant: Sequence[int]) -> list[Configuration]:
+    """First configuration for each distinct state of the relevant switches."""
+    seen: set[tuple[bool, ...]] = set()
+    out = []
+    for cfg in configurations:
+        key = tuple(cfg.closed[i] for i in relevant)
+        if key not in seen:
+            seen.add(key)
+            out.append(cfg)
+    return out
+
+
+# --------------------------------------------------------------------------
+# Graph helpers (edges carry the element's index in circuit.elements)
+# --------------------------------------------------------------------------
+
+
+def _is_short(e, closed: bool) -> bool:
+    return isinstance(e, Switch) and closed and e.on_resistance is None
+
+
+def _is_open(e, closed: bool) -> bool:
+    return isinstance(e, Switch) and not closed and e.off_resistance is None
+
+
+def _switch_states(circuit: Circuit, closed: Sequence[bool]) -> list[bool | None]:
+    """Per element: the switch's state, or None for an element that is not a switch."""
+    states: list[bool | None] = []
+    it = iter(closed)
+    for e in circuit.elements:
+        states.append(next(it) if isinstance(e, Switch) else None)
+    return states
+
+
+def _fundamental_loops(circuit: Circuit, ranked: Sequence[tuple[int, int]]) -> list[list[int]]:
+    """Fundamental loops of the graph of the given edges.
+
+    ranked : (rank, element index); edges enter a spanning forest in rank order,
+    so the loop closed by an edge passes only through edges of equal or lower rank.
+    Each loop starts with the edge that closes it.  Parallel edges and self-loops count.
+    """
+    forest = nx.Graph()
+    joined = nx.utils.UnionFind()
+    loops = []
+    for _, i in sorted(ranked):
+        e = circuit.elements[i]
+        if joined[e.first] == joined[e.second]:
+            if e.first == e.second:
+                loops.append([i])
+            else:
+                path = nx.shortest_path(forest, e.first, e.second)
+                loops.append([i] + [forest.edges[a, b]["index"] for a, b in zip(path, path[1:])])
+        else:
+            joined.union(e.first, e.second)
+            forest.add_edge(e.first, e.second, index=i)
+    return loops
+
+
+def _isolated_groups(circuit: Circuit, conducting: Sequence[int], cut: Sequence[int]) -> list[tuple[list[str], list[int]]]:
+    """Node groups joined to the rest of their part only through ``cut`` edges.
+
+    conducting, cut : element indices; other elements are treated as absent.
+    Returns (nodes of the group, indices of the cut edges around it); the group
+    holding ground (else the largest) in each part is the reference and is not listed.
+    """
+    order = {n: k for k, n in enumerate(circuit.nodes)}
+    inner = nx.Graph()
+    inner.add_nodes_from(circuit.nodes)
+    inner.add_edges_from((circuit.elements[i].first, circuit.elements[i].second) for i in conducting)
+    group_of = {}
+    groups = []
+    for g, comp in enumerate(nx.connected_components(inner)):
+        groups.append(sorted(comp, key=order.__getitem__))
+        for n in comp:
+            group_of[n] = g
+    outer = nx.Graph()
+    outer.add_nodes_from(range(len(groups)))
+    around: dict[int, list[int]] = {g: [] for g in range(len(groups))}
+    for i in cut:
+        a, b = group_of[circuit.elements[i].first], group_of[circuit.elements[i].second]
+        if a != b:
+            outer.add_edge(a, b)
+            around[a].append(i)
+            around[b].append(i)
+    found = []
+    for part in nx.connected_components(outer):
+        if len(part) < 2:
+            continue
+        ref = next((g for g in part if circuit.ground in groups[g]), None)
+        if ref is None:
+            ref = max(sorted(part), key=lambda g: len(groups[g]))
+        for g in sorted(part, key=lambda g: order[groups[g][0]]):
+            if g != ref:
+                found.append((groups[g], around[g]))
+    return found
+
+
+def _names(circuit: Circuit, indices: Iterable[int]) -> tuple[str, ...]:
+    return tuple(circuit.elements[i].name for i in indices)
+
+
+def _where(circuit: Circuit, indices: Sequence[int]):
+    return circuit.elements[indices[0]].where if indices else None
+
+
+def _list(words: Sequence[str]) -> str:
+    words = list(words)
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+
+
+def _node_users(circuit: Circuit, nodes: Sequence[str]) -> list[int]:
+    wanted = set(nodes)
+    return [i for i, e in enumerate(circuit.elements) if e.first in wanted or e.second in wanted]
+
+
+def _kind(e) -> str:
+    return {
+        Resistor: "resistor",
+        Capacitor: "capacitor",
+        Inductor: "inductor",
+        VoltageSource: "voltage source",
+        CurrentSource: "current source",
+        Switch: "switch",
+    }.get(type(e), "coupling")
+
+
+def _switches_in(circuit: Circuit, indices: Iterable[int]) -> list[str]:
+    return [circuit.elements[i].name for i in indices if isinstance(circuit.elements[i], Switch)]
+
+
+def _switch_indices(circuit: Circuit, pick) -> list[int]:
+    """Positions, within circuit.switches, of the switches for which ``pick(switch)`` is true."""
+    return [k for k, s in enumerate(circuit.switches) if pick(s)]
+
+
+# --------------------------------------------------------------------------
+# Checks: names and values
+# --------------------------------------------------------------------------
+
+
+def check_duplicate_names(circuit: Circuit) -> list[Diagnostic]:
+    """``duplicate-name``: two elements (or couplings) sharing one name.
+
+    ``where`` points at the second use of the name.
+    """
+    uses: dict[str, list] = {}
+    for e in (*circuit.elements, *circuit.couplings):
+        uses.setdefault(e.name, []).append(e)
+    out = []
+    for name, items in uses.items():
+        if len(items) > 1:
+            kinds = _list([_kind(e) for e in items])
+            out.append(
+                Diagnostic(
+                    "duplicate-name",
+                    f"the name {name} is given to {len(items)} elements ({kinds})",
+                    (name,),
+                    f"rename all but one of them; every element needs its own name",
+                    where=items[1].where,
+                )
+            )
+    return out
+
+
+def _positive(value) -> bool:
+    return value is not None and math.isfinite(value) and value > 0
+
+
+def check_values(circuit: Circuit) -> list[Diagnostic]:
+    """``bad-value``: non-positive or non-finite R, C, L and switch resistances,
+    negative or unordered schedule times, a periodic duty outside (0, 1), a bad
+    analysis window.  An off-resistance not above the on-resistance is a warning.
+    """
+    out = []
+
+    def bad(e, what: str, fix: str, severity: str = "error") -> None:
+        out.append(Diagnostic("bad-value", f"{_kind(e)} {e.name}: {what}", (e.name,), fix, severity, e.where))
+
+    quantity = {Resistor: ("resistance", "Ω"), Capacitor: ("capacitance", "F"), Inductor: ("inductance", "H")}
+    for e in circuit.elements:
+        if type(e) in quantity:
+            field, unit = quantity[type(e)]
+            value = getattr(e, field)
+            if not _positive(value):
+                bad(e, f"{field} {value:g} {unit} must be positive and finite",
+                    f"give {e.name} a positive {field}; for a near short or open use a very small or large value")
+        initial = getattr(e, "initial_voltage", None) if isinstance(e, Capacitor) else getattr(e, "initial_current", None)
+        if initial is not None and not math.isfinite(initial):
+            bad(e, f"initial value {initial} is not a finite number", f"give {e.name} a finite initial value")
+        if not isinstance(e, Switch):
+            continue
+        for field in ("on_resistance", "off_resistance"):
+            value = getattr(e, field)
+            if value is not None and not _positive(value):
+                words = field.replace("_", "-")
+                bad(e, f"{words} {value:g} Ω must be positive and finite",
+                    f"give {e.name} a positive {words}, or none for an ideal switch")
+        if _positive(e.on_resistance) and _positive(e.off_resistance) and e.off_resistance <= e.on_resistance:
+            bad(e, f"off-resistance {e.off_resistance:g} Ω is not above its on-resistance {e.on_resistance:g} Ω",
+                "check the two values: a switch should conduct better when closed", severity="warning")
+        c = e.control
+        if isinstance(c, TimedSchedule):
+            times = [t for t, _ in c.changes]
+            if not all(math.isfinite(t) and t >= 0 for t in times):
+                bad(e, f"switching times {times} must be finite and not negative",
+                    "give times from 0 s on; the run starts at t = 0")
+            elif any(b <= a for a, b in zip(times, times[1:])):
+                bad(e, f"switching times {times} must be strictly increasing",
+                    "list each change once, in time order")
+        elif isinstance(c, PeriodicSchedule):
+            if not _positive(c.period):
+                bad(e, f"period {c.period:g} s must be positive and finite", "give a positive period")
+            if not (0 < c.duty < 1):
+                bad(e, f"duty {c.duty:g} must lie strictly between 0 and 1",
+                    "give a duty between 0 and 1 (e.g. 0.5); for a switch that never moves use a timed switch")
+            if not (math.isfinite(c.start) and c.start >= 0):
+                bad(e, f"start {c.start:g} s must be finite and not negative", "start at 0 s or later")
+        elif isinstance(c, ThresholdRule) and not math.isfinite(c.level):
+            bad(e, f"threshold level {c.level} is not a finite number", "give a finite threshold level")
+    a = circuit.analysis
+    if a is not None:
+        problems = []
+        if not _positive(a.until):
+            problems.append(f"end time {a.until:g} s must be positive and finite")
+        if a.step is not None and not _positive(a.step):
+            problems.append(f"step {a.step:g} s must be positive and finite")
+        if a.points is not None and a.points < 2:
+            problems.append(f"number of points {a.points} must be at least 2")
+        for p in problems:
+            out.append(Diagnostic("bad-value", f"transient: {p}", (), "correct the transient statement", where=a.where))
+    return out
+
+
+# --------------------------------------------------------------------------
+# Checks: ground and nodes
+# --------------------------------------------------------------------------
+
+
+def _has_ground(circuit: Circuit) -> bool:
+    return circuit.ground is not None and any(circuit.ground in (e.first, e.second) for e in circuit.elements)
+
+
+def check_ground(circuit: Circuit) -> list[Diagnostic]:
+    """``no-ground``: no ground declared, or the ground node is on no element."""
+    fix = "add `ground NAME` naming the reference node"
+    if not circuit.elements:
+        return [Diagnostic("no-ground", "the circuit has no elements", (), "add elements between nodes, and a ground")]
+    others = [n for n in circuit.nodes if n != circuit.ground]
+    hint = f" (for example one of {', '.join(others[:5])})" if others else ""
+    if circuit.ground is None:
+        return [Diagnostic("no-ground", "no ground (reference) node is declared", (), fix + hint)]
+    if not _has_ground(circuit):
+        return [Diagnostic("no-ground", f"the ground node {circuit.ground} is not a terminal of any element",
+                           (circuit.ground,), fix + hint)]
+    return []
+
+
+def check_unconnected_nodes(circuit: Circuit) -> list[Diagnostic]:
+    """``unconnected-node``: a node touched by a single element terminal (an error), and
+    an element with both terminals on one node (a warning; for voltage sources and
+    capacitors the loop checks report it as an error instead).
+    """
+    import difflib
+
+    out = []
+    terminals: dict[str, list[int]] = {}
+    for i, e in enumerate(circuit.elements):
+        terminals.setdefault(e.first, []).append(i)
+        terminals.setdefault(e.second, []).append(i)
+    for node, users in terminals.items():
+        if len(users) != 1:
+            continue
+        e = circuit.elements[users[0]]
+        guess = difflib.get_close_matches(node, [n for n in terminals if n != node], n=1)
+        hint = f" (did you mean {guess[0]}?)" if guess else ""
+        out.append(Diagnostic(
+            "unconnected-node",
+            f"node {node} is reached only by {_kind(e)} {e.name}; nothing else connects to it",
+            (e.name, node),
+            f"connect {node} to the rest of the circuit{hint} or remove {e.name}",
+            where=e.where,
+        ))
+    for e in circuit.elements:
+        if e.first == e.second and not isinstance(e, (VoltageSource, Capacitor)):
+            out.append(Diagnostic(
+                "unconnected-node",
+                f"{_kind(e)} {e.name} has both terminals on node {e.first}, so it does nothing",
+                (e.name, e.first),
+                f"connect the second terminal of {e.name} to the node you meant, or remove it",
+                "warning",
+                e.where,
+            ))
+    return out
+
+
+def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuration] | None = None) -> list[Diagnostic]:
+    """``floating-part``: nodes with no path to ground in some reachable configuration.
+
+    Open ideal switches are no path.  Every floating part is an error, whatever it
+    holds: its node voltages are undetermined, so the nodal equations are singular.
+    Nothing is reported when there is no usable ground (``check_ground`` covers it).
+    """
+    if not _has_ground(circuit):
+        return []
+    configurations = _configurations(circuit, configurations)
+    relevant = _switch_indices(circuit, lambda s: s.off_resistance is None)
+    always = nx.Graph()
+    always.add_nodes_from(circuit.nodes)
+    always.add_edges_from((e.first, e.second) for e in circuit.elements)
+    out, seen = [], set()
+    for cfg in _distinct(configurations, relevant):
+        states = _switch_states(circuit, cfg.closed)
+        g = nx.Graph()
+        g.add_nodes_from(circuit.nodes)
+        g.add_edges_from((e.first, e.second) for e, s in zip(circuit.elements, states) if not _is_open(e, s))
+        for part in nx.connected_components(g):
+            if circuit.ground in part or frozenset(part) in seen:
+                continue
+            seen.add(frozenset(part))
+            nodes = [n for n in circuit.nodes if n in part]
+            users = _node_users(circuit, nodes)
+            inside = [i for i in users if not _is_open(circuit.elements[i], states[i])]
+            cut_off = [i for i in users if _is_open(circuit.elements[i], states[i])]
+            static = nx.has_path(always, nodes[0], circuit.ground)
+            label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
+            if not static:
+                msg = f"{label} ({_list(_names(circuit, inside))}) have no connection to ground at all"
+                fix = ("connect the part to ground, directly or through a large resistor (e.g. 1 GΩ); "
+                       "a part coupled to the rest only magnetically needs this too")
+            else:
+                switches = _list(_names(circuit, cut_off))
+                msg = (f"{label} ({_list(_names(circuit, inside))}) lose every path to ground "
+                       f"while {switches} {'is' if len(cut_off) == 1 else 'are'} open, {cfg.when()}")
+                fix = (f"give {switches} an off-resistance (e.g. 100 MΩ) or tie the part to ground "
+                       f"through a large resistor")
+            involved = inside + cut_off
+            out.append(Diagnostic("floating-part", msg, _names(circuit, involved), fix, where=_where(circuit, involved)))
+    return out
+
+
+# --------------------------------------------------------------------------
+# Checks: loops of capacitors and voltage sources, cut sets of inductors
+# --------------------------------------------------------------------------
+
+
+def _stiff_loops(circuit: Circuit, configurations: Sequence[Configuration], state_kind: type):
+    """Loops of ``state_kind`` elements, voltage sources and closed ideal switches.
+
+    Yields (loop element indices, configuration) once per distinct loop, in the
+    configuration where it first appears.
+    """
+    relevant = _switch_indices(circuit, lambda s: s.on_resistance is None)
+    seen = set()
+    for cfg in _distinct(configurations, relevant):
+        states = _switch_states(circuit, cfg.closed)
+        ranked = []
+        for i, (e, s) in enumerate(zip(circuit.elements, states)):
+            if _is_short(e, s):
+                ranked.append((0, i))
+            elif isinstance(e, VoltageSource):
+                ranked.append((1, i))
+            elif isinstance(e, state_kind):
+                ranked.append((2, i))
+        for loop in _fundamental_loops(circuit, ranked):
+            key = frozenset(loop)
+            if key not in seen:
+                seen.add(key)
+                yield sorted(loop), cfg
+
+
+def _loop_phrase(circuit: Circuit, loop: Sequence[int], cfg: Configuration) -> str:
+    switches = _switches_in(circuit, loop)
+    return "" if not switches else f" {cfg.when()}"
+
+
+def check_shorted_sources(circuit: Circuit, configurations: Sequence[Configuration] | None = None) -> list[Diagnostic]:
+    """``shorted-source``: a loop of voltage sources and closed ideal switches only.
+
+    Covers a source whose terminals are one node, a source shorted by a closed
+    ideal switch, and sources in parallel (even equal ones: the current shared
+    between them is undetermined).  A loop of closed ideal switches alone is a
+    ``switch-loop`` warning.
+    """
+    configurations = _configurations(circuit, configurations)
+    out = []
+    for loop, cfg in _stiff_loops(circuit, configurations, VoltageSource):
+        elements = [circuit.elements[i] for i in loop]
+        sources = [e.name for e in elements if isinstance(e, VoltageSource)]
+        switches = [e.name for e in elements if isinstance(e, Switch)]
+        when = _loop_phrase(circuit, loop, cfg)
+        if not sources:
+            out.append(Diagnostic(
+                "switch-loop",
+                f"closed ideal switches {_list(switches)} form a loop{when}; the current in each is undetermined",
+                tuple(switches), f"give {switches[0]} an on-resistance if you record its current", "warning",
+                _where(circuit, loop)))
+            continue
+        if len(loop) == 1:
+            e = elements[0]
+            msg = f"voltage source {e.name} has both terminals on node {e.first}"
+            fix = f"connect the terminals of {e.name} to two different nodes"
+        elif len(sources) == 1:
+            msg = f"voltage source {sources[0]} is shorted by closed switch{'es' if len(switches) > 1 else ''} {_list(switches)}{when}"
+            fix = (f"give {_list(switches)} an on-resistance, or put the internal resistance of "
+                   f"{sources[0]} in series with it")
+        else:
+            via = f" through closed switch{'es' if len(switches) > 1 else ''} {_list(switches)}" if switches else ""
+            msg = (f"voltage sources {_list(sources)} form a loop{via}{when}: unless they agree at every instant "
+                   f"the loop breaks Kirchhoff's voltage law, and even then the current between them is undetermined")
+            fix = f"put a series resistance (e.g. the internal resistance of {sources[-1]}) in the loop, or remove one source"
+        out.append(Diagnostic("shorted-source", msg, _names(circuit, loop), fix, where=_where(circuit, loop)))
+    return out
+
+
+def check_capacitor_loops(circuit: Circuit, configurations: Sequence[Configuration] | None = None) -> list[Diagnostic]:
+    """``capacitor-loop``: a loop of capacitors, voltage sources and closed ideal switches
+    with at least one capacitor, in any reachable configuration.
+
+    Such a loop ties the capacitor voltages together (one fewer free state) and,
+    when a switch closes it onto unequal voltages, moves charge in zero time.
+    Each diagnostic names the loop's elements and, for a switched loop, when it
+    first closes.
+    """
+    configurations = _configurations(circuit, configurations)
+    out = []
+    for loop, cfg in _stiff_loops(circuit, configurations, Capacitor):
+        elements = [circuit.elements[i] for i in loop]
+        caps = [e.name for e in elements if isinstance(e, Capacitor)]
+        if not caps:
+            continue
+        sources = [e.name for e in elements if isinstance(e, VoltageSource)]
+        switches = [e.name for e in elements if isinstance(e, Switch)]
+        if len(loop) == 1:
+            msg = f"capacitor {caps[0]} has both terminals on node {elements[0].first}"
+            fix = f"connect the terminals of {caps[0]} to two different nodes"
+        else:
+            with_ = []
+            if sources:
+                with_.append(f"voltage source{'s' if len(sources) > 1 else ''} {_list(sources)}")
+            if switches:
+                with_.append(f"closed switch{'es' if len(switches) > 1 else ''} {_list(switches)}")
+            extra = f" (with {', '.join(with_)})" if with_ else ""
+            msg = (f"capacitor{'s' if len(caps) > 1 else ''} {_list(caps)}{extra} form a loop with no resistance"
+                   f"{_loop_phrase(circuit, loop, cfg)}; "
+                   f"the capacitor voltages are tied together and any difference is equalised in zero time")
+            fix = f"add a series resistance (e.g. the ESR of {caps[0]})"
+            if sources:
+                fix += f" or the internal resistance of {sources[0]}"
+            if switches:
+                fix += f", or give switch {_list(switches)} an on-resistance"
+        out.append(Diagnostic("capacitor-loop", msg, _names(circuit, loop), fix, where=_where(circuit, loop)))
+    return out
+
+
+def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configuration] | None = None) -> list[Diagnostic]:
+    """``inductor-cutset``: nodes joined to the rest only through inductors and current
+    sources (open ideal switches being no path), in any reachable configuration.
+
+    The inductor currents of such a cut set are tied by Kirchhoff's current law,
+    and breaking one (a series ideal switch opening) would need an infinite voltage.
+    A lone dangling node is left to ``check_unconnected_nodes``.
+    """
+    configurations = _configurations(circuit, configurations)
+    terminals: dict[str, int] = {}
+    for e in circuit.elements:
+        terminals[e.first] = terminals.get(e.first, 0) + 1
+        terminals[e.second] = terminals.get(e.second, 0) + 1
+    relevant = _switch_indices(circuit, lambda s: s.off_resistance is None)
+    out, seen = [], set()
+    for cfg in _distinct(configurations, relevant):
+        states = _switch_states(circuit, cfg.closed)
+        conducting, cut = [], []
+        for i, (e, s) in enumerate(zip(circuit.elements, states)):
+            if isinstance(e, (Inductor, CurrentSource)):
+                cut.append(i)
+            elif not _is_open(e, s):
+                conducting.append(i)
+        for nodes, around in _isolated_groups(circuit, conducting, cut):
+            if len(nodes) == 1 and terminals.get(nodes[0], 0) == 1:
+                continue
+            key = (frozenset(nodes), frozenset(around))
+            if key in seen:
+                continue
+            seen.add(key)
+            opened = [i for i in _node_users(circuit, nodes) if _is_open(circuit.elements[i], states[i])]
+            label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
+            inductors = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], Inductor)]
+            sources = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], CurrentSource)]
+            through = []
+            if inductors:
+                through.append(f"inductor{'s' if len(inductors) > 1 else ''} {_list(inductors)}")
+            if sources:
+                through.append(f"current source{'s' if len(sources) > 1 else ''} {_list(sources)}")
+            if opened:
+                names = _list(_names(circuit, opened))
+                msg = (f"{label} {'is' if len(nodes) == 1 else 'are'} joined to the rest only through "
+                       f"{_list(through)} while {names} {'is' if len(opened) == 1 else 'are'} open, {cfg.when()}; "
+                       f"interrupting an inductor current would need an infinite voltage")
+                fix = f"give switch {names} an off-resistance or add a parallel resistor / snubber across it"
+            else:
+                msg = (f"{label} {'is' if len(nodes) == 1 else 'are'} joined to the rest only through "
+                       f"{_list(through)}; their currents are tied by Kirchhoff's current law")
+                fix = (f"add a resistor from {nodes[0]} to another node (e.g. a damping resistor across "
+                       f"{(inductors or sources)[0]})")
+                if len(inductors) > 1 and not sources:
+                    fix += ", or merge the series inductors into one"
+            involved = sorted(set(around) | set(opened))
+            out.append(Diagnostic("inductor-cutset", msg, _names(circuit, involved), fix,
+                                  where=_where(circuit, involved)))
+    return out
+
+
+# --------------------------------------------------------------------------
+# Checks: magnetic couplings
+# --------------------------------------------------------------------------
+
+
+def check_couplings(circuit: Circuit) -> list[Diagnostic]:
+    """``bad-coupling``: a coefficient outside (-1, 1), a name that is not an
+    inductor, an inductor coupled with itself or a pair coupled twice, and an
+    inductance matrix (L on the diagonal, M = k √(L1 L2) off it) that is not
+    positive definite, checked per group of coupled inductors with ``eigvalsh``.
+    """
+    out = []
+    inductors = {e.name: e for e in circuit.elements if isinstance(e, Inductor)}
+    names = {e.name: e for e in circuit.elements}
+    valid: dict[frozenset, object] = {}
+    for c in circuit.couplings:
+        def bad(msg: str, fix: str) -> None:
+            out.append(Diagnostic("bad-coupling", f"coupling {c.name}: {msg}", (c.name, c.first, c.second), fix,
+                                  where=c.where))
+
+        problems = len(out)
+        for ref in (c.first, c.second):
+            if ref not in names:
+                bad(f"{ref} is not an element of the circuit", "name two inductors of the circuit")
+            elif ref not in inductors:
+                bad(f"{ref} is a {_kind(names[ref])}, not an inductor", "couple two inductors")
+        if c.first == c.second:
+            bad(f"couples {c.first} with itself", "couple two different inductors")
+        if not (math.isfinite(c.k) and -1 < c.k < 1):
+            bad(f"coefficient k = {c.k:g} lies outside (-1, 1)",
+                "give |k| < 1 (e.g. 0.99 for a tightly wound transformer); |k| = 1 makes the inductance matrix singular")
+        pair = frozenset((c.first, c.second))
+        if pair in valid:
+            bad(f"{c.first} and {c.second} are already coupled by {valid[pair].name}",
+                "give each pair of inductors one coupling")
+        if len(out) == problems:
+            valid[pair] = c
+    usable = {p: c for p, c in valid.items() if all(_positive(inductors[n].inductance) for n in p)}
+    web = nx.Graph()
+    web.add_edges_from((c.first, c.second, {"coupling": c}) for c in usable.values())
+    order = {e.name: k for k, e in enumerate(circuit.elements)}
+    for group in nx.connected_components(web):
+        members = sorted(group, key=order.__getitem__)
+        index = {n: k for k, n in enumerate(members)}
+        L = np.diag([inductors[n].inductance for n in members]).astype(float)
+        couplings = [d["coupling"] for _, _, d in web.subgraph(group).edges(data=True)]
+        couplings.sort(key=lambda c: c.name)
+        for c in couplings:
+            a, b = index[c.first], index[c.second]
+            L[a, b] = L[b, a] = c.k * math.sqrt(L[a, a] * L[b, b])
+        scale = np.sqrt(np.diag(L))
+        eig = np.linalg.eigvalsh(L / np.outer(scale, scale))
+        if eig[0] <= 1e-12 * eig[-1]:
+            cs = [c.name for c in couplings]
+            out.append(Diagnostic(
+                "bad-coupling",
+                f"couplings {_list(cs)} make the inductance matrix of {_list(members)} not positive definite "
+                f"(smallest eigenvalue of the normalised matrix {eig[0]:.3g}); such windings would store negative energy",
+                tuple(cs) + tuple(members),
+                "reduce the coupling coefficients or make their signs consistent with the winding directions",
+                where=couplings[0].where,
+            ))
+    return out
+
+
+# --------------------------------------------------------------------------
+# Driver
+# --------------------------------------------------------------------------
+
+
+def diagnose(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
+    """Run every check and return every finding, errors and warnings.
+
+    Order: names, values, ground, nodes, floating parts, shorted sources,
+    capacitor loops, inductor cut sets, couplings; then a warning if the
+    switch configurations had to be capped.
+
+    Parameters
+    ----------
+    circuit : the built circuit.
+    until : end of the run, s; defaults to the analysis window.
+
+    Returns
+    -------
+    list of Diagnostic (severity "error" or "warning").
+    """
+    configurations, notes = _enumerate(circuit, until)
+    out = check_duplicate_names(circuit) + check_values(circuit) + check_ground(circuit)
+    out += check_unconnected_nodes(circuit)
+    out += check_floating_parts(circuit, configurations)
+    out += check_shorted_sources(circuit, configurations)
+    out += check_capacitor_loops(circuit, configurations)
+    out += check_inductor_cutsets(circuit, configurations)
+    out += check_couplings(circuit)
+    out += [Diagnostic("configurations-capped", note, (), "the remaining configurations were not checked", "warning")
+            for note in notes]
+    return out
+
+
+def verify(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
+    """Raise if the circuit cannot be simulated; otherwise return the warnings.
+
+    Raises
+    ------
+    TopologyError
+        The subclass matching the first error's code (e.g. CapacitorLoopError),
+        carrying every error diagnostic in ``diagnostics``.
+    """
+    found = diagnose(circuit, until)
+    errors = [d for d in found if d.severity == "error"]
+    if errors:
+        raise _ERROR_CLASSES.get(errors[0].code, TopologyError)(errors)
+    return found
+
+
+def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
+    """Words for why the DC steady state at one switch configuration is not unique.
+
+    At DC capacitors carry no current and inductors have no voltage, so the
+    steady state is undetermined by a loop of inductors, voltage sources and
+    closed ideal switches (the loop current is free), or by a cut set of
+    capacitors, current sources and open ideal switches (the voltage across it
+    is free).
+
+    Parameters
+    ----------
+    circuit : the built circuit.
+    closed : one bool per switch in ``circuit.switches`` order, True = closed.
+
+    Returns
+    -------
+    str : one sentence per loop or cut set found, naming the elements, and what to change.
+    """
+    closed = tuple(bool(c) for c in closed)
+    if len(closed) != len(circuit.switches):
+        raise CircuitodeError(
+            f"explain_singular_dc needs one switch state per switch ({len(circuit.switches)}), got {len(closed)}")
+    states = _switch_states(circuit, closed)
+    ranked = []
+    conducting, cut = [], []
+    for i, (e, s) in enumerate(zip(circuit.elements, states)):
+        if _is_short(e, s):
+            ranked.append((0, i))
+        elif isinstance(e, VoltageSource):
+            ranked.append((1, i))
+        elif isinstance(e, Inductor):
+            ranked.append((2, i))
+        if isinstance(e, (Capacitor, CurrentSource)):
+            cut.append(i)
+        elif not _is_open(e, s):
+            conducting.append(i)
+    lines = []
+    for loop in _fundamental_loops(circuit, ranked):
+        if all(isinstance(circuit.elements[i], Switch) for i in loop):
+            continue
+        names = _names(circuit, loop)
+        lines.append(
+            f"{_list(names)} form a loop with no resistance: at DC the current around it is not fixed "
+            f"(add a series resistance, e.g. the winding resistance of {names[0]})")
+    for nodes, around in _isolated_groups(circuit, conducting, cut):
+        names = _names(circuit, around)
+        label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
+        through = f" only through {_list(names)}" if names else " by nothing"
+        lines.append(
+            f"{label} {'is' if len(nodes) == 1 else 'are'} reached{through}, which carry no direct current: "
+            f"{'its' if len(nodes) == 1 else 'their'} DC voltage is not fixed (add a resistor from {nodes[0]} to ground, e.g. a bleeder)")
+    for part in _floating_nodes(circuit, states):
+        lines.append(f"node{'s' if len(part) > 1 else ''} {_list(part)} have no path to ground")
+    if not lines:
+        return ("no loop of inductors and voltage sources and no cut set of capacitors and current sources "
+                "was found in this switch configuration; the singularity comes from element values, not wiring")
+    return "the DC steady state is not unique: " + "; ".join(lines) + \
+        ". Alternatively start from given initial values instead of the steady state."
+
+
+def _floating_nodes(circuit: Circuit, states: Sequence[bool | None]) -> list[list[str]]:
+    if not _has_ground(circuit):
+        return []
+    g = nx.Graph()
+    g.add_nodes_from(circuit.nodes)
+    g.add_edges_from((e.first, e.second) for e, s in zip(circuit.elements, states) if not _is_open(e, s))
+    return [[n for n in circuit.nodes if n in part] for part in nx.connected_components(g) if circuit.ground not in part]
