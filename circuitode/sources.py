@@ -256,13 +256,14 @@ class PulseTrain(_Timed):
         span = high - low
         value = np.full(np.shape(t), low)
         slope = np.zeros(np.shape(t))
-        if r > 0:
-            value = np.where(rising, low + span * np.clip(tau / r, 0.0, 1.0), value)
-            slope = np.where(rising, span / r, slope)
-        value = np.where(high_part, high, value)
-        if f > 0:
-            value = np.where(falling, high - span * np.clip((tau - r - w) / f, 0.0, 1.0), value)
-            slope = np.where(falling, -span / f, slope)
+        with np.errstate(over="ignore"):  # a tiny rise or fall overflows only unused branches
+            if r > 0:
+                value = np.where(rising, low + span * np.clip(tau / r, 0.0, 1.0), value)
+                slope = np.where(rising, span / r, slope)
+            value = np.where(high_part, high, value)
+            if f > 0:
+                value = np.where(falling, high - span * np.clip((tau - r - w) / f, 0.0, 1.0), value)
+                slope = np.where(falling, -span / f, slope)
         value = np.where(active, value, low)
         slope = np.where(active, slope, 0.0)
         return value, slope

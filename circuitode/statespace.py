@@ -452,7 +452,7 @@ def _inductance_matrix(circuit: Circuit, samples: _Samples) -> np.ndarray:
         k = samples.get(c.name, "k")
         bad = ~(np.isfinite(k) & (np.abs(k) < 1))
         samples.require(bad, c.name, f"coupling factor k of {c.name} must lie strictly between -1 and 1",
-                        f"give {c.name} a coupling |k| < 1")
+                        f"give {c.name} a coupling |k| < 1", singular=True)
         i, j = position[c.first], position[c.second]
         mutual = np.where(bad, 0.0, k) * np.sqrt(own[:, i] * own[:, j])
         L[:, i, j] = mutual
