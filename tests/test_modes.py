@@ -225,3 +225,42 @@ def test_bad_matrices_get_our_error(A, names, words):
 
 def test_no_states_no_modes():
     assert analyse_modes(np.zeros((0, 0)), ()) == ()
+
+
+def test_circuit_modes_for_each_switch_configuration():
+    # Integration with topology.reachable_configurations and statespace.assemble on an
+    # invented DC-link: 48 V pack, 50 mΩ internal resistance, 0.2 Ω pre-charge resistor
+    # bypassed by K_main at 2 ms, 100 µH cable inductance, 1 mF link capacitor.
+    # Each configuration is a series RLC: ζ = (R/2)√(C/L), ω0 = 1/√(LC)
+    # (Nilsson & Riedel ch. 8) with R = R_int + R_pre before the bypass, R_int after.
+    from circuitode.circuit import (
+        Capacitor, Circuit, Inductor, Resistor, Switch, TimedSchedule, VoltageSource,
+    )
+    from circuitode.modes import circuit_modes
+    from circuitode.sources import Dc
+
+    R_int, R_pre, L, C = 0.05, 0.2, 100e-6, 1e-3
+    circuit = Circuit(
+        title="DC-link with bypassed pre-charge",
+        ground="gnd",
+        elements=(
+            VoltageSource("pack", "pos", "gnd", Dc(48.0)),
+            Resistor("R_int", "pos", "a", R_int),
+            Resistor("R_pre", "a", "b", R_pre),
+            Switch("K_main", "a", "b", TimedSchedule(False, ((2e-3, True),))),
+            Inductor("L_cable", "b", "link", L),
+            Capacitor("C_link", "link", "gnd", C),
+        ),
+    )
+    configurations = circuit_modes(circuit, until=10e-3)
+    assert [c.closed for c in configurations] == [(False,), (True,)]
+    assert configurations[1].first_time == pytest.approx(2e-3)
+    assert "K_main closed" in configurations[1].description
+    for configuration, R in zip(configurations, (R_int + R_pre, R_int)):
+        (mode,) = configuration.modes
+        assert mode.kind == UNDERDAMPED
+        assert mode.damping_ratio == pytest.approx(R / 2 * np.sqrt(C / L), rel=1e-9)
+        assert mode.natural_frequency == pytest.approx(1 / np.sqrt(L * C), rel=1e-9)
+        assert set(mode.main_states()) == {"voltage across C_link", "current through L_cable"}
+    rows = mode_rows(configurations[1].modes, configurations[1])
+    assert rows[0]["configuration"] == configurations[1].description
