@@ -1,3 +1,89 @@
-"""circuitode: switch-on transients, damping and tolerance batches of RLC networks."""
+"""circuitode: switch-on transients, damping and tolerance batches of RLC networks.
+
+The public API, flat::
+
+    import circuitode as co
+    circuit = co.load("netlists/precharge.cnet")        # parse + build (SI floats)
+    findings = co.diagnose(circuit)                       # topology checks
+    waves = co.simulate(circuit, method="exact")          # transient → Waveforms
+    figures = co.summarise(waves)                         # peak, I²t, overshoot …
+    limits = co.check_requirements(circuit.requirements, waves)
+    table = co.circuit_modes(circuit)                     # ζ, ωn, Q per configuration
+    job = co.run_job("netlists/precharge.cnet", out_dir="out")   # all of it + files
+
+Heavier pieces (the tolerance engine, plotting) are imported on first use.
+"""
 
 __version__ = "0.1.0"
+
+from .errors import (  # noqa: E402
+    CircuitodeError,
+    IntegrationError,
+    NetlistError,
+    SingularSystemError,
+    TopologyError,
+    UnstableStepError,
+)
+
+__all__ = [
+    "__version__",
+    "load",
+    "loads",
+    "diagnose",
+    "verify",
+    "simulate",
+    "assemble",
+    "summarise",
+    "measure",
+    "check_requirements",
+    "analyse_modes",
+    "circuit_modes",
+    "run_job",
+    "run_batch",
+    "CircuitodeError",
+    "NetlistError",
+    "TopologyError",
+    "SingularSystemError",
+    "IntegrationError",
+    "UnstableStepError",
+]
+
+_LAZY = {
+    "load": ("netlist", "load"),
+    "loads": ("netlist", "loads"),
+    "diagnose": ("topology", "diagnose"),
+    "verify": ("topology", "verify"),
+    "assemble": ("statespace", "assemble"),
+    "summarise": ("measure", "summarise"),
+    "measure": ("measure", "measure"),
+    "check_requirements": ("limits", "check_requirements"),
+    "analyse_modes": ("modes", "analyse_modes"),
+    "circuit_modes": ("modes", "circuit_modes"),
+    "run_job": ("runner", "run_job"),
+    "run_batch": ("tolerance", "run_batch"),
+}
+
+
+def simulate(source, **options):
+    """Transient of a Circuit, a ``.cnet`` path or netlist text; returns Waveforms.
+
+    Options (all optional, overriding the netlist's ``transient`` statement):
+    method, step (s), until (s), points, initial ("rest" | "given" | "steady"),
+    rtol, atol, probes; ``overrides`` replaces param values when loading.
+    """
+    from .runner import load_any
+    from .transient import simulate as _simulate
+
+    circuit = load_any(source, options.pop("overrides", None))
+    return _simulate(circuit, **options)
+
+
+def __getattr__(name):
+    if name in _LAZY:
+        import importlib
+
+        module, attr = _LAZY[name]
+        value = getattr(importlib.import_module(f"{__name__}.{module}"), attr)
+        globals()[name] = value
+        return value
+    raise AttributeError(f"module 'circuitode' has no attribute {name!r}")

@@ -1,0 +1,419 @@
+"""What a run tells its user: printed tables (≤ 80 columns) and the files of a run folder.
+
+No numerics here: every number arrives already computed (figures, limits,
+modes) and is only formatted, through :func:`circuitode.netlist.quantities.format_si`.
+Plots live in :mod:`circuitode.plots` (matplotlib is imported only there, and
+only when a plot is drawn).
+"""
+from __future__ import annotations
+
+import json
+import math
+import platform
+from pathlib import Path
+from typing import Any, Iterable, Mapping, Sequence
+
+import numpy as np
+
+from . import __version__
+from .circuit import (
+    Capacitor,
+    Circuit,
+    Coupling,
+    CurrentSource,
+    Inductor,
+    PeriodicSchedule,
+    Resistor,
+    Switch,
+    ThresholdRule,
+    TimedSchedule,
+    VoltageSource,
+)
+from .netlist.quantities import format_si
+
+__all__ = [
+    "SAFETY_LINE",
+    "SAFETY_TEXT",
+    "WIDTH",
+    "check_text",
+    "run_text",
+    "modes_text",
+    "limits_text",
+    "write_summary_json",
+    "describe_control",
+    "describe_waveform",
+    "json_ready",
+]
+
+WIDTH = 80
+
+SAFETY_LINE = (
+    "Caution: results do not replace measurement and qualified review; "
+    "local codes govern."
+)
+
+SAFETY_TEXT = (
+    "Simulation results do not replace measurement and qualified review. Surge "
+    "currents, charged capacitors and high voltage can injure or kill: discharge "
+    "and verify stored energy before touching, and follow the usual precautions "
+    "for high-voltage work. Local electrical codes and licensed practice govern "
+    "any real installation."
+)
+
+_ELEMENT_WORDS = {
+    Resistor: "resistor",
+    Capacitor: "capacitor",
+    Inductor: "inductor",
+    VoltageSource: "voltage source",
+    CurrentSource: "current source",
+    Switch: "switch",
+}
+
+
+# --------------------------------------------------------------------------
+# Small formatting helpers
+# --------------------------------------------------------------------------
+
+
+def _fit(text: str, width: int) -> str:
+    """Cut ``text`` to ``width`` characters, marking a cut with an ellipsis."""
+    return text if len(text) <= width else text[: width - 1] + "…"
+
+
+def _si(value: Any, unit: str, digits: int = 4) -> str:
+    if value is None:
+        return "—"
+    v = float(value)
+    if math.isnan(v):
+        return "—"
+    return format_si(v, unit, digits)
+
+
+def _wrap(text: str, indent: str = "  ", width: int = WIDTH) -> list[str]:
+    import textwrap
+
+    return textwrap.wrap(text, width=width, initial_indent=indent, subsequent_indent=indent) or [indent]
+
+
+def describe_waveform(waveform: Any, unit: str) -> str:
+    """Words for a source waveform, values in engineering notation."""
+    kind = type(waveform).__name__
+    f = lambda v, u=unit: format_si(v, u)  # noqa: E731
+    match kind:
+        case "Dc":
+            return f"dc {f(waveform.value)}"
+        case "Step":
+            return f"step from {f(waveform.before)} to {f(waveform.after)} at {f(waveform.at, 's')}"
+        case "Ramp":
+            return (
+                f"ramp from {f(waveform.initial)} to {f(waveform.final)} starting "
+                f"{f(waveform.start, 's')} over {f(waveform.duration, 's')}"
+            )
+        case "PulseTrain":
+            count = "" if waveform.count is None else f", {waveform.count} pulses"
+            return (
+                f"pulses {f(waveform.low)}…{f(waveform.high)}, width {f(waveform.width, 's')}, "
+                f"period {f(waveform.period, 's')}{count}"
+            )
+        case "Sine":
+            return (
+                f"sine {f(waveform.amplitude)} at {f(waveform.frequency, 'Hz')}"
+                + (f", offset {f(waveform.offset)}" if waveform.offset else "")
+                + (f", from {f(waveform.delay, 's')}" if waveform.delay else "")
+            )
+        case "PiecewiseLinear":
+            return f"piecewise-linear, {len(waveform.times)} points to {f(waveform.times[-1], 's')}"
+        case "Exponential":
+            return (
+                f"exponential from {f(waveform.initial)} to {f(waveform.final)}, "
+                f"τ {f(waveform.time_constant, 's')}"
+            )
+    return kind
+
+
+def describe_control(switch: Switch) -> str:
+    """Words for how a switch moves."""
+    c = switch.control
+    if isinstance(c, TimedSchedule):
+        moves = ", ".join(f"{'closes' if s else 'opens'} at {format_si(t, 's')}" for t, s in c.changes)
+        start = "closed" if c.initially_closed else "open"
+        return f"starts {start}" + (f"; {moves}" if moves else "")
+    if isinstance(c, PeriodicSchedule):
+        return (
+            f"toggles every {format_si(c.period, 's')}, closed {c.duty * 100:g} % of each "
+            f"period from {format_si(c.start, 's')}"
+        )
+    if isinstance(c, ThresholdRule):
+        verb = "closes" if c.closes else "opens"
+        sign = ">" if c.above else "<"
+        return f"{verb} when {c.probe.label} {sign} {format_si(c.level, c.probe.unit)}"
+    return str(c)
+
+
+def _value_words(e: Any) -> str:
+    if isinstance(e, Resistor):
+        return format_si(e.resistance, "Ω")
+    if isinstance(e, Capacitor):
+        init = "" if e.initial_voltage is None else f", initial {format_si(e.initial_voltage, 'V')}"
+        return format_si(e.capacitance, "F") + init
+    if isinstance(e, Inductor):
+        init = "" if e.initial_current is None else f", initial {format_si(e.initial_current, 'A')}"
+        return format_si(e.inductance, "H") + init
+    if isinstance(e, VoltageSource):
+        return describe_waveform(e.waveform, "V")
+    if isinstance(e, CurrentSource):
+        return describe_waveform(e.waveform, "A")
+    if isinstance(e, Switch):
+        on = "ideal" if e.on_resistance is None else format_si(e.on_resistance, "Ω")
+        off = "ideal" if e.off_resistance is None else format_si(e.off_resistance, "Ω")
+        return f"on {on}, off {off}"
+    return ""
+
+
+# --------------------------------------------------------------------------
+# circuitode check
+# --------------------------------------------------------------------------
+
+
+def _spread_words(circuit: Circuit, names: Iterable[str]) -> str:
+    words = []
+    for name in sorted(set(names)):
+        s = circuit.spreads.get(name)
+        if s is not None:
+            words.append(f"± {s.relative * 100:g} % {s.distribution} ({name})")
+    return "; ".join(words)
+
+
+def _element_spreads(circuit: Circuit, element_name: str) -> str:
+    names: set[str] = set()
+    for (owner, _field), recipe in circuit.recipes.items():
+        if owner == element_name:
+            names |= set(recipe.names)
+    return _spread_words(circuit, names)
+
+
+def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = None) -> str:
+    """The printed summary of ``circuitode check``: nodes, elements, states, switches, findings."""
+    out = [f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else "")]
+    out.append(f"nodes ({len(circuit.nodes)}): " + ", ".join(
+        f"{n} (ground)" if n == circuit.ground else n for n in circuit.nodes))
+    out[-1:] = _wrap(out[-1], indent="", width=WIDTH)
+    out.append("")
+    out.append(f"elements ({len(circuit.elements) + len(circuit.couplings)}):")
+    for e in circuit.elements:
+        kind = _ELEMENT_WORDS.get(type(e), type(e).__name__)
+        head = f"  {kind:<15}{_fit(e.name, 12):<13}{_fit(e.first, 10):>10} -- {_fit(e.second, 10):<10} "
+        body = _value_words(e)
+        spread = _element_spreads(circuit, e.name)
+        line = head + body
+        if len(line) > WIDTH:
+            out.append(head.rstrip())
+            out.extend(_wrap(body, indent=" " * 6))
+        else:
+            out.append(line)
+        if spread:
+            out.extend(_wrap("tolerance " + spread, indent=" " * 6))
+    for k in circuit.couplings:
+        out.append(f"  {'coupling':<15}{_fit(k.name, 12):<13}{k.first} and {k.second}, k = {k.k:g}")
+    out.append("")
+    states = circuit.state_names
+    out.append(f"states ({len(states)}): " + (", ".join(states) if states else "none (resistive)"))
+    out[-1:] = _wrap(out[-1], indent="", width=WIDTH)
+    if circuit.switches:
+        out.append("")
+        out.append("switches:")
+        for s in circuit.switches:
+            out.extend(_wrap(f"{s.name}: {describe_control(s)}", indent="  "))
+    if circuit.spreads:
+        out.append("")
+        out.append("tolerances:")
+        for s in circuit.spreads.values():
+            unit = _unit_of_parameter(circuit, s.name)
+            out.append(
+                f"  {_fit(s.name, 20):<21}{format_si(s.nominal, unit):>12}  ± {s.relative * 100:g} % "
+                f"{s.distribution}"
+            )
+    if circuit.analysis is not None:
+        a = circuit.analysis
+        grid = f"step {format_si(a.step, 's')}" if a.step else f"{a.points or 2001} points"
+        out.append("")
+        out.append(f"transient: until {format_si(a.until, 's')}, {grid}, method {a.method}, "
+                   f"initial state {a.initial}")
+    if circuit.records:
+        out.extend(_wrap("records: " + ", ".join(p.label for p in circuit.records), indent=""))
+    for r in circuit.requirements:
+        out.extend(_wrap(f"requires: {r.label}", indent=""))
+    out.append("")
+    errors = [d for d in diagnostics if d.severity == "error"]
+    warnings = [d for d in diagnostics if d.severity != "error"]
+    if not diagnostics:
+        out.append("diagnostics: none, the circuit is ready to simulate.")
+    else:
+        out.append(f"diagnostics: {len(errors)} error(s), {len(warnings)} warning(s)")
+        for d in diagnostics:
+            out.append(str(d))
+    return "\n".join(out)
+
+
+def _unit_of_parameter(circuit: Circuit, name: str) -> str:
+    """The unit of a toleranced parameter, from the first element field it feeds."""
+    fields = {"resistance": "Ω", "on_resistance": "Ω", "off_resistance": "Ω", "capacitance": "F",
+              "inductance": "H", "initial_voltage": "V", "initial_current": "A", "k": ""}
+    for (_owner, field), recipe in circuit.recipes.items():
+        if name in recipe.names and field in fields:
+            return fields[field]
+    return ""
+
+
+# --------------------------------------------------------------------------
+# circuitode run
+# --------------------------------------------------------------------------
+
+_COLUMNS = (("peak", "peak"), ("time_of_peak", "at"), ("minimum", "minimum"), ("final", "final"))
+
+
+def _figure_line(label: str, row: Mapping[str, tuple[Any, str]]) -> list[str]:
+    cells = [f"{_fit(label, 26):<27}"]
+    for key, _ in _COLUMNS:
+        value, unit = row.get(key, (None, ""))
+        cells.append(f"{_si(value, unit):>12}")
+    lines = ["".join(cells)]
+    extras = []
+    for key, word in (("overshoot", "overshoot"), ("rise_time", "rise"), ("settling_time", "settles"),
+                      ("rms", "rms"), ("i2t", "I²t"), ("energy", "energy")):
+        value, unit = row.get(key, (None, ""))
+        if value is not None and not (isinstance(value, float) and math.isnan(value)):
+            extras.append(f"{word} {_si(value, unit)}")
+    if extras:
+        lines.extend(_wrap(", ".join(extras), indent=" " * 4))
+    return lines
+
+
+def limits_text(results: Sequence[Any]) -> list[str]:
+    """Lines for the limit table: PASS/FAIL, requirement, measured value, margin."""
+    lines = []
+    for r in results:
+        mark = "pass" if r.passed else "FAIL"
+        lines.extend(_wrap(f"{mark:<5}{r.requirement.label}", indent="  "))
+        lines.append(f"{'':7}measured {_si(r.value, r.unit)}, margin {_si(r.margin, r.unit)}"
+                     + ("" if r.passed or getattr(r, "reason", "") == "" else f" ({r.reason})"))
+    return lines
+
+
+def run_text(
+    circuit: Circuit,
+    waveforms: Any,
+    figures: Mapping[str, Mapping[str, tuple[Any, str]]],
+    limits: Sequence[Any],
+    files: Mapping[str, Path],
+    path: str | None = None,
+) -> str:
+    """The printed summary of ``circuitode run``, at most 80 columns wide."""
+    out = [_fit(f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else ""), WIDTH)]
+    out.extend(_wrap(f"solver: {waveforms.method} — {waveforms.method_reason}", indent=""))
+    window = format_si(float(waveforms.t[-1]), "s")
+    out.append(f"window: 0 s to {window}, {len(waveforms.t)} output points")
+    if waveforms.events:
+        out.append(f"events ({len(waveforms.events)}):")
+        for ev in waveforms.events[:12]:
+            out.extend(_wrap(f"{format_si(ev.time, 's'):>10}  {ev.switch} "
+                             f"{'closes' if ev.closed else 'opens'} ({ev.reason})", indent="  "))
+        if len(waveforms.events) > 12:
+            out.append(f"  … and {len(waveforms.events) - 12} more (see summary.json)")
+    out.append("")
+    header = f"{'quantity':<27}" + "".join(f"{word:>12}" for _, word in _COLUMNS)
+    out.append(header)
+    out.append("─" * len(header))
+    for label, row in figures.items():
+        out.extend(_figure_line(label, row))
+    if limits:
+        out.append("")
+        failed = sum(not r.passed for r in limits)
+        out.append(f"limits: {len(limits) - failed} of {len(limits)} met")
+        out.extend(limits_text(limits))
+    if files:
+        out.append("")
+        out.append("files:")
+        for kind, p in files.items():
+            out.append(_fit(f"  {kind:<10}{p}", WIDTH))
+    out.append("")
+    out.extend(_wrap(SAFETY_LINE, indent=""))
+    return "\n".join(out)
+
+
+# --------------------------------------------------------------------------
+# circuitode modes
+# --------------------------------------------------------------------------
+
+
+def modes_text(configurations: Sequence[Any], path: str | None = None, title: str = "") -> str:
+    """The damping table of ``circuitode modes``, one block per switch configuration."""
+    out = []
+    if title or path:
+        out.append(_fit(f"{title}" + (f"  ({path})" if path else ""), WIDTH))
+    for cfg in configurations:
+        out.append("")
+        when = "" if math.isnan(cfg.first_time) else f" from {format_si(cfg.first_time, 's')}"
+        out.extend(_wrap(f"configuration: {cfg.description}{when}" + (f" ({cfg.cause})" if cfg.cause else ""),
+                         indent=""))
+        if not cfg.modes:
+            out.append("  no dynamic states in this configuration")
+            continue
+        out.append(f"  {'eigenvalue 1/s':<22}{'fn':>10}{'ζ':>8}{'Q':>8}{'τ':>10}  class")
+        for m in cfg.modes:
+            lam = m.eigenvalue
+            eig = f"{lam.real:.4g}" + (f" ± {abs(lam.imag):.4g}j" if lam.imag else "")
+            zeta = "—" if math.isnan(m.damping_ratio) else f"{m.damping_ratio:.3f}"
+            q = "∞" if math.isinf(m.quality_factor) else ("—" if math.isnan(m.quality_factor)
+                                                          else f"{m.quality_factor:.3g}")
+            tau = "∞" if math.isinf(m.time_constant) else format_si(m.time_constant, "s", 3)
+            fn = format_si(m.natural_frequency_hz, "Hz", 3)
+            out.append(f"  {_fit(eig, 21):<22}{fn:>10}{zeta:>8}{q:>8}{tau:>10}  {m.kind}")
+            states = ", ".join(f"{n} {w * 100:.0f} %" for n, w in m.participation if w >= 0.1)
+            out.extend(_wrap(f"mainly {states}", indent=" " * 6))
+    return "\n".join(out)
+
+
+# --------------------------------------------------------------------------
+# JSON
+# --------------------------------------------------------------------------
+
+
+def json_ready(value: Any) -> Any:
+    """Turn numpy values, tuples, complex numbers and non-finite floats into JSON-safe values
+    (NaN and ±inf become null, complex becomes {"real", "imag"})."""
+    if isinstance(value, Mapping):
+        return {str(k): json_ready(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_ready(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return json_ready(value.tolist())
+    if isinstance(value, (complex, np.complexfloating)):
+        return {"real": json_ready(float(value.real)), "imag": json_ready(float(value.imag))}
+    if isinstance(value, (bool, np.bool_)):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        v = float(value)
+        return v if math.isfinite(v) else None
+    if isinstance(value, Path):
+        return str(value)
+    return value
+
+
+def write_summary_json(path: Path, summary: Mapping[str, Any]) -> Path:
+    """Write ``summary`` with versions and the safety text added; returns the path."""
+    import numpy
+    import scipy
+
+    body = dict(summary)
+    body.setdefault("versions", {
+        "circuitode": __version__,
+        "python": platform.python_version(),
+        "numpy": numpy.__version__,
+        "scipy": scipy.__version__,
+    })
+    body.setdefault("safety", SAFETY_TEXT)
+    path.write_text(json.dumps(json_ready(body), indent=2, ensure_ascii=False) + "\n", encoding="utf-8")
+    return path

@@ -1,0 +1,168 @@
+"""The main job, end to end: a netlist in, a run folder and a verdict out.
+
+``run_job`` chains the stages (load → simulate → measure → limits → modes →
+files) and is what ``circuitode run`` calls; a notebook user gets the same
+result object.  Files are written in the order they become available
+(waveforms CSV first), so a failure late in the chain never loses what was
+already computed.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Mapping, Sequence
+
+from .circuit import Circuit
+from .errors import CircuitodeError
+
+__all__ = ["JobResult", "default_out_dir", "load_any", "run_job"]
+
+
+@dataclass
+class JobResult:
+    """Everything one run produced.
+
+    exit_code : 0 all limits met, 1 a limit failed.
+    files : kind → path of every file written.
+    problems : what went wrong after the waveforms were safe (e.g. a plot failed).
+    """
+
+    circuit: Circuit
+    waveforms: Any
+    figures: dict
+    limits: list
+    modes: list
+    files: dict[str, Path] = field(default_factory=dict)
+    problems: list[str] = field(default_factory=list)
+
+    @property
+    def exit_code(self) -> int:
+        return 0 if all(r.passed for r in self.limits) else 1
+
+
+def load_any(source: Any, overrides: Mapping[str, Any] | None = None) -> Circuit:
+    """A Circuit from a Circuit, a path to a ``.cnet`` file, or netlist text."""
+    from .netlist import load, loads
+
+    if isinstance(source, Circuit):
+        return source
+    if isinstance(source, Path) or (isinstance(source, str) and "\n" not in source and source.endswith(".cnet")):
+        return load(source, overrides=overrides)
+    if isinstance(source, str):
+        return loads(source, overrides=overrides)
+    raise TypeError(f"expected a Circuit, a .cnet path or netlist text, got {type(source).__name__}")
+
+
+def default_out_dir(netlist_path: str | Path, suffix: str = "results") -> Path:
+    """``<folder of the netlist>/<netlist stem>-<suffix>``."""
+    p = Path(netlist_path)
+    return p.with_name(f"{p.stem}-{suffix}")
+
+
+def run_job(
+    source: Any,
+    *,
+    out_dir: str | Path | None = None,
+    overrides: Mapping[str, Any] | None = None,
+    method: str | None = None,
+    step: float | None = None,
+    until: float | None = None,
+    plots: bool = True,
+    with_modes: bool = True,
+) -> JobResult:
+    """Simulate a netlist, measure it, check its limits and write its run folder.
+
+    Parameters
+    ----------
+    source : Circuit, ``.cnet`` path or netlist text.
+    out_dir : folder for waveforms.csv, summary.json and waveforms.png; None writes nothing.
+    overrides : parameter values replacing those of the netlist (name → SI float or text like "47 Ω").
+    method, step (s), until (s) : override the netlist's transient statement.
+    plots : draw the PNG.
+    with_modes : include the modal damping table of every reachable configuration.
+
+    Raises
+    ------
+    CircuitodeError subclasses for bad input (exit 2) or numerical failure (exit 3).
+    """
+    from .limits import check_requirements
+    from .measure import summarise
+    from .report import write_summary_json
+    from .transient import simulate
+
+    circuit = load_any(source, overrides)
+    waveforms = simulate(circuit, method=method, step=step, until=until)
+    result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
+
+    out = Path(out_dir) if out_dir is not None else None
+    if out is not None:
+        out.mkdir(parents=True, exist_ok=True)
+        result.files["waveforms"] = Path(waveforms.to_csv(out / "waveforms.csv") or out / "waveforms.csv")
+
+    result.figures = summarise(waveforms)
+    result.limits = check_requirements(circuit.requirements, waveforms)
+    if with_modes:
+        try:
+            from .modes import circuit_modes
+
+            result.modes = circuit_modes(circuit, until=float(waveforms.t[-1]))
+        except CircuitodeError as exc:  # a mode table is a bonus; never lose the run for it
+            result.problems.append(f"modes not computed: {exc}")
+
+    if out is not None:
+        if plots:
+            try:
+                from .plots import plot_waveforms
+
+                result.files["plot"] = plot_waveforms(waveforms, out / "waveforms.png", title=circuit.title)
+            except Exception as exc:  # noqa: BLE001 - the CSV is already safe; say what failed
+                result.problems.append(f"plot not drawn: {type(exc).__name__}: {exc}")
+        result.files["summary"] = out / "summary.json"
+        write_summary_json(result.files["summary"], summary_of(result))
+    return result
+
+
+def summary_of(result: JobResult) -> dict[str, Any]:
+    """The JSON summary body of a run (numbers in SI, units beside them)."""
+    from .modes import mode_rows
+
+    w = result.waveforms
+    return {
+        "circuit": result.circuit.title,
+        "netlist": result.circuit.source_file,
+        "solver": {"method": w.method, "reason": w.method_reason, "counters": dict(w.counters)},
+        "window_s": [float(w.t[0]), float(w.t[-1])],
+        "events": [
+            {"time_s": ev.time, "switch": ev.switch, "closed": ev.closed, "reason": ev.reason} for ev in w.events
+        ],
+        "figures": {
+            label: {name: {"value": value, "unit": unit} for name, (value, unit) in row.items()}
+            for label, row in result.figures.items()
+        },
+        "limits": [
+            {
+                "requirement": r.requirement.label,
+                "figure": r.requirement.figure,
+                "quantity": r.requirement.probe.label,
+                "comparison": r.requirement.comparison,
+                "limit": r.requirement.limit,
+                "value": r.value,
+                "unit": r.unit,
+                "passed": r.passed,
+                "margin": r.margin,
+            }
+            for r in result.limits
+        ],
+        "all_limits_met": all(r.passed for r in result.limits),
+        "modes": [
+            {
+                "configuration": cfg.description,
+                "first_time_s": cfg.first_time,
+                "cause": cfg.cause,
+                "modes": mode_rows(cfg.modes),
+            }
+            for cfg in result.modes
+        ],
+        "files": {k: str(v) for k, v in result.files.items()},
+        "problems": list(result.problems),
+    }
