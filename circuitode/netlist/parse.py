@@ -1,0 +1,624 @@
+"""Netlist text → syntax tree (dataclasses that remember where each part was written).
+
+The grammar lives in ``grammar.lark`` (lark, LALR, contextual lexer).  Every
+lark failure is turned into a :class:`~circuitode.errors.NetlistError` with
+``file:line:col``, the line with a caret and what was expected in plain words;
+lark's own class and terminal names never reach the user.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from functools import lru_cache
+from importlib import resources
+
+from lark import Lark, Token, Transformer, v_args
+from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput, UnexpectedToken, VisitError
+
+from ..errors import NetlistError, Where
+from . import expressions as ex
+from .expressions import did_you_mean
+from .quantities import read_quantity, split_unit
+
+__all__ = [
+    "Tolerance",
+    "Valued",
+    "Field",
+    "WaveformSpec",
+    "ProbeSpec",
+    "TimedSpec",
+    "ToggleSpec",
+    "ThresholdSpec",
+    "TitleStmt",
+    "IncludeStmt",
+    "ParamStmt",
+    "GroundStmt",
+    "ElementStmt",
+    "CouplingStmt",
+    "SourceStmt",
+    "SwitchStmt",
+    "TransientStmt",
+    "RecordStmt",
+    "RequireStmt",
+    "Netlist",
+    "STATEMENT_WORDS",
+    "parse_text",
+]
+
+# --------------------------------------------------------------------------
+# Syntax tree
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """``± 5 % uniform``: relative as a fraction (0.05), distribution "normal" or "uniform"."""
+
+    relative: float
+    distribution: str
+    where: Where
+
+
+@dataclass(frozen=True)
+class Valued:
+    """A written value: an expression, an optional tolerance, and where it starts."""
+
+    expr: ex.Expression
+    tolerance: Tolerance | None
+    where: Where
+
+
+@dataclass(frozen=True)
+class Field:
+    """A named field such as ``amplitude 325 V`` of a waveform or a toggling switch."""
+
+    name: str
+    value: Valued
+    where: Where
+
+
+@dataclass(frozen=True)
+class WaveformSpec:
+    """kind : "dc", "pwl" or the written kind word.  fields : named fields.  points : pwl pairs."""
+
+    kind: str
+    fields: tuple[Field, ...]
+    points: tuple[tuple[Valued, Valued], ...]
+    where: Where
+
+
+@dataclass(frozen=True)
+class ProbeSpec:
+    """kind : "at", "between", "across", "through" or "power".  names with their places."""
+
+    kind: str
+    names: tuple[str, ...]
+    wheres: tuple[Where, ...]
+    where: Where
+
+
+@dataclass(frozen=True)
+class TimedSpec:
+    """``closes at 1 ms opens at 4 ms``: (closes?, time, where) per move."""
+
+    moves: tuple[tuple[bool, Valued, Where], ...]
+
+
+@dataclass(frozen=True)
+class ToggleSpec:
+    """``toggles period 20 us duty 40 % start 0 s``."""
+
+    fields: tuple[Field, ...]
+    where: Where
+
+
+@dataclass(frozen=True)
+class ThresholdSpec:
+    """``closes when voltage at link > 43 V``."""
+
+    closes: bool
+    probe: ProbeSpec
+    comparison: str
+    level: Valued
+
+
+@dataclass(frozen=True)
+class TitleStmt:
+    title: str
+    where: Where
+
+
+@dataclass(frozen=True)
+class IncludeStmt:
+    path: str
+    where: Where
+
+
+@dataclass(frozen=True)
+class ParamStmt:
+    name: str
+    value: Valued
+    where: Where
+
+
+@dataclass(frozen=True)
+class GroundStmt:
+    node: str
+    where: Where
+
+
+@dataclass(frozen=True)
+class ElementStmt:
+    """resistor, capacitor or inductor."""
+
+    kind: str
+    name: str
+    first: str
+    second: str
+    value: Valued
+    initial: Valued | None
+    where: Where
+
+
+@dataclass(frozen=True)
+class CouplingStmt:
+    name: str
+    first: str
+    second: str
+    k: Valued
+    wheres: tuple[Where, Where]
+    where: Where
+
+
+@dataclass(frozen=True)
+class SourceStmt:
+    """kind : "voltage_source" or "current_source"."""
+
+    kind: str
+    name: str
+    first: str
+    second: str
+    waveform: WaveformSpec
+    where: Where
+
+
+@dataclass(frozen=True)
+class SwitchStmt:
+    name: str
+    first: str
+    second: str
+    control: TimedSpec | ToggleSpec | ThresholdSpec
+    on: Valued | None
+    off: Valued | None
+    where: Where
+
+
+@dataclass(frozen=True)
+class TransientStmt:
+    """settings : (word, Valued or str, where), word in until/step/points/method/initial."""
+
+    settings: tuple[tuple[str, object, Where], ...]
+    where: Where
+
+
+@dataclass(frozen=True)
+class RecordStmt:
+    probes: tuple[ProbeSpec, ...]
+    where: Where
+
+
+@dataclass(frozen=True)
+class RequireStmt:
+    """figure : the written figure words, normalised to single spaces ("settling time")."""
+
+    figure: str
+    probe: ProbeSpec
+    comparison: str
+    limit: Valued
+    where: Where
+
+
+Statement = (
+    TitleStmt | IncludeStmt | ParamStmt | GroundStmt | ElementStmt | CouplingStmt | SourceStmt | SwitchStmt
+    | TransientStmt | RecordStmt | RequireStmt
+)
+
+
+@dataclass(frozen=True)
+class Netlist:
+    """One parsed file: its name, its lines and its statements in order (includes not expanded)."""
+
+    file: str
+    statements: tuple[Statement, ...]
+    lines: tuple[str, ...] = field(default=(), repr=False)
+
+
+# --------------------------------------------------------------------------
+# lark → syntax tree
+# --------------------------------------------------------------------------
+
+
+@lru_cache(maxsize=1)
+def _parser() -> Lark:
+    grammar = resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8")
+    return Lark(grammar, parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
+
+
+class _ToTree(Transformer):
+    """One method per grammar rule; each returns a syntax-tree dataclass or expression node."""
+
+    def __init__(self, file: str, lines: list[str]):
+        super().__init__(visit_tokens=False)
+        self.file = file
+        self.lines = lines
+
+    def at(self, item) -> Where:
+        line = getattr(item, "line", None) or 1
+        column = getattr(item, "column", None) or 1
+        text = self.lines[line - 1] if 0 < line <= len(self.lines) else ""
+        return Where(self.file, line, column, text)
+
+    # -- statements ------------------------------------------------------
+    @v_args(meta=True)
+    def start(self, meta, items):
+        return tuple(items)
+
+    @v_args(meta=True)
+    def circuit_stmt(self, meta, items):
+        return TitleStmt(str(items[0])[1:-1], self.at(meta))
+
+    @v_args(meta=True)
+    def include_stmt(self, meta, items):
+        return IncludeStmt(str(items[0])[1:-1], self.at(items[0]))
+
+    @v_args(meta=True)
+    def param_stmt(self, meta, items):
+        return ParamStmt(str(items[0]), items[1], self.at(items[0]))
+
+    @v_args(meta=True)
+    def ground_stmt(self, meta, items):
+        return GroundStmt(str(items[0]), self.at(items[0]))
+
+    @v_args(meta=True)
+    def element_stmt(self, meta, items):
+        kind, name, first, second, value, *rest = items
+        return ElementStmt(str(kind), str(name), str(first), str(second), value, rest[0] if rest else None,
+                           self.at(name))
+
+    def initial_value(self, items):
+        return items[0]
+
+    @v_args(meta=True)
+    def coupling_stmt(self, meta, items):
+        name, first, second, k = items
+        return CouplingStmt(str(name), str(first), str(second), k, (self.at(first), self.at(second)), self.at(name))
+
+    @v_args(meta=True)
+    def source_stmt(self, meta, items):
+        kind, name, first, second, wave = items
+        return SourceStmt(str(kind), str(name), str(first), str(second), wave, self.at(name))
+
+    @v_args(meta=True)
+    def dc_wave(self, meta, items):
+        return WaveformSpec("dc", (Field("value", items[0], items[0].where),), (), self.at(meta))
+
+    @v_args(meta=True)
+    def pwl_wave(self, meta, items):
+        return WaveformSpec("pwl", (), tuple(items), self.at(meta))
+
+    def pwl_point(self, items):
+        return (items[0], items[1])
+
+    @v_args(meta=True)
+    def named_wave(self, meta, items):
+        kind, *fields = items
+        return WaveformSpec(str(kind), tuple(fields), (), self.at(kind))
+
+    def named_field(self, items):
+        return Field(str(items[0]), items[1], self.at(items[0]))
+
+    @v_args(meta=True)
+    def switch_stmt(self, meta, items):
+        name, first, second, control, *options = items
+        on = next((v for k, v in options if k == "on"), None)
+        off = next((v for k, v in options if k == "off"), None)
+        for word in ("on", "off"):
+            repeated = [v for k, v in options if k == word]
+            if len(repeated) > 1:
+                raise NetlistError(f"'{word}' is given twice for switch '{name}'", repeated[1].where,
+                                   f"keep one '{word}' resistance")
+        return SwitchStmt(str(name), str(first), str(second), control, on, off, self.at(name))
+
+    def timed_control(self, items):
+        return TimedSpec(tuple(items))
+
+    def timed_move(self, items):
+        return (str(items[0]) == "closes", items[1], self.at(items[0]))
+
+    @v_args(meta=True)
+    def toggle_control(self, meta, items):
+        return ToggleSpec(tuple(items), self.at(meta))
+
+    def threshold_control(self, items):
+        move, probe, comparison, level = items
+        return ThresholdSpec(str(move) == "closes", probe, str(comparison), level)
+
+    def on_option(self, items):
+        return ("on", items[0])
+
+    def off_option(self, items):
+        return ("off", items[0])
+
+    @v_args(meta=True)
+    def transient_stmt(self, meta, items):
+        return TransientStmt(tuple(items), self.at(meta))
+
+    def _setting(word):  # noqa: N805 - a small factory used at class creation
+        @v_args(meta=True)
+        def method(self, meta, items):
+            value = items[0]
+            if isinstance(value, Token):
+                value = str(value)
+            return (word, value, self.at(meta))
+
+        return method
+
+    until_setting = _setting("until")
+    step_setting = _setting("step")
+    points_setting = _setting("points")
+    method_setting = _setting("method")
+    initial_setting = _setting("initial")
+    del _setting
+
+    @v_args(meta=True)
+    def record_stmt(self, meta, items):
+        return RecordStmt(tuple(items), self.at(meta))
+
+    @v_args(meta=True)
+    def require_stmt(self, meta, items):
+        figure, probe, comparison, limit = items
+        return RequireStmt(" ".join(str(figure).split()), probe, str(comparison), limit, self.at(meta))
+
+    @v_args(meta=True)
+    def require_energy(self, meta, items):
+        element, comparison, limit = items
+        probe = ProbeSpec("power", (str(element),), (self.at(element),), self.at(element))
+        return RequireStmt("energy", probe, str(comparison), limit, self.at(meta))
+
+    # -- probes ----------------------------------------------------------
+    def _probe(kind):  # noqa: N805
+        @v_args(meta=True)
+        def method(self, meta, items):
+            return ProbeSpec(kind, tuple(str(t) for t in items), tuple(self.at(t) for t in items), self.at(meta))
+
+        return method
+
+    node_voltage = _probe("at")
+    voltage_between = _probe("between")
+    voltage_across = _probe("across")
+    current_through = _probe("through")
+    power_in = _probe("power")
+    del _probe
+
+    # -- values ----------------------------------------------------------
+    @v_args(meta=True)
+    def value(self, meta, items):
+        return Valued(items[0], items[1] if len(items) > 1 else None, self.at(meta))
+
+    @v_args(meta=True)
+    def tolerance(self, meta, items):
+        number = items[1]
+        unit = next((str(t) for t in items[2:] if t.type == "UNIT"), "")
+        distribution = next((str(t) for t in items[2:] if t.type == "DISTRIBUTION"), "normal")
+        where = self.at(number)
+        try:
+            q = read_quantity(str(number), unit)
+        except NetlistError as err:
+            raise NetlistError(err.message, where, err.hint) from None
+        if q.unit != "%":
+            raise NetlistError("a tolerance is written in percent", where, f"write '± {number} %'")
+        if not 0.0 < q.value < 1.0:
+            raise NetlistError(f"a tolerance must lie between 0 % and 100 %; got {number} %", where,
+                               "write a tolerance such as ± 5 %")
+        return Tolerance(q.value, distribution, where)
+
+    @v_args(meta=True)
+    def quantity(self, meta, items):
+        number = items[0]
+        unit = str(items[1]) if len(items) > 1 else ""
+        where = self.at(number)
+        try:
+            q = read_quantity(str(number), unit)
+        except NetlistError as err:
+            raise NetlistError(err.message, where, err.hint) from None
+        return ex.Number(q.value, q.unit, where)
+
+    def name(self, items):
+        return ex.Name(str(items[0]), self.at(items[0]))
+
+    def call(self, items):
+        return ex.Call(str(items[0]), items[1], self.at(items[0]))
+
+    def _binary(op):  # noqa: N805
+        @v_args(meta=True)
+        def method(self, meta, items):
+            return ex.Binary(op, items[0], items[1], self.at(meta))
+
+        return method
+
+    add = _binary("+")
+    subtract = _binary("-")
+    multiply = _binary("*")
+    divide = _binary("/")
+    raise_power = _binary("^")
+    del _binary
+
+    @v_args(meta=True)
+    def negate(self, meta, items):
+        return ex.Unary("-", items[0], self.at(meta))
+
+    def keep_sign(self, items):
+        return items[0]
+
+
+# --------------------------------------------------------------------------
+# Errors in plain words
+# --------------------------------------------------------------------------
+
+#: Words that start a statement.
+STATEMENT_WORDS = (
+    "circuit", "param", "ground", "resistor", "capacitor", "inductor", "coupling", "voltage_source",
+    "current_source", "switch", "transient", "record", "require", "include",
+)
+
+_TERMINAL_WORDS = {
+    "NAME": "a name",
+    "NUMBER": "a number",
+    "UNIT": "a unit",
+    "STRING": "a text in double quotes",
+    "_NL": "the end of the line",
+    "$END": "the end of the file",
+    "COMPARE": "a comparison (<, <=, > or >=)",
+    "FIGURE": "a figure (peak, minimum, final, overshoot, undershoot, rise time, settling time, rms, mean, "
+              "i2t, max slope, damping ratio, damped frequency)",
+    "ELEMENT_KIND": "'resistor', 'capacitor' or 'inductor'",
+    "SOURCE_KIND": "'voltage_source' or 'current_source'",
+    "MOVE": "'closes' or 'opens'",
+    "PLUSMINUS": "a tolerance such as '± 5 %'",
+    "DISTRIBUTION": "'normal' or 'uniform'",
+}
+_FIGURE_WORDS = ("peak", "minimum", "final", "overshoot", "undershoot", "rise", "settling", "rms", "mean", "i2t",
+                 "max", "damping", "damped")
+_OPERATORS = {"+", "-", "*", "/", "^"}
+
+
+def _literal(name: str) -> str | None:
+    """The fixed text of a string terminal (a keyword or punctuation), else None."""
+    for term in _parser().terminals:
+        if term.name == name and term.pattern.type == "str":
+            return term.pattern.value
+    return None
+
+
+def _describe(expected: set[str]) -> tuple[str, list[str]]:
+    """Plain words for a set of lark terminal names, and the keywords among them."""
+    literals = {name: _literal(name) for name in expected}
+    words: list[str] = []
+    keywords: list[str] = []
+    names = set(expected)
+    if {"NUMBER", "NAME"} <= names and "(" in literals.values():
+        words.append("a value (a number with a unit, a parameter name or an expression)")
+        names -= {"NUMBER", "NAME"} | {n for n, lit in literals.items() if lit in ("(", "-", "+")}
+    if {n for n, lit in literals.items() if lit in _OPERATORS} and "UNIT" in names:
+        words.append("a unit or an operator (+ - * / ^)")
+        names -= {"UNIT"} | {n for n, lit in literals.items() if lit in _OPERATORS}
+    for name in sorted(names, key=lambda n: (n.startswith("_") or n.startswith("$"), n)):
+        lit = literals.get(name)
+        if lit == "--":
+            words.append("'--' between the two nodes")
+        elif lit is not None:
+            words.append(f"'{lit}'")
+            if lit.isidentifier():
+                keywords.append(lit)
+        else:
+            words.append(_TERMINAL_WORDS.get(name, "something else"))
+            if name == "ELEMENT_KIND":
+                keywords += ["resistor", "capacitor", "inductor"]
+            elif name == "SOURCE_KIND":
+                keywords += ["voltage_source", "current_source"]
+            elif name == "MOVE":
+                keywords += ["closes", "opens"]
+            elif name == "DISTRIBUTION":
+                keywords += ["normal", "uniform"]
+            elif name == "FIGURE":
+                keywords += list(_FIGURE_WORDS)
+    if len(words) > 1:
+        text = ", ".join(words[:-1]) + " or " + words[-1]
+    else:
+        text = words[0] if words else "something else"
+    return text, keywords
+
+
+_WORD = re.compile(r"[^\s,()#=<>*/+^\"]+")
+
+
+def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistError:
+    """Translate a lark failure into our own located, plain-worded error."""
+    line = getattr(err, "line", None) or max(len(lines), 1)
+    column = getattr(err, "column", None) or 1
+    if line < 1:  # lark reports -1 for the end of the input
+        line = max(len(lines), 1)
+        column = len(lines[line - 1]) + 1 if lines else 1
+    text = lines[line - 1] if 0 < line <= len(lines) else ""
+    where = Where(file, line, column, text)
+    if isinstance(err, UnexpectedToken):
+        expected = set(err.expected)
+        token_type = err.token.type
+    else:
+        expected = set(getattr(err, "allowed", None) or ())
+        token_type = None
+    wanted, keywords = _describe(expected)
+    rest = text[column - 1:]
+    word_match = _WORD.match(rest)
+    word = word_match.group(0) if word_match else ""
+    before = text[: column - 1]
+
+    if token_type in ("_NL", "$END") or (not rest.strip() and token_type is None):
+        code_end = len(text.split("#", 1)[0].rstrip()) + 1
+        where = Where(file, line, max(code_end, 1), text)
+        return NetlistError(f"the statement ends too early; expected {wanted}", where,
+                            "complete the statement on this line")
+    at_start = not before.strip()
+    if at_start and word:
+        return NetlistError(f"unknown statement '{word}'", where,
+                            did_you_mean(word, STATEMENT_WORDS) or "a line starts with a statement word")
+    if word and keywords:
+        close = did_you_mean(word, keywords)
+        if close.startswith("did you mean"):
+            return NetlistError(f"unexpected '{word}'; expected {wanted}", where, close)
+    if word and re.search(r"%[ \t]*$", before) and word.isidentifier():
+        return NetlistError(f"unknown distribution '{word}'", where,
+                            "a tolerance's distribution is 'normal' or 'uniform' (or leave it out for normal)")
+    if word and re.search(r"\d[ \t]*$", before) and (word[0].isalpha() or word[0] in "%°"):
+        try:
+            split_unit(word)
+        except NetlistError as unit_err:
+            return NetlistError(unit_err.message, where, unit_err.hint)
+    if rest[:1] == '"':
+        return NetlistError("a text in double quotes is not closed on this line", where,
+                            'end the text with a second "')
+    if token_type is None and rest:
+        shown = rest[0]
+        return NetlistError(f"unexpected character '{shown}'; expected {wanted}", where,
+                            "remove it" if not shown.isalnum() else None)
+    shown = word or rest[:1]
+    return NetlistError(f"unexpected '{shown}'; expected {wanted}", where)
+
+
+def parse_text(text: str, file: str = "<text>") -> Netlist:
+    """Parse netlist text into a :class:`Netlist` syntax tree.
+
+    Parameters
+    ----------
+    text : the whole file's text.
+    file : its name, used in error locations.
+
+    Raises
+    ------
+    NetlistError : located at the first mistake, with what was expected.
+    """
+    lines = text.splitlines()
+    try:
+        tree = _parser().parse(text)
+    except UnexpectedInput as err:
+        raise _syntax_error(err, file, lines) from None
+    except LarkError as err:  # any other lark failure, still reported in our words
+        raise NetlistError("the text could not be read as a netlist", Where(file, 1, 1, lines[0] if lines else ""),
+                           "check the statement words against docs/language.md") from None
+    try:
+        statements = _ToTree(file, lines).transform(tree)
+    except VisitError as err:
+        if isinstance(err.orig_exc, NetlistError):
+            raise err.orig_exc from None
+        raise
+    return Netlist(file, statements, tuple(lines))
