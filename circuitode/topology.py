@@ -133,8 +133,15 @@ class Configuration:
         return f"from t = {_seconds(self.first_time)} ({self.cause})"
 
 
+def _si(value: float, unit: str) -> str:
+    """SI value with a prefix, printed by the one module that prints quantities."""
+    from .netlist.quantities import format_si  # late: the netlist package may import this module
+
+    return format_si(value, unit)
+
+
 def _seconds(t: float) -> str:
-    return f"{t:g} s"
+    return _si(t, "s")
 
 
 def _is_free(switch: Switch) -> bool:
@@ -153,7 +160,7 @@ def _threshold_words(switch: Switch, closes: bool) -> str:
     if isinstance(c, ThresholdRule):
         label = getattr(c.probe, "label", str(c.probe))
         unit = getattr(c.probe, "unit", "")
-        return f"{switch.name} {verb} when {label} {'>' if c.above else '<'} {c.level:g} {unit}".rstrip()
+        return f"{switch.name} {verb} when {label} {'>' if c.above else '<'} {_si(c.level, unit)}"
     return f"{switch.name} {verb} (its schedule is invalid, so either state is assumed)"
 
 
@@ -446,7 +453,7 @@ def check_values(circuit: Circuit) -> list[Diagnostic]:
             field, unit = quantity[type(e)]
             value = getattr(e, field)
             if not _positive(value):
-                bad(e, f"{field} {value:g} {unit} must be positive and finite",
+                bad(e, f"{field} {_si(value, unit)} must be positive and finite",
                     f"give {e.name} a positive {field}; for a near short or open use a very small or large value")
         initial = getattr(e, "initial_voltage", None) if isinstance(e, Capacitor) else getattr(e, "initial_current", None)
         if initial is not None and not math.isfinite(initial):
@@ -457,37 +464,37 @@ def check_values(circuit: Circuit) -> list[Diagnostic]:
             value = getattr(e, field)
             if value is not None and not _positive(value):
                 words = field.replace("_", "-")
-                bad(e, f"{words} {value:g} Ω must be positive and finite",
+                bad(e, f"{words} {_si(value, 'Ω')} must be positive and finite",
                     f"give {e.name} a positive {words}, or none for an ideal switch")
         if _positive(e.on_resistance) and _positive(e.off_resistance) and e.off_resistance <= e.on_resistance:
-            bad(e, f"off-resistance {e.off_resistance:g} Ω is not above its on-resistance {e.on_resistance:g} Ω",
+            bad(e, f"off-resistance {_si(e.off_resistance, 'Ω')} is not above its on-resistance {_si(e.on_resistance, 'Ω')}",
                 "check the two values: a switch should conduct better when closed", severity="warning")
         c = e.control
         if isinstance(c, TimedSchedule):
             times = [t for t, _ in c.changes]
             if not all(math.isfinite(t) and t >= 0 for t in times):
-                bad(e, f"switching times {times} must be finite and not negative",
+                bad(e, f"switching times {_list([_seconds(t) for t in times])} must be finite and not negative",
                     "give times from 0 s on; the run starts at t = 0")
             elif any(b <= a for a, b in zip(times, times[1:])):
-                bad(e, f"switching times {times} must be strictly increasing",
+                bad(e, f"switching times {_list([_seconds(t) for t in times])} must be strictly increasing",
                     "list each change once, in time order")
         elif isinstance(c, PeriodicSchedule):
             if not _positive(c.period):
-                bad(e, f"period {c.period:g} s must be positive and finite", "give a positive period")
+                bad(e, f"period {_seconds(c.period)} must be positive and finite", "give a positive period")
             if not (0 < c.duty < 1):
                 bad(e, f"duty {c.duty:g} must lie strictly between 0 and 1",
                     "give a duty between 0 and 1 (e.g. 0.5); for a switch that never moves use a timed switch")
             if not (math.isfinite(c.start) and c.start >= 0):
-                bad(e, f"start {c.start:g} s must be finite and not negative", "start at 0 s or later")
+                bad(e, f"start {_seconds(c.start)} must be finite and not negative", "start at 0 s or later")
         elif isinstance(c, ThresholdRule) and not math.isfinite(c.level):
             bad(e, f"threshold level {c.level} is not a finite number", "give a finite threshold level")
     a = circuit.analysis
     if a is not None:
         problems = []
         if not _positive(a.until):
-            problems.append(f"end time {a.until:g} s must be positive and finite")
+            problems.append(f"end time {_seconds(a.until)} must be positive and finite")
         if a.step is not None and not _positive(a.step):
-            problems.append(f"step {a.step:g} s must be positive and finite")
+            problems.append(f"step {_seconds(a.step)} must be positive and finite")
         if a.points is not None and a.points < 2:
             problems.append(f"number of points {a.points} must be at least 2")
         for p in problems:
@@ -587,13 +594,14 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
             cut_off = [i for i in users if _is_open(circuit.elements[i], states[i])]
             static = nx.has_path(always, nodes[0], circuit.ground)
             label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
+            have = "has" if len(nodes) == 1 else "have"
             if not static:
-                msg = f"{label} ({_list(_names(circuit, inside))}) have no connection to ground at all"
+                msg = f"{label} (with {_list(_names(circuit, inside))}) {have} no connection to ground at all"
                 fix = ("connect the part to ground, directly or through a large resistor (e.g. 1 GΩ); "
                        "a part coupled to the rest only magnetically needs this too")
             else:
                 switches = _list(_names(circuit, cut_off))
-                msg = (f"{label} ({_list(_names(circuit, inside))}) lose every path to ground "
+                msg = (f"{label} (with {_list(_names(circuit, inside))}) {'loses' if len(nodes) == 1 else 'lose'} every path to ground "
                        f"while {switches} {'is' if len(cut_off) == 1 else 'are'} open, {cfg.when()}")
                 fix = (f"give {switches} an off-resistance (e.g. 100 MΩ) or tie the part to ground "
                        f"through a large resistor")
@@ -759,7 +767,8 @@ def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configurat
                 names = _list(_names(circuit, opened))
                 msg = (f"{label} {'is' if len(nodes) == 1 else 'are'} joined to the rest only through "
                        f"{_list(through)} while {names} {'is' if len(opened) == 1 else 'are'} open, {cfg.when()}; "
-                       f"interrupting an inductor current would need an infinite voltage")
+                       + ("interrupting an inductor current would need an infinite voltage" if inductors else
+                          "a current source cannot drive into an open circuit"))
                 fix = f"give switch {names} an off-resistance or add a parallel resistor / snubber across it"
             else:
                 msg = (f"{label} {'is' if len(nodes) == 1 else 'are'} joined to the rest only through "
@@ -905,7 +914,8 @@ def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
 
     Returns
     -------
-    str : one sentence per loop or cut set found, naming the elements, and what to change.
+    str : one sentence per loop or cut set found, naming the elements, and what to
+        change; empty when the wiring explains nothing (the cause is then in the values).
     """
     closed = tuple(bool(c) for c in closed)
     if len(closed) != len(circuit.switches):
@@ -943,8 +953,7 @@ def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
     for part in _floating_nodes(circuit, states):
         lines.append(f"node{'s' if len(part) > 1 else ''} {_list(part)} have no path to ground")
     if not lines:
-        return ("no loop of inductors and voltage sources and no cut set of capacitors and current sources "
-                "was found in this switch configuration; the singularity comes from element values, not wiring")
+        return ""
     return "the DC steady state is not unique: " + "; ".join(lines) + \
         ". Alternatively start from given initial values instead of the steady state."
 
