@@ -30,6 +30,7 @@ from .errors import CircuitodeError
 __all__ = [
     "MeasurementError",
     "FIGURE_UNITS",
+    "RINGING_NOISE",
     "STANDARD_FIGURES",
     "figure_unit",
     "peak",
@@ -362,11 +363,17 @@ def max_slope(t, y) -> np.ndarray:
     return np.max(slopes, axis=-1)
 
 
+#: Extrema smaller than this fraction of the largest deviation from the final value
+#: anywhere in the record are treated as numerical noise, not ringing.
+RINGING_NOISE = 1e-6
+
+
 def _ringing(t, y, final_level, start, floor):
     """Extrema of the deviation from the final level, fitted against their ordinal.
 
     Returns (half-period decrement ln|x_k/x_{k+1}|, half period in s), both NaN where
-    fewer than two extrema above ``floor`` × the largest one exist.
+    fewer than two usable extrema exist or where they do not alternate about the
+    final level (the signal does not ring about it).
     """
     if not 0 <= floor < 1:
         raise MeasurementError(f"ringing floor must be a fraction in [0, 1), got {floor!r}")
@@ -389,22 +396,32 @@ def _ringing(t, y, final_level, start, floor):
         curvature = (d2 - d1) / (h1 + h2)
         slope = (d1 * h2 + d2 * h1) / (h1 + h2)
         shift = np.where(curvature != 0, -slope / (2 * curvature), 0.0)
-        shift = np.clip(shift, -h1, h2)
+        shift = np.clip(np.nan_to_num(shift), -h1, h2)
         height = np.abs(ek + slope * shift + curvature * shift * shift)
     instant = t[1:-1] + shift
     largest = np.max(np.where(extremum, height, 0.0), axis=-1, keepdims=True)
-    keep = extremum & (height >= floor * largest) & (height > 0)
-    n = np.cumsum(keep, axis=-1) - 1.0
+    noise = RINGING_NOISE * np.max(np.abs(e), axis=-1, keepdims=True)
+    keep = extremum & (height >= floor * largest) & (height > noise)
     count = np.sum(keep, axis=-1)
 
+    # Ringing about the final level: successive kept extrema must alternate in sign.
+    position = np.arange(keep.shape[-1])
+    latest = np.maximum.accumulate(np.where(keep, position, -1), axis=-1)
+    previous = np.concatenate([np.full(latest.shape[:-1] + (1,), -1), latest[..., :-1]], axis=-1)
+    previous_sign = np.take_along_axis(np.sign(ek), np.maximum(previous, 0), axis=-1)
+    repeats = keep & (previous >= 0) & (previous_sign == np.sign(ek))
+    rings = (count >= 2) & ~np.any(repeats, axis=-1)
+
+    n = np.cumsum(keep, axis=-1) - 1.0
+    w = keep.astype(float)
+    sx = np.sum(w * n, axis=-1)
+    sxx = np.sum(w * n * n, axis=-1)
+
     def fitted_slope(values):
-        w = keep.astype(float)
-        sx = np.sum(w * n, axis=-1)
         sy = np.sum(np.where(keep, values, 0.0), axis=-1)
-        sxx = np.sum(w * n * n, axis=-1)
         sxy = np.sum(np.where(keep, n * values, 0.0), axis=-1)
         with np.errstate(invalid="ignore", divide="ignore"):
-            return np.where(count >= 2, (count * sxy - sx * sy) / (count * sxx - sx * sx), np.nan)
+            return np.where(rings, (count * sxy - sx * sy) / (count * sxx - sx * sx), np.nan)
 
     with np.errstate(divide="ignore"):
         log_height = np.log(np.where(keep, height, 1.0))
@@ -418,9 +435,11 @@ def damping_ratio(t, y, *, final=None, start: float | None = None, floor: float 
     parabola through three samples) are fitted as ln|x_n| = a − n·δ/2 over their
     ordinal n, so δ = ln(x_k / x_{k+1}) for peaks one period apart, and
     ζ = δ / √(4π² + δ²) (Ogata, Modern Control Engineering, ch. 5).  Only extrema
-    after ``start`` (s) and at least ``floor`` × the largest one are used, so numerical
+    after ``start`` (s), at least ``floor`` × the largest one and above
+    :data:`RINGING_NOISE` × the largest deviation in the record are used, so numerical
     noise around the settled value does not count.  NaN (no exception) when fewer than
-    two such extrema exist, i.e. the waveform does not ring.
+    two such extrema exist or they do not alternate about the final value, i.e. the
+    waveform does not ring about it (an always-positive power pulse, for instance).
     """
     half_decrement, _ = _ringing(t, y, final, start, floor)
     delta = 2.0 * half_decrement

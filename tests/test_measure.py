@@ -5,6 +5,7 @@ code under test.
 """
 from __future__ import annotations
 
+import importlib
 from types import SimpleNamespace
 
 import numpy as np
@@ -13,10 +14,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from circuitode import measure as m
 from circuitode.circuit import FIGURES
 from circuitode.errors import CircuitodeError
 from circuitode.measure import MeasurementError
+
+# The package exports a function named `measure` too; load the module itself.
+m = importlib.import_module("circuitode.measure")
 
 
 def second_order_step(zeta: float, wn: float, t: np.ndarray) -> np.ndarray:
@@ -131,6 +134,19 @@ def test_no_ringing_gives_nan_not_an_error():
     # A constant signal has no step: step figures are NaN, not a division error.
     flat = np.full_like(t, 3.0)
     assert np.isnan(m.overshoot(t, flat)) and np.isnan(m.rise_time(t, flat))
+
+
+def test_no_ringing_about_the_final_value_gives_nan():
+    # Power in a resistor carrying a ringing current, p = R i², is never below its final
+    # value 0: its extrema do not alternate about it, so there is no decrement to take.
+    t = np.linspace(0.0, 0.05, 5001)
+    i = 30.0 * np.exp(-200 * t) * np.sin(2 * np.pi * 100 * t)
+    assert np.isnan(m.damping_ratio(t, 0.1 * i * i))
+    assert m.damping_ratio(t, i) == pytest.approx(200 / np.hypot(200, 2 * np.pi * 100), rel=1e-3)
+    # Ringing that has decayed to round-off level (1e-12 of the swing) is noise, not ringing.
+    late = t > 0.03
+    tail = np.where(late, 1.0 + 1e-12 * np.sin(2 * np.pi * 1e3 * t), 1.0 - np.exp(-t / 1e-3))
+    assert np.isnan(m.damping_ratio(t, tail, final=1.0, start=0.03))
 
 
 def test_rc_charging_i2t_and_resistor_energy():
