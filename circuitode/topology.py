@@ -578,36 +578,49 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
     always = nx.Graph()
     always.add_nodes_from(circuit.nodes)
     always.add_edges_from((e.first, e.second) for e in circuit.elements)
-    out, seen = [], set()
+    out = []
+    islands = set()
+    for part in nx.connected_components(always):
+        if circuit.ground in part:
+            continue
+        islands |= part
+        nodes = [n for n in circuit.nodes if n in part]
+        inside = _node_users(circuit, nodes)
+        out.append(Diagnostic(
+            "floating-part",
+            f"{_nodes_label(nodes)} (with {_list(_names(circuit, inside))}) "
+            f"{'has' if len(nodes) == 1 else 'have'} no connection to ground at all",
+            _names(circuit, inside),
+            "connect the part to ground, directly or through a large resistor (e.g. 1 GΩ); "
+            "a part coupled to the rest only magnetically needs this too",
+            where=_where(circuit, inside),
+        ))
+    seen: set[frozenset] = set()
     for cfg in _distinct(configurations, relevant):
         states = _switch_states(circuit, cfg.closed)
         g = nx.Graph()
         g.add_nodes_from(circuit.nodes)
         g.add_edges_from((e.first, e.second) for e, s in zip(circuit.elements, states) if not _is_open(e, s))
         for part in nx.connected_components(g):
-            if circuit.ground in part or frozenset(part) in seen:
+            if circuit.ground in part or part & islands or frozenset(part) in seen:
                 continue
             seen.add(frozenset(part))
             nodes = [n for n in circuit.nodes if n in part]
             users = _node_users(circuit, nodes)
             inside = [i for i in users if not _is_open(circuit.elements[i], states[i])]
             cut_off = [i for i in users if _is_open(circuit.elements[i], states[i])]
-            static = nx.has_path(always, nodes[0], circuit.ground)
-            label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
-            have = "has" if len(nodes) == 1 else "have"
-            if not static:
-                msg = f"{label} (with {_list(_names(circuit, inside))}) {have} no connection to ground at all"
-                fix = ("connect the part to ground, directly or through a large resistor (e.g. 1 GΩ); "
-                       "a part coupled to the rest only magnetically needs this too")
-            else:
-                switches = _list(_names(circuit, cut_off))
-                msg = (f"{label} (with {_list(_names(circuit, inside))}) {'loses' if len(nodes) == 1 else 'lose'} every path to ground "
-                       f"while {switches} {'is' if len(cut_off) == 1 else 'are'} open, {cfg.when()}")
-                fix = (f"give {switches} an off-resistance (e.g. 100 MΩ) or tie the part to ground "
-                       f"through a large resistor")
+            switches = _list(_names(circuit, cut_off))
+            with_ = f" (with {_list(_names(circuit, inside))})" if inside else ""
+            msg = (f"{_nodes_label(nodes)}{with_} {'loses' if len(nodes) == 1 else 'lose'} every path to ground "
+                   f"while {switches} {'is' if len(cut_off) == 1 else 'are'} open, {cfg.when()}")
+            fix = f"give {switches} an off-resistance (e.g. 100 MΩ) or tie the part to ground through a large resistor"
             involved = inside + cut_off
             out.append(Diagnostic("floating-part", msg, _names(circuit, involved), fix, where=_where(circuit, involved)))
     return out
+
+
+def _nodes_label(nodes: Sequence[str]) -> str:
+    return f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
 
 
 # --------------------------------------------------------------------------
@@ -755,7 +768,7 @@ def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configurat
                 continue
             seen.add(key)
             opened = [i for i in _node_users(circuit, nodes) if _is_open(circuit.elements[i], states[i])]
-            label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
+            label = _nodes_label(nodes)
             inductors = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], Inductor)]
             sources = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], CurrentSource)]
             through = []
@@ -868,6 +881,15 @@ def diagnose(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
     Returns
     -------
     list of Diagnostic (severity "error" or "warning").
+
+    Examples
+    --------
+    >>> from circuitode.circuit import Capacitor, Circuit, Resistor, VoltageSource
+    >>> from circuitode.sources import Dc
+    >>> c = Circuit("demo", "gnd", (VoltageSource("V1", "in", "gnd", Dc(5.0)),
+    ...                             Capacitor("C1", "in", "gnd", 1e-6)))
+    >>> [(d.code, d.elements) for d in diagnose(c)]
+    [('capacitor-loop', ('V1', 'C1'))]
     """
     configurations, notes = _enumerate(circuit, until)
     out = check_duplicate_names(circuit) + check_values(circuit) + check_ground(circuit)
@@ -890,6 +912,16 @@ def verify(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
     TopologyError
         The subclass matching the first error's code (e.g. CapacitorLoopError),
         carrying every error diagnostic in ``diagnostics``.
+
+    Examples
+    --------
+    >>> from circuitode.circuit import Circuit, Resistor
+    >>> c = Circuit("demo", None, (Resistor("R1", "a", "b", 1.0), Resistor("R2", "a", "b", 2.0)))
+    >>> verify(c)
+    Traceback (most recent call last):
+    ...
+    circuitode.errors.NoGroundError: error [no-ground]: no ground (reference) node is declared
+      fix: add `ground NAME` naming the reference node (for example one of a, b)
     """
     found = diagnose(circuit, until)
     errors = [d for d in found if d.severity == "error"]
@@ -945,7 +977,7 @@ def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
             f"(add a series resistance, e.g. the winding resistance of {names[0]})")
     for nodes, around in _isolated_groups(circuit, conducting, cut):
         names = _names(circuit, around)
-        label = f"node{'s' if len(nodes) > 1 else ''} {_list(nodes)}"
+        label = _nodes_label(nodes)
         through = f" only through {_list(names)}" if names else " by nothing"
         lines.append(
             f"{label} {'is' if len(nodes) == 1 else 'are'} reached{through}, which carry no direct current: "

@@ -548,3 +548,26 @@ def test_explain_singular_dc():
     assert "K" in explain_singular_dc(shunted, (True,)) and explain_singular_dc(shunted, (False,)) == ""
     with pytest.raises(CircuitodeError):
         explain_singular_dc(shunted, (True, False))
+
+
+def test_island_with_an_internal_switch_is_reported_once():
+    c = circuit(
+        SOURCE,
+        Resistor("R", "in", "gnd", 1.0),
+        Resistor("Ra", "p", "q", 1.0),
+        Switch("K", "q", "r", opens_at(1e-3)),
+        Resistor("Rb", "r", "p", 1.0),
+    )
+    found = errors(c)
+    assert [(d.code, set(d.elements)) for d in found] == [("floating-part", {"Ra", "Rb", "K"})]
+    assert "at all" in found[0].message
+
+
+def test_docstring_examples_run():
+    # the examples in the module's docstrings are part of its documentation; they must hold
+    import doctest
+
+    import circuitode.topology as topology
+
+    result = doctest.testmod(topology)
+    assert result.attempted >= 3 and result.failed == 0
