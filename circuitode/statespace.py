@@ -31,31 +31,17 @@ from dataclasses import dataclass
 from typing import Mapping, Sequence
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.linalg import splu
 
-from .circuit import (
-    Capacitor,
-    Circuit,
-    CurrentSource,
-    CurrentThrough,
-    Inductor,
-    NodeVoltage,
-    PowerIn,
-    Resistor,
-    Switch,
-    VoltageAcross,
-    VoltageBetween,
-    VoltageSource,
+from .circuit import Circuit, VoltageSource
+from .companion import (
+    StateSpaceRequestError,
+    build_layout,
+    check_closed,
+    check_structure,
+    describe_configuration,
 )
-from .errors import (
-    BadCouplingError,
-    BadValueError,
-    CircuitodeError,
-    Diagnostic,
-    SingularSystemError,
-    TopologyError,
-)
+from .errors import SingularSystemError
+from .mna import SPARSE_THRESHOLD, VARIABLE_FIELDS, Samples, inductance_matrix, probe_rows, solve_companion
 
 __all__ = [
     "SPARSE_THRESHOLD",
@@ -67,24 +53,6 @@ __all__ = [
     "initial_state",
     "describe_configuration",
 ]
-
-#: Above this many MNA unknowns a single (unbatched) circuit is solved with sparse LU.
-SPARSE_THRESHOLD = 200
-
-#: Element fields that ``values`` may override per sample, by element kind.
-VARIABLE_FIELDS = {
-    Resistor: ("resistance",),
-    Capacitor: ("capacitance",),
-    Inductor: ("inductance",),
-    Switch: ("on_resistance", "off_resistance"),
-}
-_COUPLING_FIELDS = ("k",)
-
-
-class StateSpaceRequestError(CircuitodeError, ValueError):
-    """A request this stage cannot serve: an unknown element or node in a probe, a
-    probe that is not linear in (x, u), switch states of the wrong length, an
-    unknown initial-state mode or a malformed batch of values."""
 
 
 # --------------------------------------------------------------------------
@@ -150,484 +118,6 @@ class StateSpace:
         )
 
 
-# --------------------------------------------------------------------------
-# The companion network of one configuration
-# --------------------------------------------------------------------------
-
-
-@dataclass
-class _Layout:
-    """Index bookkeeping of the companion network (independent of element values).
-
-    Node indices: 0 … nn-1 for non-ground nodes, -1 for ground.  Branch unknowns
-    (capacitors, voltage sources, closed ideal switches) follow at nn + j.
-    """
-
-    node: dict[str, int]
-    conductors: list[tuple[str, str, int, int]]  # (element name, value field, a, b)
-    branches: list[tuple[str, int, int]]  # (element name, a, b)
-    branch_of: dict[str, int]  # element name → unknown index
-
-    @property
-    def nn(self) -> int:
-        return len(self.node)
-
-    @property
-    def size(self) -> int:
-        return self.nn + len(self.branches)
-
-
-def describe_configuration(circuit: Circuit, closed: Sequence[bool]) -> str:
-    """Words for a switch configuration, e.g. ``"with K1 closed, K2 open"``."""
-    switches = circuit.switches
-    if not switches:
-        return "(the circuit has no switches)"
-    words = [f"{s.name} {'closed' if c else 'open'}" for s, c in zip(switches, closed)]
-    return "with " + ", ".join(words)
-
-
-class _Forest:
-    """Union-find over node names that remembers, per joined pair, the path of elements."""
-
-    def __init__(self, nodes: Sequence[str]):
-        self.parent = {n: n for n in nodes}
-
-    def find(self, n: str) -> str:
-        root = n
-        while self.parent[root] != root:
-            root = self.parent[root]
-        while self.parent[n] != root:
-            self.parent[n], n = root, self.parent[n]
-        return root
-
-    def join(self, a: str, b: str) -> bool:
-        """Join; False when a and b were already joined (the edge closes a loop)."""
-        ra, rb = self.find(a), self.find(b)
-        if ra == rb:
-            return False
-        self.parent[ra] = rb
-        return True
-
-
-def _loop_through(edges: Sequence[tuple[str, str, str]], closing: tuple[str, str, str]) -> list[str]:
-    """Names of the elements on the loop that ``closing`` makes with the forest ``edges``."""
-    import networkx as nx
-
-    g = nx.MultiGraph()
-    for name, a, b in edges:
-        g.add_edge(a, b, key=name)
-    name, a, b = closing
-    if a == b:
-        return [name]
-    path = nx.shortest_path(g, a, b)
-    return [next(iter(g[u][v])) for u, v in zip(path, path[1:])] + [name]
-
-
-def _structure(circuit: Circuit, closed: Sequence[bool], dc: bool) -> tuple[list, list, list[str]]:
-    """Check that a resistive network with positive conductances has a unique solution.
-
-    Voltage-defined branches must form no loop, and every node must reach ground
-    through voltage-defined or conducting branches (a standard property of modified
-    nodal analysis with positive conductances).  ``dc`` selects the network: False
-    → the companion network (capacitors as voltage sources, inductors as current
-    sources); True → the DC network (capacitors open, inductors shorts).
-
-    Returns (voltage branches kept, conductors, problems in words); a loop made only
-    of closed ideal switches is harmless, and its closing switch is dropped.
-    """
-    nodes = list(circuit.nodes)
-    forest = _Forest(nodes)
-    kept: list[tuple[str, str, str]] = []
-    conductors: list[tuple[str, str, str, str]] = []
-    problems: list[str] = []
-    states = dict(zip((s.name for s in circuit.switches), closed))
-    for e in circuit.elements:
-        edge = (e.name, e.first, e.second)
-        if isinstance(e, Resistor):
-            conductors.append((e.name, "resistance", e.first, e.second))
-            continue
-        if isinstance(e, Switch):
-            on = states[e.name]
-            field_ = "on_resistance" if on else "off_resistance"
-            if getattr(e, field_) is not None:
-                conductors.append((e.name, field_, e.first, e.second))
-                continue
-            if not on:
-                continue
-        elif isinstance(e, CurrentSource) or (isinstance(e, Capacitor) and dc):
-            continue
-        elif isinstance(e, Inductor) and not dc:
-            continue
-        if forest.join(e.first, e.second):
-            kept.append(edge)
-            continue
-        loop = _loop_through(kept, edge)
-        kinds = {type(circuit.element(n)) for n in loop}
-        if kinds <= {Switch}:
-            continue  # only ideal switches: voltages are fine, this one's current is taken as 0
-        problems.append(_loop_words(circuit, loop, kinds, dc))
-    for name, _, a, b in conductors:
-        forest.join(a, b)
-    ground = circuit.ground
-    floating = [n for n in nodes if ground is None or forest.find(n) != forest.find(ground)]
-    if ground is None:
-        problems.append("the circuit has no ground node; declare one so node voltages have a reference")
-    elif floating:
-        problems.append(_floating_words(floating, dc))
-    return kept, conductors, problems
-
-
-def _loop_words(circuit: Circuit, loop: list[str], kinds: set, dc: bool) -> str:
-    names = ", ".join(loop)
-    if dc and Inductor in kinds:
-        return (
-            f"in DC steady state the loop {names} is made only of inductors, voltage sources "
-            "and closed switches, so its DC current is undetermined (or infinite); "
-            "add a series resistance to one of them, or start from rest or given values"
-        )
-    if Capacitor in kinds:
-        return (
-            f"the loop {names} is made only of capacitors, voltage sources and closed ideal "
-            "switches, so the capacitor voltages are not independent; add a series "
-            "resistance in the loop (for a switch: an on-resistance)"
-        )
-    return (
-        f"the loop {names} is made only of voltage sources and closed ideal switches "
-        "(a shorted or paralleled source); add a series resistance (for a switch: an on-resistance)"
-    )
-
-
-def _floating_words(floating: list[str], dc: bool) -> str:
-    nodes = ", ".join(floating)
-    if dc:
-        return (
-            f"in DC steady state node(s) {nodes} have no path to ground except through "
-            "capacitors, current sources or open switches, so their DC voltages are "
-            "undetermined; add a resistor from them to ground, or start from rest or given values"
-        )
-    return (
-        f"node(s) {nodes} have no path to ground except through inductors, current sources "
-        "or open ideal switches (a floating part or an inductor/current-source cut set); "
-        "add a resistor from them to ground (for a switch: an off-resistance)"
-    )
-
-
-def _topology_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
-    """The topology module's error diagnostics, when that module offers ``diagnose``."""
-    try:
-        from . import topology
-    except ImportError:
-        return ""
-    diagnose = getattr(topology, "diagnose", None)
-    if diagnose is None:
-        return ""
-    try:
-        found = diagnose(circuit)
-    except TopologyError as exc:
-        found = exc.diagnostics
-    except Exception:  # diagnostics are only extra words; never mask the real error
-        return ""
-    errors = [d for d in (found or ()) if getattr(d, "severity", "error") == "error"]
-    return "\n".join(str(d) for d in errors)
-
-
-def _layout(circuit: Circuit, closed: tuple[bool, ...]) -> _Layout:
-    kept, conductors, problems = _structure(circuit, closed, dc=False)
-    if problems:
-        words = _topology_words(circuit, closed)
-        message = (
-            f"the circuit {describe_configuration(circuit, closed)} has no unique solution: "
-            + "; ".join(problems)
-        )
-        if words:
-            message += "\nthe topology checks found:\n" + words
-        raise SingularSystemError(message)
-    ground = circuit.ground
-    node = {n: i for i, n in enumerate(n for n in circuit.nodes if n != ground)}
-    index = dict(node, **{ground: -1})
-    branches = [(name, index[a], index[b]) for name, a, b in kept]
-    return _Layout(
-        node=node,
-        conductors=[(name, f, index[a], index[b]) for name, f, a, b in conductors],
-        branches=branches,
-        branch_of={name: len(node) + j for j, (name, _, _) in enumerate(branches)},
-    )
-
-
-# --------------------------------------------------------------------------
-# Element values, one per sample
-# --------------------------------------------------------------------------
-
-
-class _Samples:
-    """Element values for N samples: the nominal value unless ``values`` overrides it.
-
-    Also collects which samples are unusable; a single circuit (``batched`` False)
-    raises at the first unusable value instead.
-    """
-
-    def __init__(self, circuit: Circuit, values: Mapping[tuple[str, str], np.ndarray] | None):
-        self.circuit = circuit
-        self.batched = values is not None
-        self.values: dict[tuple[str, str], np.ndarray] = {}
-        sizes = set()
-        for key, array in (values or {}).items():
-            if not (isinstance(key, tuple) and len(key) == 2):
-                raise StateSpaceRequestError(f"batch key {key!r} must be (element name, field)")
-            name, field_ = key
-            element = circuit.by_name.get(name)
-            if element is None:
-                raise StateSpaceRequestError(f"batch values name {name!r}, which is not an element of the circuit")
-            allowed = _COUPLING_FIELDS if name in {c.name for c in circuit.couplings} else VARIABLE_FIELDS.get(type(element), ())
-            if field_ not in allowed:
-                raise StateSpaceRequestError(
-                    f"batch values for {name!r} give field {field_!r}; a {type(element).__name__.lower()} "
-                    f"can vary only in {', '.join(allowed) or 'nothing'}"
-                )
-            if getattr(element, field_) is None:
-                raise StateSpaceRequestError(
-                    f"switch {name!r} has no {field_.replace('_', ' ')} (it is ideal in that state), "
-                    "so it cannot vary per sample; give it a nominal resistance first"
-                )
-            arr = np.asarray(array, dtype=float)
-            if arr.ndim != 1:
-                raise StateSpaceRequestError(f"batch values for {key!r} must be 1-D (one per sample), got shape {arr.shape}")
-            sizes.add(arr.shape[0])
-            self.values[key] = arr
-        if len(sizes) > 1:
-            raise StateSpaceRequestError(f"batch values disagree on the number of samples: {sorted(sizes)}")
-        self.size = sizes.pop() if sizes else 1
-        if self.size < 1:
-            raise StateSpaceRequestError("a batch needs at least one sample")
-        self.ok = np.ones(self.size, dtype=bool)
-        self.problems: dict[int, str] = {}
-
-    def get(self, name: str, field_: str) -> np.ndarray:
-        """(N,) values of ``field_`` of element ``name``."""
-        if (name, field_) in self.values:
-            return self.values[(name, field_)]
-        return np.full(self.size, float(getattr(self.circuit.by_name[name], field_)))
-
-    def require(self, bad: np.ndarray, name: str, message: str, fix: str, singular: bool = False) -> None:
-        """Record samples where ``bad``; for a single circuit raise with ``message``."""
-        if not np.any(bad):
-            return
-        if not self.batched:
-            if singular:
-                raise SingularSystemError(f"{message}; {fix}")
-            raise BadValueError((Diagnostic("bad-value", message, (name,), fix),))
-        for i in np.flatnonzero(bad & self.ok):
-            self.problems[int(i)] = message
-        self.ok &= ~bad
-
-    def positive(self, name: str, field_: str, unit: str) -> np.ndarray:
-        """(N,) values that must be positive and finite; unusable ones replaced by 1."""
-        v = self.get(name, field_)
-        bad = ~(np.isfinite(v) & (v > 0))
-        self.require(bad, name, f"{field_.replace('_', ' ')} of {name} must be a positive number of {unit}",
-                     f"give {name} a {field_.replace('_', ' ')} above zero")
-        return np.where(bad, 1.0, v)
-
-
-def _inductance_matrix(circuit: Circuit, samples: _Samples) -> np.ndarray:
-    """(N, nL, nL) inductance matrix, H; unusable samples get the identity."""
-    inductors = circuit.inductors
-    position = {l.name: i for i, l in enumerate(inductors)}
-    N, nL = samples.size, len(inductors)
-    L = np.zeros((N, nL, nL))
-    own = np.stack([samples.positive(l.name, "inductance", "henry") for l in inductors], axis=1) if nL else np.zeros((N, 0))
-    L[:, np.arange(nL), np.arange(nL)] = own
-    seen: set[frozenset] = set()
-    for c in circuit.couplings:
-        if c.first not in position or c.second not in position or c.first == c.second:
-            raise BadCouplingError((Diagnostic(
-                "bad-coupling", f"coupling {c.name} joins {c.first!r} and {c.second!r}; it needs two different inductors",
-                (c.name,), "name two inductors of the circuit"),))
-        pair = frozenset((c.first, c.second))
-        if pair in seen:
-            raise BadCouplingError((Diagnostic(
-                "bad-coupling", f"inductors {c.first} and {c.second} are coupled twice", (c.name,),
-                "keep one coupling per pair"),))
-        seen.add(pair)
-        k = samples.get(c.name, "k")
-        bad = ~(np.isfinite(k) & (np.abs(k) < 1))
-        samples.require(bad, c.name, f"coupling factor k of {c.name} must lie strictly between -1 and 1",
-                        f"give {c.name} a coupling |k| < 1", singular=True)
-        i, j = position[c.first], position[c.second]
-        mutual = np.where(bad, 0.0, k) * np.sqrt(own[:, i] * own[:, j])
-        L[:, i, j] = mutual
-        L[:, j, i] = mutual
-    if nL and circuit.couplings:
-        lowest = np.linalg.eigvalsh(L)[:, 0]
-        bad = ~(lowest > 1e-12 * own.max(axis=1))
-        names = ", ".join(f"{c.name} (k = {c.k:g})" for c in circuit.couplings)
-        samples.require(
-            bad, circuit.couplings[0].name,
-            f"the inductance matrix of the coupled inductors is not positive definite (couplings {names})",
-            "reduce the coupling factors so that the coupled set stores positive energy for every current",
-            singular=True,
-        )
-        L[bad] = np.eye(nL) * own[bad][:, None, :]
-    return L
-
-
-# --------------------------------------------------------------------------
-# Stamping and solving (one implementation for batched, single and sparse)
-# --------------------------------------------------------------------------
-
-
-def _stamp(layout: _Layout, conductance: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Triplets of the MNA matrix: rows (nnz,), cols (nnz,), vals (N, nnz); duplicates add.
-
-    conductance : (N, number of conductors) in S.
-    """
-    N = conductance.shape[0]
-    a = np.array([c[2] for c in layout.conductors], dtype=int)
-    b = np.array([c[3] for c in layout.conductors], dtype=int)
-    count = a.size
-    rows = np.concatenate([a, b, a, b])
-    cols = np.concatenate([a, b, b, a])
-    sign = np.repeat([1.0, 1.0, -1.0, -1.0], count)
-    which = np.tile(np.arange(count), 4)
-    keep = (rows >= 0) & (cols >= 0)
-    g_vals = conductance[:, which[keep]] * sign[keep]
-    ba = np.array([br[1] for br in layout.branches], dtype=int)
-    bb = np.array([br[2] for br in layout.branches], dtype=int)
-    j = layout.nn + np.arange(ba.size)
-    f_rows = np.concatenate([ba, bb, j, j])
-    f_cols = np.concatenate([j, j, ba, bb])
-    f_vals = np.repeat([1.0, -1.0, 1.0, -1.0], ba.size)
-    f_keep = (f_rows >= 0) & (f_cols >= 0)
-    rows = np.concatenate([rows[keep], f_rows[f_keep]])
-    cols = np.concatenate([cols[keep], f_cols[f_keep]])
-    vals = np.concatenate([g_vals, np.broadcast_to(f_vals[f_keep], (N, int(f_keep.sum())))], axis=1)
-    return rows, cols, vals
-
-
-def _dense(rows: np.ndarray, cols: np.ndarray, vals: np.ndarray, size: int) -> np.ndarray:
-    """(N, size, size) matrices from triplets, summing duplicates (np.bincount, no loop)."""
-    N = vals.shape[0]
-    flat = (np.arange(N)[:, None] * size * size + (rows * size + cols)[None, :]).ravel()
-    return np.bincount(flat, weights=vals.ravel(), minlength=N * size * size).reshape(N, size, size)
-
-
-def _right_hand_sides(circuit: Circuit, layout: _Layout) -> np.ndarray:
-    """(size, n + m): one column per state (capacitors, inductors) and per input."""
-    caps, inds, sources = circuit.capacitors, circuit.inductors, circuit.sources
-    n = len(caps) + len(inds)
-    index = dict(layout.node, **{circuit.ground: -1})
-    rhs = np.zeros((layout.size + 1, n + len(sources)))  # last row: ground, dropped
-    for col, c in enumerate(caps):
-        rhs[layout.branch_of[c.name], col] = 1.0
-    current_like = [(len(caps) + i, l) for i, l in enumerate(inds)]
-    for col, s in enumerate(sources, start=n):
-        if isinstance(s, VoltageSource):
-            rhs[layout.branch_of[s.name], col] = 1.0
-        else:
-            current_like.append((col, s))
-    for col, e in current_like:  # current from first through the element to second
-        rhs[index[e.first], col] -= 1.0
-        rhs[index[e.second], col] += 1.0
-    return rhs[:-1]
-
-
-def _solve(circuit, layout, conductance, solver: str) -> np.ndarray:
-    """(N, size + 1, n + m): every unknown for every state and input column; last row ground (0)."""
-    rhs = _right_hand_sides(circuit, layout)
-    N, K = conductance.shape[0], layout.size
-    rows, cols, vals = _stamp(layout, conductance)
-    if solver == "auto":
-        solver = "sparse" if (N == 1 and K > SPARSE_THRESHOLD) else "dense"
-    if K == 0:
-        Z = np.zeros((N, 0, rhs.shape[1]))
-    elif solver == "sparse":
-        if N != 1:
-            raise StateSpaceRequestError("the sparse solver serves single circuits; use 'dense' for a batch")
-        matrix = sp.csc_matrix(sp.coo_matrix((vals[0], (rows, cols)), shape=(K, K)))
-        Z = splu(matrix).solve(rhs)[None] if rhs.shape[1] else np.zeros((1, K, 0))
-    elif solver == "dense":
-        matrix = _dense(rows, cols, vals, K)
-        Z = np.linalg.solve(matrix, np.broadcast_to(rhs, (N,) + rhs.shape))
-    else:
-        raise StateSpaceRequestError(f"unknown MNA solver {solver!r}; choose 'auto', 'dense' or 'sparse'")
-    return np.concatenate([Z, np.zeros((N, 1, rhs.shape[1]))], axis=1)
-
-
-# --------------------------------------------------------------------------
-# Probes
-# --------------------------------------------------------------------------
-
-
-def _probe_rows(circuit, layout, probes, conductance, closed, n) -> tuple[np.ndarray, np.ndarray]:
-    """Weights (N, p, size + 1) over the unknowns and direct part (p, n + m) over (x, u)."""
-    N, K = conductance.shape[0], layout.size
-    m = len(circuit.sources)
-    W = np.zeros((N, len(probes), K + 1))
-    direct = np.zeros((len(probes), n + m))
-    ground = circuit.ground
-    node = dict(layout.node, **{ground: K})  # ground → the zero row
-    g_of = {c[0]: i for i, c in enumerate(layout.conductors)}
-    state_of = {l.name: len(circuit.capacitors) + i for i, l in enumerate(circuit.inductors)}
-    input_of = {s.name: n + i for i, s in enumerate(circuit.sources)}
-
-    def node_index(name: str) -> int:
-        if name not in node:
-            raise StateSpaceRequestError(
-                f"no node named {name!r} in the circuit; known nodes: {', '.join(circuit.nodes)}")
-        return node[name]
-
-    def element(name: str):
-        e = circuit.by_name.get(name)
-        if e is None or e in circuit.couplings:
-            raise StateSpaceRequestError(
-                f"no two-terminal element named {name!r} to probe; known elements: "
-                + ", ".join(x.name for x in circuit.elements))
-        return e
-
-    for row, probe in enumerate(probes):
-        if isinstance(probe, PowerIn):
-            raise StateSpaceRequestError(
-                f"{probe.label} is not linear in the states and inputs; record voltage across "
-                f"{probe.element} and current through {probe.element} and multiply them")
-        if isinstance(probe, NodeVoltage):
-            W[:, row, node_index(probe.node)] += 1.0
-        elif isinstance(probe, (VoltageBetween, VoltageAcross)):
-            pair = (probe.first, probe.second) if isinstance(probe, VoltageBetween) else (
-                element(probe.element).first, element(probe.element).second)
-            W[:, row, node_index(pair[0])] += 1.0
-            W[:, row, node_index(pair[1])] -= 1.0
-        elif isinstance(probe, CurrentThrough):
-            e = element(probe.element)
-            if e.name in g_of:  # resistor or resistive switch: (v_a - v_b) g
-                g = conductance[:, g_of[e.name]]
-                W[:, row, node[e.first]] += g
-                W[:, row, node[e.second]] -= g
-            elif e.name in layout.branch_of:  # capacitor, voltage source, closed ideal switch
-                W[:, row, layout.branch_of[e.name]] = 1.0
-            elif e.name in state_of:
-                direct[row, state_of[e.name]] = 1.0
-            elif e.name in input_of:
-                direct[row, input_of[e.name]] = 1.0
-            # else: open ideal switch (or a closed one in a loop of switches): 0 A
-        else:
-            raise StateSpaceRequestError(f"cannot record {probe!r}: not a known kind of probe")
-    return W, direct
-
-
-# --------------------------------------------------------------------------
-# Public entry points
-# --------------------------------------------------------------------------
-
-
-def _check_closed(circuit: Circuit, closed: Sequence[bool]) -> tuple[bool, ...]:
-    closed = tuple(bool(c) for c in closed)
-    if len(closed) != len(circuit.switches):
-        raise StateSpaceRequestError(
-            f"{len(closed)} switch states given for {len(circuit.switches)} switches "
-            f"({', '.join(s.name for s in circuit.switches) or 'none'}); give one per switch, in order")
-    return closed
-
-
 def assemble(
     circuit: Circuit,
     closed: Sequence[bool],
@@ -662,19 +152,18 @@ def assemble(
     BadValueError : a single circuit with an unusable element value.
     StateSpaceRequestError : a probe, switch-state tuple or batch that makes no sense.
     """
-    closed = _check_closed(circuit, closed)
-    layout = _layout(circuit, closed)
-    samples = _Samples(circuit, values)
+    closed = check_closed(circuit, closed)
+    layout = build_layout(circuit, closed)
+    samples = Samples(circuit, values)
     conductance = np.stack(
         [1.0 / samples.positive(name, f, "ohms") for name, f, _, _ in layout.conductors], axis=1
     ) if layout.conductors else np.zeros((samples.size, 0))
     capacitance = np.stack(
         [samples.positive(c.name, "capacitance", "farads") for c in circuit.capacitors], axis=1
     ) if circuit.capacitors else np.zeros((samples.size, 0))
-    inductance = _inductance_matrix(circuit, samples)
-    W, direct = _probe_rows(circuit, layout, tuple(probes), conductance, closed,
-                            len(circuit.state_names))
-    Z = _solve(circuit, layout, conductance, solver)
+    inductance = inductance_matrix(circuit, samples)
+    W, direct = probe_rows(circuit, layout, tuple(probes), conductance, len(circuit.state_names))
+    Z = solve_companion(circuit, layout, conductance, solver)
 
     caps, inds = circuit.capacitors, circuit.inductors
     n = len(caps) + len(inds)
@@ -727,7 +216,7 @@ class StateSpaceCache:
         return tuple(s.initially_closed for s in self.circuit.switches)
 
     def get(self, closed: Sequence[bool]) -> StateSpace:
-        key = _check_closed(self.circuit, closed)
+        key = check_closed(self.circuit, closed)
         if key not in self._cache:
             self._cache[key] = assemble(self.circuit, key, self.probes, self.values, solver=self.solver)
         return self._cache[key]
@@ -748,7 +237,7 @@ def _dc_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
                 return str(words)
     except Exception:  # extra words only; fall back to our own
         pass
-    _, _, problems = _structure(circuit, closed, dc=True)
+    _, _, problems = check_structure(circuit, closed, dc=True)
     return "; ".join(problems) or "the state matrix A is singular"
 
 
@@ -776,7 +265,7 @@ def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None)
         return np.broadcast_to(np.array([0.0 if g is None else float(g) for g in given]), shape).copy()
     if mode != "steady":
         raise StateSpaceRequestError(f"unknown initial state {mode!r}; choose 'rest', 'given' or 'steady'")
-    _, _, problems = _structure(circuit, ss_at_start.closed, dc=True)
+    _, _, problems = check_structure(circuit, ss_at_start.closed, dc=True)
     if problems:
         raise SingularSystemError(
             f"no unique DC steady state {describe_configuration(circuit, ss_at_start.closed)}: "
