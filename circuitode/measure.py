@@ -1,10 +1,14 @@
 """Waveform figures: pure, vectorised functions of sampled time and signal.
 
-Every figure takes ``t`` of shape ``(nt,)`` in seconds, non-decreasing (an
+Every figure takes ``t`` in seconds, non-decreasing along its last axis (an
 event instant may appear twice: the value just before and just after it), and
-``y`` of shape ``(..., nt)`` batched along any leading axes.  It returns a
-numpy value of shape ``y.shape[:-1]`` (a 0-d value for 1-D input) in SI units;
-:func:`figure_unit` says which.  No figure loops in Python over samples.
+``y`` of shape ``(..., nt)`` batched along any leading axes.  ``t`` is either one
+clock ``(nt,)`` shared by every signal, or one clock per signal, broadcastable to
+``y`` (a tolerance batch whose switching instants differ from sample to sample).
+Each figure returns a numpy value of shape ``y.shape[:-1]`` (0-d for 1-D input)
+in SI units; :func:`figure_unit` says which.  Instants given as options
+(``start``, ``end``) may likewise be scalars or one per signal.  No figure loops
+in Python over samples.
 
 Terms follow IEEE Std 181-2011 (transitions, pulses and related waveforms)
 where it defines them: the *initial* and *final* state levels of a step, its
@@ -106,68 +110,82 @@ def figure_unit(figure: str, signal_unit: str) -> str:
 
 
 def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
+    """Validated float arrays: ``t`` (nt,) shared by every signal, or ``t`` broadcast to
+    ``y``'s shape when each signal has its own clock (a batch whose events differ)."""
     t = np.asarray(t, dtype=float)
     y = np.asarray(y, dtype=float)
-    if t.ndim != 1 or t.size < 2:
-        raise MeasurementError(f"time must be a 1-D array of at least 2 instants, got shape {t.shape}")
-    if y.ndim < 1 or y.shape[-1] != t.size:
+    if t.ndim < 1 or t.shape[-1] < 2:
+        raise MeasurementError(f"time must be an array of at least 2 instants along its last axis, got shape {t.shape}")
+    if y.ndim < 1 or y.shape[-1] != t.shape[-1]:
         raise MeasurementError(
-            f"signal of shape {y.shape} does not match {t.size} time instants; "
+            f"signal of shape {y.shape} does not match {t.shape[-1]} time instants; "
             "the last axis of the signal must run along time"
         )
+    if t.ndim > 1:
+        try:
+            t, y = np.broadcast_arrays(t, y)
+        except ValueError:
+            raise MeasurementError(f"time axes of shape {t.shape} do not fit signals of shape {y.shape}") from None
     if not np.all(np.isfinite(t)):
         raise MeasurementError("time contains NaN or infinite values")
-    if np.any(np.diff(t) < 0):
+    if np.any(np.diff(t, axis=-1) < 0):
         raise MeasurementError("time must be non-decreasing (an instant may repeat at an event)")
-    if t[-1] <= t[0]:
+    if np.any(t[..., -1] <= t[..., 0]):
         raise MeasurementError("time must span a positive interval")
     return t, y
 
 
+def _at(t: np.ndarray, k: np.ndarray) -> np.ndarray:
+    """``t`` at sample indices ``k`` (shape of the batch), for a shared or per-signal clock."""
+    if t.ndim == 1:
+        return t[k]
+    return np.take_along_axis(t, np.asarray(k)[..., None], axis=-1)[..., 0]
+
+
 def _level(value: Any, default: np.ndarray) -> np.ndarray:
-    """An optional state level (scalar or array over the leading axes) or the default."""
+    """An optional state level or instant (scalar or array over the leading axes) or the default."""
     if value is None:
         return default
     try:
-        return np.broadcast_to(np.asarray(value, dtype=float), default.shape)
+        return np.broadcast_to(np.asarray(value, dtype=float), np.shape(default))
     except ValueError:
         raise MeasurementError(
-            f"level of shape {np.shape(value)} does not fit signals of batch shape {default.shape}"
+            f"value of shape {np.shape(value)} does not fit signals of batch shape {np.shape(default)}"
         ) from None
 
 
-def _value_at(t: np.ndarray, y: np.ndarray, instant: float, side: str) -> np.ndarray:
-    """Linear interpolation of ``y`` at ``instant``; at a repeated instant, the value just
-    after it (``side="right"``) or just before it (``side="left"``)."""
-    k = int(np.searchsorted(t, instant, side=side))
-    k = min(max(k, 1), t.size - 1)
-    t0, t1 = t[k - 1], t[k]
-    frac = 0.0 if t1 == t0 else (instant - t0) / (t1 - t0)
-    frac = min(max(frac, 0.0), 1.0)
-    return y[..., k - 1] + frac * (y[..., k] - y[..., k - 1])
+def _ends(t: np.ndarray, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """First and last instant of every signal, shape of the batch."""
+    batch = y.shape[:-1]
+    return np.broadcast_to(t[..., 0], batch), np.broadcast_to(t[..., -1], batch)
 
 
-def _window(t: np.ndarray, y: np.ndarray, start: float | None, end: float | None):
-    """Samples of the window [start, end] with interpolated end points."""
-    start = t[0] if start is None else float(start)
-    end = t[-1] if end is None else float(end)
-    if not (t[0] <= start < end <= t[-1]):
+def _integral(t: np.ndarray, y: np.ndarray, start: Any, end: Any, square: bool = False):
+    """Trapezoidal ∫ y dt (or ∫ y² dt, trapezoidal on y²) over [start, end], the end points
+    interpolated linearly; returns (integral, window length), shape of the batch.
+
+    Each interval [t_k, t_k+1] is clipped to the window, so the window may differ per
+    signal and a repeated instant (zero-length interval) contributes nothing.
+    """
+    first, last = _ends(t, y)
+    a = _level(start, first)
+    b = _level(end, last)
+    if np.any(a < first) or np.any(b > last) or np.any(a >= b):
         raise MeasurementError(
-            f"window [{start:g} s, {end:g} s] must be non-empty and lie within the "
-            f"simulated time [{t[0]:g} s, {t[-1]:g} s]"
+            f"window [{np.min(a):g} s, {np.max(b):g} s] must be non-empty and lie within the "
+            f"simulated time [{np.max(first):g} s, {np.min(last):g} s]"
         )
-    inside = (t > start) & (t < end)
-    tw = np.concatenate(([start], t[inside], [end]))
-    yw = np.concatenate(
-        (_value_at(t, y, start, "right")[..., None], y[..., inside], _value_at(t, y, end, "left")[..., None]),
-        axis=-1,
-    )
-    return tw, yw
-
-
-def _trapezoid(t: np.ndarray, y: np.ndarray) -> np.ndarray:
-    dt = np.diff(t)
-    return np.sum(0.5 * (y[..., 1:] + y[..., :-1]) * dt, axis=-1)
+    tk, tk1 = t[..., :-1], t[..., 1:]
+    lo = np.clip(tk, a[..., None], b[..., None])
+    hi = np.clip(tk1, a[..., None], b[..., None])
+    dt = tk1 - tk
+    safe = np.where(dt > 0, dt, 1.0)
+    dy = np.diff(y, axis=-1)
+    y_lo = y[..., :-1] + (lo - tk) / safe * dy
+    y_hi = y[..., :-1] + (hi - tk) / safe * dy
+    if square:
+        y_lo, y_hi = y_lo * y_lo, y_hi * y_hi
+    return np.sum(0.5 * (y_lo + y_hi) * (hi - lo), axis=-1), b - a
 
 
 def _first_crossing(t: np.ndarray, z: np.ndarray, level: float) -> np.ndarray:
@@ -179,7 +197,7 @@ def _first_crossing(t: np.ndarray, z: np.ndarray, level: float) -> np.ndarray:
     kp = np.maximum(k - 1, 0)
     z0 = np.take_along_axis(z, kp[..., None], axis=-1)[..., 0]
     z1 = np.take_along_axis(z, k[..., None], axis=-1)[..., 0]
-    t0, t1 = t[kp], t[k]
+    t0, t1 = _at(t, kp), _at(t, k)
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = np.where((k > 0) & (z1 != z0), (level - z0) / (z1 - z0), 0.0)
     crossing = t0 + np.clip(frac, 0.0, 1.0) * (t1 - t0)
@@ -209,7 +227,7 @@ def peak(t, y) -> np.ndarray:
 def time_of_peak(t, y) -> np.ndarray:
     """Instant (s, on the run's own clock) of the largest sample; the first one if repeated."""
     t, y = _checked(t, y)
-    return t[np.argmax(y, axis=-1)]
+    return _at(t, np.argmax(y, axis=-1))
 
 
 def minimum(t, y) -> np.ndarray:
@@ -226,7 +244,9 @@ def final(t, y, *, window: float | None = None) -> np.ndarray:
         return y[..., -1].copy()
     if not window > 0:
         raise MeasurementError(f"final-value window must be a positive duration, got {window!r} s")
-    return mean(t, y, start=max(t[-1] - float(window), t[0]))
+    first, last = _ends(t, y)
+    total, length = _integral(t, y, np.maximum(last - float(window), first), None)
+    return total / length
 
 
 # --------------------------------------------------------------------------
@@ -281,7 +301,7 @@ def rise_time(t, y, *, low: float = 0.1, high: float = 0.9, initial=None, final=
 
 
 def settling_time(
-    t, y, *, band: float = 0.02, initial=None, final=None, start: float | None = None
+    t, y, *, band: float = 0.02, initial=None, final=None, start=None
 ) -> np.ndarray:
     """Settling time (s): from ``start`` (default: the first instant) to the last
     instant the signal is outside ``final ± band·|final − initial|`` (2 % band by
@@ -294,11 +314,12 @@ def settling_time(
         raise MeasurementError(f"settling band must be a positive fraction, got {band!r}")
     t, y = _checked(t, y)
     y0, yf, amplitude, _ = _step_levels(y, initial, final)
-    origin = t[0] if start is None else float(start)
+    first, _ = _ends(t, y)
+    origin = _level(start, first)
     half_width = band * np.abs(amplitude)
     error = y - yf[..., None]
     outside = np.abs(error) > half_width[..., None]
-    nt = t.size
+    nt = t.shape[-1]
     last = nt - 1 - np.argmax(outside[..., ::-1], axis=-1)
     any_outside = np.any(outside, axis=-1)
     k = np.minimum(last, nt - 2)
@@ -307,8 +328,9 @@ def settling_time(
     boundary = np.sign(e0) * half_width
     with np.errstate(invalid="ignore", divide="ignore"):
         frac = np.where(e1 != e0, (e0 - boundary) / (e0 - e1), 0.0)
-    entered = t[k] + np.clip(frac, 0.0, 1.0) * (t[k + 1] - t[k])
-    result = np.where(any_outside, entered - origin, np.maximum(t[0] - origin, 0.0))
+    t0, t1 = _at(t, k), _at(t, k + 1)
+    entered = t0 + np.clip(frac, 0.0, 1.0) * (t1 - t0)
+    result = np.where(any_outside, entered - origin, np.maximum(first - origin, 0.0))
     result = np.where(any_outside & (last == nt - 1), np.nan, result)
     return np.where(amplitude != 0, result, np.nan)
 
@@ -318,34 +340,34 @@ def settling_time(
 # --------------------------------------------------------------------------
 
 
-def mean(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
-    """Time-average (signal unit) over [start, end] s (default: the whole run), trapezoidal."""
+def mean(t, y, *, start=None, end=None) -> np.ndarray:
+    """Time-average (signal unit) over [start, end] s (default: the whole run), trapezoidal.
+
+    ``start`` and ``end`` are instants in s, scalars or one per signal."""
     t, y = _checked(t, y)
-    tw, yw = _window(t, y, start, end)
-    return _trapezoid(tw, yw) / (tw[-1] - tw[0])
+    total, length = _integral(t, y, start, end)
+    return total / length
 
 
-def rms(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
-    """Root-mean-square (signal unit) over [start, end] s, √(∫y² dt / T), trapezoidal.
+def rms(t, y, *, start=None, end=None) -> np.ndarray:
+    """Root-mean-square (signal unit) over [start, end] s, √(∫y² dt / T), trapezoidal on y².
 
     For a periodic signal choose a window of whole periods."""
     t, y = _checked(t, y)
-    tw, yw = _window(t, y, start, end)
-    return np.sqrt(_trapezoid(tw, yw * yw) / (tw[-1] - tw[0]))
+    total, length = _integral(t, y, start, end, square=True)
+    return np.sqrt(total / length)
 
 
-def i2t(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
-    """Joule integral ∫ y² dt over [start, end] (A²s for a current), trapezoidal on y²."""
+def i2t(t, y, *, start=None, end=None) -> np.ndarray:
+    """Joule integral ∫ y² dt over [start, end] s (A²s for a current), trapezoidal on y²."""
     t, y = _checked(t, y)
-    tw, yw = _window(t, y, start, end)
-    return _trapezoid(tw, yw * yw)
+    return _integral(t, y, start, end, square=True)[0]
 
 
-def energy(t, y, *, start: float | None = None, end: float | None = None) -> np.ndarray:
-    """Energy ∫ p dt (J) of a power signal ``y`` in W over [start, end], trapezoidal."""
+def energy(t, y, *, start=None, end=None) -> np.ndarray:
+    """Energy ∫ p dt (J) of a power signal ``y`` in W over [start, end] s, trapezoidal."""
     t, y = _checked(t, y)
-    tw, yw = _window(t, y, start, end)
-    return _trapezoid(tw, yw)
+    return _integral(t, y, start, end)[0]
 
 
 # --------------------------------------------------------------------------
@@ -357,9 +379,9 @@ def max_slope(t, y) -> np.ndarray:
     """Largest |dy/dt| between successive samples (signal unit per s); intervals of
     zero length (an event instant recorded twice) are skipped."""
     t, y = _checked(t, y)
-    dt = np.diff(t)
+    dt = np.diff(t, axis=-1)
     positive = dt > 0
-    slopes = np.abs(np.diff(y, axis=-1)[..., positive]) / dt[positive]
+    slopes = np.where(positive, np.abs(np.diff(y, axis=-1)) / np.where(positive, dt, 1.0), 0.0)
     return np.max(slopes, axis=-1)
 
 
@@ -381,11 +403,11 @@ def _ringing(t, y, final_level, start, floor):
     yf = _level(final_level, y[..., -1])
     e = y - yf[..., None]
     em, ek, ep = e[..., :-2], e[..., 1:-1], e[..., 2:]
-    h1 = t[1:-1] - t[:-2]
-    h2 = t[2:] - t[1:-1]
+    h1 = t[..., 1:-1] - t[..., :-2]
+    h2 = t[..., 2:] - t[..., 1:-1]
     usable = (h1 > 0) & (h2 > 0)
     if start is not None:
-        usable &= t[1:-1] >= float(start)
+        usable = usable & (t[..., 1:-1] >= _level(start, y[..., 0])[..., None])
     is_max = (ek > em) & (ek >= ep) & (ek > 0)
     is_min = (ek < em) & (ek <= ep) & (ek < 0)
     extremum = (is_max | is_min) & usable
@@ -398,7 +420,7 @@ def _ringing(t, y, final_level, start, floor):
         shift = np.where(curvature != 0, -slope / (2 * curvature), 0.0)
         shift = np.clip(np.nan_to_num(shift), -h1, h2)
         height = np.abs(ek + slope * shift + curvature * shift * shift)
-    instant = t[1:-1] + shift
+    instant = t[..., 1:-1] + shift
     largest = np.max(np.where(extremum, height, 0.0), axis=-1, keepdims=True)
     noise = RINGING_NOISE * np.max(np.abs(e), axis=-1, keepdims=True)
     keep = extremum & (height >= floor * largest) & (height > noise)
@@ -428,7 +450,7 @@ def _ringing(t, y, final_level, start, floor):
     return -fitted_slope(log_height), fitted_slope(instant)
 
 
-def damping_ratio(t, y, *, final=None, start: float | None = None, floor: float = 1e-3) -> np.ndarray:
+def damping_ratio(t, y, *, final=None, start=None, floor: float = 1e-3) -> np.ndarray:
     """Damping ratio (dimensionless) of a ringing waveform from its logarithmic decrement.
 
     The extrema of ``y − final`` (maxima above it, minima below it, each refined by a
@@ -446,7 +468,7 @@ def damping_ratio(t, y, *, final=None, start: float | None = None, floor: float 
     return delta / np.sqrt(4.0 * np.pi**2 + delta**2)
 
 
-def damped_frequency(t, y, *, final=None, start: float | None = None, floor: float = 1e-3) -> np.ndarray:
+def damped_frequency(t, y, *, final=None, start=None, floor: float = 1e-3) -> np.ndarray:
     """Damped frequency (Hz) of a ringing waveform, from the spacing of its extrema about
     the final value (successive extrema are half a period apart); NaN when it does not
     ring.  Options as for :func:`damping_ratio`."""

@@ -236,6 +236,40 @@ def test_batched_equals_loop_of_single_calls():
     np.testing.assert_allclose(m.overshoot(t, y, final=1.0), expected, rtol=1e-4)
 
 
+def test_per_signal_clocks_equal_single_calls():
+    # A tolerance batch in which a threshold switch acts at a different instant in each
+    # sample: each row has its own clock, with its event instant recorded twice.  Every
+    # figure of the batch must equal the figure of each row measured alone.
+    rng = np.random.default_rng(11)
+    n = 5
+    base = np.linspace(0.0, 0.1, 3000)
+    events = rng.uniform(0.01, 0.03, size=n)
+    t = np.sort(np.concatenate([np.broadcast_to(base, (n, base.size)), events[:, None], events[:, None]], axis=1))
+    at_event = t == events[:, None]
+    after = (t > events[:, None]) | (at_event & (np.cumsum(at_event, axis=1) == 2))
+    zeta = rng.uniform(0.1, 0.5, size=n)[:, None]
+    wn = 300.0
+    tau = np.clip(t - events[:, None], 0.0, None)
+    wd = wn * np.sqrt(1 - zeta**2)
+    ring = 1 - np.exp(-zeta * wn * tau) * (np.cos(wd * tau) + zeta / np.sqrt(1 - zeta**2) * np.sin(wd * tau))
+    # 0 before the event; from the second copy of the event instant on, a 0.2 jump plus ringing to 1.2
+    y = np.where(after, 0.2 + ring, 0.0)
+    assert np.all(np.sum(np.diff(t, axis=1) == 0, axis=1) == 1)  # one repeated instant per row
+    assert np.all(np.max(np.abs(np.diff(y, axis=1)), axis=1) >= 0.2)  # with a jump at it
+    options = {"settling_time": {"start": events}, "damping_ratio": {"start": events}, "mean": {"start": events}}
+    for name in m.FIGURE_UNITS:
+        unit = "W" if name == "energy" else "V"
+        opts = options.get(name, {})
+        batched = m.measure(name, t, y, signal_unit=unit, **opts)
+        looped = np.array(
+            [m.measure(name, t[i], y[i], signal_unit=unit, **{k: v[i] for k, v in opts.items()}) for i in range(n)]
+        )
+        np.testing.assert_allclose(batched, looped, rtol=1e-12, equal_nan=True, err_msg=name)
+    # and right: overshoot about the final value 1.2 of a 0 → 1.2 step is 100·e^{-ζπ/√(1-ζ²)}/1.2
+    expected = 100 * np.exp(-zeta[:, 0] * np.pi / np.sqrt(1 - zeta[:, 0] ** 2)) / 1.2
+    np.testing.assert_allclose(m.overshoot(t, y, final=1.2), expected, rtol=1e-3)
+
+
 @settings(max_examples=40, deadline=None)
 @given(st.lists(st.floats(-1e3, 1e3), min_size=3, max_size=40))
 def test_rms_bounds_mean_and_peak(values):
