@@ -63,7 +63,9 @@ class LinearSegment:
     def __post_init__(self) -> None:
         A = np.atleast_2d(np.asarray(self.A, dtype=float))
         n = A.shape[0]
-        B = np.asarray(self.B, dtype=float).reshape(n, -1) if n else np.zeros((0, 0))
+        B = np.asarray(self.B, dtype=float)
+        if not (B.ndim == 2 and B.shape[0] == n):
+            B = B.reshape(n, -1) if n else np.zeros((0, 0))
         x0 = np.asarray(self.x0, dtype=float).reshape(-1)
         if A.shape != (n, n) or x0.shape != (n,):
             raise IntegrationError(

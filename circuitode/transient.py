@@ -1,0 +1,475 @@
+"""The transient driver: segments, switching events and recorded waveforms.
+
+``simulate(circuit)`` splits ``[0, until]`` at every scheduled switch change and
+every source breakpoint.  Inside a segment the switch configuration is fixed
+and the circuit is ``x' = A x + B u``, which an integrator from
+:mod:`circuitode.solvers` steps.  A threshold switch is a
+:class:`~circuitode.solvers.LinearEvent` on the watched probe's row of
+``C``, ``D``; when it fires the segment ends there, the switch changes (once)
+and the run restarts with the states carried over — capacitor voltages and
+inductor currents are continuous across every switching instant.
+
+At each switching instant two rows share the same time: the values just before
+and just after, so jumps of currents stay sharp.
+"""
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass, field
+from typing import Sequence
+
+import numpy as np
+
+from .circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PowerIn, Switch,
+                      ThresholdRule, VoltageAcross)
+from .errors import CircuitodeError
+from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
+from .sources import SourceBank
+from .statespace import StateSpaceCache, describe_configuration, initial_state
+
+__all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "recorded_probes"]
+
+#: Output points when neither a step nor a number of points is given.
+DEFAULT_POINTS = 2001
+#: Threshold instants are located to this fraction of the window (or better).
+EVENT_TOL_FRACTION = 1e-12
+
+
+@dataclass(frozen=True)
+class Event:
+    """A switch changing state at ``time`` (s); ``reason`` says why (schedule or threshold)."""
+
+    time: float
+    switch: str
+    closed: bool
+    reason: str
+
+
+@dataclass(frozen=True, eq=False)
+class Waveforms:
+    """Everything a transient run recorded.
+
+    t : (nt,) s, nondecreasing; a switching instant appears twice (before, after).
+    signals : label → (nt,) array in ``units[label]``.
+    probes : label → the Probe it came from.
+    states : (nt, n) capacitor voltages (V) and inductor currents (A),
+    named by ``state_names`` with ``state_units``.
+    events : switch changes in time order.
+    method, method_reason : the integrator used and why.
+    counters : work done, summed over segments ("segments", "steps",
+    "rhs_evaluations", "expm_calls", …).
+    configurations : switch-state tuples used, in order of first use.
+    warnings : topology warnings (diagnostics of severity "warning"), as text.
+    """
+
+    t: np.ndarray
+    signals: dict[str, np.ndarray]
+    units: dict[str, str]
+    probes: dict[str, object]
+    states: np.ndarray
+    state_names: tuple[str, ...]
+    state_units: tuple[str, ...]
+    events: tuple[Event, ...]
+    method: str
+    method_reason: str
+    counters: dict[str, int]
+    configurations: tuple[tuple[bool, ...], ...]
+    warnings: tuple[str, ...] = field(default=())
+
+    def __getitem__(self, label: str) -> np.ndarray:
+        if label in self.signals:
+            return self.signals[label]
+        if label in self.state_names:
+            return self.states[:, self.state_names.index(label)]
+        known = ", ".join(self.signals) or "none"
+        raise CircuitodeError(f"nothing recorded as {label!r}; recorded: {known}")
+
+    @property
+    def labels(self) -> tuple[str, ...]:
+        return tuple(self.signals)
+
+    def to_csv(self, path) -> None:
+        """Write ``time [s]`` and every signal as plain CSV; the header carries the units."""
+        header = ["time [s]"] + [f"{label} [{self.units[label]}]" for label in self.signals]
+        data = np.column_stack([self.t] + [self.signals[label] for label in self.signals])
+        with open(path, "w", newline="", encoding="utf-8") as handle:
+            csv.writer(handle).writerow(header)
+            np.savetxt(handle, data, delimiter=",", fmt="%.12g")
+
+
+# --------------------------------------------------------------------------
+# Settings
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Settings:
+    until: float
+    step: float | None
+    points: int
+    method: str
+    initial: str
+
+
+def _settings(circuit: Circuit, method, step, until, points, initial) -> _Settings:
+    a = circuit.analysis
+    until = until if until is not None else (a.until if a is not None else None)
+    if until is None:
+        raise CircuitodeError(
+            "no end time for the transient: add `transient until …` to the netlist or pass --until")
+    step = step if step is not None else (a.step if a is not None else None)
+    points = points if points is not None else (a.points if a is not None else None)
+    method = method if method is not None else (a.method if a is not None else "auto")
+    initial = initial if initial is not None else (a.initial if a is not None else "given")
+    if not (isinstance(until, (int, float)) and np.isfinite(until) and until > 0):
+        raise CircuitodeError(f"the transient end time must be a positive number of seconds, got {until!r}")
+    if step is not None and not (np.isfinite(step) and 0 < step <= until):
+        raise CircuitodeError(
+            f"the step must be a positive time no longer than the window ({until:g} s), got {step!r}")
+    if points is None:
+        points = DEFAULT_POINTS
+    if int(points) != points or points < 2:
+        raise CircuitodeError(f"points must be a whole number of at least 2, got {points!r}")
+    if step is not None and until / step > 5e7:
+        raise CircuitodeError(
+            f"step {step:g} s over {until:g} s would record {until / step:.3g} points; use a larger step")
+    if initial not in INITIAL_STATES:
+        raise CircuitodeError(f"unknown initial state {initial!r}; choose one of: {', '.join(INITIAL_STATES)}")
+    return _Settings(float(until), None if step is None else float(step), int(points),
+                     str(method).strip().lower(), initial)
+
+
+def _output_grid(s: _Settings) -> np.ndarray:
+    """Requested output times (s): every step from 0 (and ``until``), else ``points`` evenly."""
+    if s.step is None:
+        return np.linspace(0.0, s.until, s.points)
+    count = int(np.floor(s.until / s.step * (1 + 1e-12)))
+    grid = s.step * np.arange(count + 1)
+    grid = grid[grid <= s.until]
+    if s.until - grid[-1] > 1e-9 * s.step:
+        grid = np.append(grid, s.until)
+    else:
+        grid[-1] = s.until
+    return grid
+
+
+# --------------------------------------------------------------------------
+# Probes
+# --------------------------------------------------------------------------
+
+
+def recorded_probes(circuit: Circuit, probes: Sequence | None = None) -> list:
+    """What a run records: ``probes`` (default ``circuit.records``; when both are empty,
+    every node voltage and the current through every element), then every probe a
+    requirement or a threshold switch uses; duplicates (same label) dropped."""
+    chosen = list(probes) if probes is not None else list(circuit.records)
+    if not chosen:
+        chosen = [NodeVoltage(n) for n in circuit.nodes if n != circuit.ground]
+        chosen += [CurrentThrough(e.name) for e in circuit.elements]
+    chosen += [r.probe for r in circuit.requirements]
+    chosen += [s.control.probe for s in circuit.switches if isinstance(s.control, ThresholdRule)]
+    unique: dict[str, object] = {}
+    for p in chosen:
+        unique.setdefault(p.label, p)
+    return list(unique.values())
+
+
+def _linear_probes(probes: Sequence) -> list:
+    """The linear probes to assemble: each probe, PowerIn replaced by its v and i."""
+    out: dict[str, object] = {}
+    for p in probes:
+        parts = (VoltageAcross(p.element), CurrentThrough(p.element)) if isinstance(p, PowerIn) else (p,)
+        for q in parts:
+            out.setdefault(q.label, q)
+    return list(out.values())
+
+
+# --------------------------------------------------------------------------
+# Timeline
+# --------------------------------------------------------------------------
+
+
+def _schedule(circuit: Circuit, until: float) -> list[tuple[float, int, bool]]:
+    """Scheduled switch changes (time s, switch index, closed after) in [0, until), by time."""
+    changes = []
+    for k, sw in enumerate(circuit.switches):
+        for time, closed in sw.scheduled_changes(-np.finfo(float).tiny, until):
+            changes.append((max(float(time), 0.0), k, bool(closed)))
+    return sorted(changes, key=lambda c: (c[0], c[1]))
+
+
+def _configurations_to_check(circuit: Circuit, until: float, start: tuple[bool, ...],
+                             schedule) -> list[tuple[bool, ...]]:
+    """Every configuration the run may reach: the topology module's enumeration when it
+    offers one, else the schedule followed from ``start`` with each threshold switch
+    in either state."""
+    try:
+        from . import topology
+        reach = getattr(topology, "reachable_configurations", None)
+    except ImportError:
+        reach = None
+    if reach is not None:
+        return [tuple(c.closed) for c in reach(circuit, until)]
+    seen = {start: None}
+    state = list(start)
+    for _, k, closed in schedule:
+        state[k] = closed
+        seen.setdefault(tuple(state), None)
+    thresholds = [k for k, s in enumerate(circuit.switches) if isinstance(s.control, ThresholdRule)]
+    for k in thresholds:
+        for conf in list(seen):
+            flipped = list(conf)
+            flipped[k] = not flipped[k]
+            seen.setdefault(tuple(flipped), None)
+    return list(seen)
+
+
+def _verify(circuit: Circuit, until: float) -> tuple[str, ...]:
+    """Run the topology checks when that module offers them; return warnings as text."""
+    try:
+        from . import topology
+    except ImportError:
+        return ()
+    verify = getattr(topology, "verify", None)
+    if verify is None:
+        return ()
+    found = verify(circuit, until) or ()
+    return tuple(str(d) for d in found if getattr(d, "severity", "warning") != "error")
+
+
+def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple[bool, ...], np.ndarray]]:
+    """Eigenvalues of A per configuration; configurations that cannot be assembled are
+    left out (they raise, with their own words, if the run ever reaches them), except
+    the first (the start), whose error is raised at once."""
+    out = []
+    for j, conf in enumerate(configurations):
+        try:
+            ss = cache.get(conf)
+        except CircuitodeError:
+            if j == 0:
+                raise
+            continue
+        out.append((conf, np.linalg.eigvals(ss.A) if ss.n_states else np.zeros(0, dtype=complex)))
+    return out
+
+
+# --------------------------------------------------------------------------
+# The driver
+# --------------------------------------------------------------------------
+
+
+def _threshold_reason(sw: Switch) -> str:
+    rule = sw.control
+    verb = "closes" if rule.closes else "opens"
+    return f"{sw.name} {verb} when {rule.probe.label} {'>' if rule.above else '<'} {rule.level:g}"
+
+
+def simulate(circuit: Circuit, *, method: str | None = None, step: float | None = None,
+             until: float | None = None, points: int | None = None, initial: str | None = None,
+             rtol: float = 1e-6, atol: float = 1e-9, probes: Sequence | None = None) -> Waveforms:
+    """Simulate the transient of ``circuit`` from t = 0 to ``until``.
+
+    Parameters
+    ----------
+    circuit : a built Circuit.  Keyword arguments override ``circuit.analysis``.
+    method : "auto", "exact", "rk4", "rk45", "dop853", "radau" or "bdf".
+    step : s, output step (and the fixed step of rk4).  Without it, ``points``
+        evenly spaced outputs (default 2001); rk4 then steps at that spacing.
+    until : s, end of the window.
+    initial : "rest", "given" or "steady" (DC state of the configuration at t = 0⁻).
+    rtol, atol : error tolerances of the adaptive and implicit methods.
+    probes : what to record instead of ``circuit.records`` (requirement and
+        threshold probes are always added).
+
+    Returns
+    -------
+    Waveforms
+
+    Raises
+    ------
+    CircuitodeError (exit code 2) for bad settings, TopologyError for a circuit
+    that cannot be simulated, UnstableStepError (exit code 3) for an rk4 step
+    outside the stability region of any reachable configuration.
+    """
+    s = _settings(circuit, method, step, until, points, initial)
+    warnings = _verify(circuit, s.until)
+    wanted = recorded_probes(circuit, probes)
+    linear = _linear_probes(wanted)
+    row_of = {p.label: j for j, p in enumerate(linear)}
+    for sw in circuit.switches:
+        if isinstance(sw.control, ThresholdRule) and isinstance(sw.control.probe, PowerIn):
+            raise CircuitodeError(
+                f"switch {sw.name} watches {sw.control.probe.label}, which is not linear; "
+                "watch a voltage or a current instead")
+    cache = StateSpaceCache(circuit, linear)
+    bank = SourceBank.of(circuit)
+    schedule = _schedule(circuit, s.until)
+    start = tuple(sw.initially_closed for sw in circuit.switches)
+    grid = _output_grid(s)
+    ss0 = cache.get(start)
+    n = ss0.n_states
+
+    # -- method ----------------------------------------------------------
+    rk4_step = s.step if s.step is not None else s.until / (s.points - 1)
+    if n == 0:
+        name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
+    elif s.method == "auto":
+        confs = _configurations_to_check(circuit, s.until, start, schedule)
+        name, reason = choose_method([e for _, e in _eigenvalue_sets(cache, [start] + confs)],
+                                     True, s.step)
+    else:
+        name, reason = s.method, f"{s.method}: chosen by the user"
+    integrator = get_integrator(name, step=rk4_step if name == "rk4" else None, rtol=rtol,
+                                atol=atol, event_tol=EVENT_TOL_FRACTION * s.until)
+    if integrator.fixed_step and n:
+        confs = _configurations_to_check(circuit, s.until, start, schedule)
+        for conf, eig in _eigenvalue_sets(cache, [start] + confs):
+            check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
+
+    # -- initial state ---------------------------------------------------
+    u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)
+    x = np.asarray(initial_state(circuit, s.initial, ss0, u_before), dtype=float)
+
+    run = _Run(circuit, cache, bank, grid, s.until, integrator)
+    run.go(x, start, schedule)
+    return run.waveforms(wanted, row_of, name, reason, warnings)
+
+
+class _Run:
+    """One run's mutable bookkeeping: recorded rows, events, counters."""
+
+    def __init__(self, circuit, cache, bank, grid, until, integrator):
+        self.circuit, self.cache, self.bank = circuit, cache, bank
+        self.grid, self.until, self.integrator = grid, until, integrator
+        self.chunks: list[tuple[np.ndarray, np.ndarray, np.ndarray, tuple[bool, ...]]] = []
+        self.events: list[Event] = []
+        self.counters: dict[str, int] = {"segments": 0}
+        self.used: dict[tuple[bool, ...], None] = {}
+        self.next_grid = 0  # index of the first grid time not yet recorded
+        self.slack = 1e-12 * until
+
+    # rows ---------------------------------------------------------------
+    def record(self, t, x, u, closed):
+        t = np.atleast_1d(np.asarray(t, dtype=float))
+        if t.size:
+            self.chunks.append((t, np.atleast_2d(x), np.atleast_2d(u), closed))
+
+    def switch(self, t, x, u_before, u_after, closed, k, state, reason):
+        """Record the rows just before and after a switch changes; return the new states."""
+        after = list(closed)
+        after[k] = state
+        after = tuple(after)
+        self.record([t], x[None, :], u_before[None, :], closed)
+        self.record([t], x[None, :], u_after[None, :], after)
+        self.events.append(Event(float(t), self.circuit.switches[k].name, state, reason))
+        self.used.setdefault(after, None)
+        # a grid time at this instant is covered by the two rows
+        while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
+            self.next_grid += 1
+        return after
+
+    # loop ---------------------------------------------------------------
+    def go(self, x, closed, schedule):
+        circuit, until = self.circuit, self.until
+        stops = np.unique(np.concatenate([
+            self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0),
+            np.array([c[0] for c in schedule if c[0] > 0], dtype=float), [until]]))
+        pending = [k for k, sw in enumerate(circuit.switches) if isinstance(sw.control, ThresholdRule)]
+        queue = list(schedule)
+        t = 0.0
+        while True:
+            # scheduled changes due now
+            while queue and queue[0][0] <= t + self.slack:
+                _, k, state = queue.pop(0)
+                if closed[k] != state:
+                    u_b, u_a = self._inputs_around(t)
+                    closed = self.switch(t, x, u_b, u_a, closed, k, state, "scheduled")
+            if t >= until - self.slack:
+                break
+            t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
+            ss = self.cache.get(closed)
+            self.used.setdefault(closed, None)
+            segment = LinearSegment(ss.A, ss.B, self.bank, t, t_next, x)
+            watch = [(k, self._event(ss, circuit.switches[k])) for k in pending]
+            # a threshold already met at the start acts at once
+            u_start = segment.input_values(np.array([t]))
+            fired = [k for k, ev in watch if self._strictly_met(ev, x, u_start)]
+            if fired:
+                k = fired[0]
+                pending.remove(k)
+                closed = self.switch(t, x, u_start[0], u_start[0], closed, k,
+                                     circuit.switches[k].control.closes,
+                                     _threshold_reason(circuit.switches[k]))
+                continue
+            last = t_next >= until - self.slack
+            upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
+                                   side="right" if last else "left")
+            t_out = self.grid[self.next_grid:upto]
+            result = self.integrator.solve(segment, t_out, [ev for _, ev in watch])
+            self.counters["segments"] += 1
+            for key, value in result.counters.items():
+                self.counters[key] = self.counters.get(key, 0) + int(value)
+            self.record(result.t, result.x, segment.input_values(result.t), closed)
+            self.next_grid += result.t.size
+            x = np.asarray(result.x_end, dtype=float)
+            if result.event_time is None:
+                t = t_next
+                continue
+            k = pending.pop(result.event_index)
+            te = float(result.event_time)
+            u_end = segment.input_values(np.array([te]))[0]
+            closed = self.switch(te, x, u_end, u_end, closed, k, circuit.switches[k].control.closes,
+                                 _threshold_reason(circuit.switches[k]))
+            t = te
+
+    def _inputs_around(self, t):
+        if not self.bank.m:
+            return np.zeros(0), np.zeros(0)
+        eps = max(1e-12 * self.until, 4 * np.spacing(max(t, self.until)))
+        u = self.bank.values(np.array([max(t - eps, -np.finfo(float).tiny), t + eps]))
+        return u[0], u[1]
+
+    @staticmethod
+    def _event(ss, sw: Switch) -> LinearEvent:
+        rule = sw.control
+        row = ss.output_labels.index(rule.probe.label)
+        return LinearEvent(ss.C[row], ss.D[row], rule.level, rising=rule.above)
+
+    @staticmethod
+    def _strictly_met(event: LinearEvent, x, u) -> bool:
+        g = float(event.value(x[None, :], u)[0])
+        return g > 0 if event.rising else g < 0
+
+    # output -------------------------------------------------------------
+    def waveforms(self, wanted, row_of, name, reason, warnings) -> Waveforms:
+        circuit = self.circuit
+        n = len(circuit.state_names)
+        if self.chunks:
+            t = np.concatenate([c[0] for c in self.chunks])
+            states = np.concatenate([c[1] for c in self.chunks]).reshape(t.size, n)
+        else:
+            t, states = np.zeros(0), np.zeros((0, n))
+        outputs = np.empty((t.size, len(row_of)))
+        start = 0
+        for tc, xc, uc, closed in self.chunks:
+            ss = self.cache.get(closed)
+            y = xc.reshape(tc.size, n) @ ss.C.T
+            if ss.n_inputs:
+                y = y + uc.reshape(tc.size, -1) @ ss.D.T
+            outputs[start:start + tc.size] = y
+            start += tc.size
+        signals, units, probes = {}, {}, {}
+        for p in wanted:
+            if isinstance(p, PowerIn):
+                v = outputs[:, row_of[VoltageAcross(p.element).label]]
+                i = outputs[:, row_of[CurrentThrough(p.element).label]]
+                signals[p.label] = v * i
+            else:
+                signals[p.label] = outputs[:, row_of[p.label]].copy()
+            units[p.label] = p.unit
+            probes[p.label] = p
+        return Waveforms(
+            t=t, signals=signals, units=units, probes=probes, states=states,
+            state_names=tuple(circuit.state_names), state_units=tuple(circuit.state_units),
+            events=tuple(self.events), method=name, method_reason=reason,
+            counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings)
