@@ -176,6 +176,22 @@ def _horizon(circuit: Circuit, until: float | None, switches: Sequence[Switch]) 
     return horizon
 
 
+#: Switching instants closer than this (relative) count as one instant: 1 ms + 9 × 1 ms
+#: computed in floating point must meet a change written at 10 ms.
+SIMULTANEOUS = 1e-12
+
+
+def _simultaneous(events: list[tuple[float, int, bool]]) -> list[list[tuple[float, int, bool]]]:
+    """Sorted events grouped into instants, joining times equal to a relative ``SIMULTANEOUS``."""
+    groups: list[list[tuple[float, int, bool]]] = []
+    for e in events:
+        if groups and math.isclose(e[0], groups[-1][0][0], rel_tol=SIMULTANEOUS, abs_tol=0.0):
+            groups[-1].append(e)
+        else:
+            groups.append([e])
+    return groups
+
+
 def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuration], list[str]]:
     """Configurations in order of first occurrence, plus notes on any cap applied."""
     switches = circuit.switches
@@ -190,7 +206,8 @@ def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuratio
         if not _is_free(s)
         for t, closed in s.scheduled_changes(-math.ulp(0.0), horizon)
     )
-    for t, group in itertools.groupby(events, key=lambda e: e[0]):
+    for group in _simultaneous(events):
+        t = group[0][0]
         words = []
         for _, i, closed in group:
             if state[i] != closed:

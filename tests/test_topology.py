@@ -571,3 +571,42 @@ def test_docstring_examples_run():
 
     result = doctest.testmod(topology)
     assert result.attempted >= 3 and result.failed == 0
+
+
+def _state_at(control, t):
+    """A switch's state at time t straight from the schedule definitions in circuit.py."""
+    if isinstance(control, TimedSchedule):
+        closed = control.initially_closed
+        for when, after in control.changes:
+            if when <= t:
+                closed = after
+        return closed
+    return t >= control.start and ((t - control.start) % control.period) < control.duty * control.period
+
+
+schedules = st.one_of(
+    st.builds(
+        lambda first, times: TimedSchedule(first, tuple((1e-3 * t, k % 2 == (0 if first else 1)) for k, t in enumerate(times))),
+        st.booleans(),
+        st.lists(st.integers(1, 19), unique=True, max_size=4).map(sorted),
+    ),
+    st.builds(lambda period, duty, start: PeriodicSchedule(1e-3 * period, duty, 1e-3 * start),
+              st.integers(1, 6), st.sampled_from([0.25, 0.5, 0.75]), st.integers(0, 8)),
+)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.lists(schedules, min_size=1, max_size=3))
+def test_configurations_match_the_schedules_sampled_in_time(controls):
+    # Definition check: sampling every switch's state through the run must meet only listed
+    # configurations, never before their first time, and each listed one must hold just after it.
+    until = 20e-3
+    switches = [Switch(f"K{k}", "in", "gnd", ctl, on_resistance=1.0) for k, ctl in enumerate(controls)]
+    c = circuit(SOURCE, *switches, until=until)
+    listed = {x.closed: x.first_time for x in reachable_configurations(c)}
+    samples = [(2 * j + 1) * 0.0625e-3 for j in range(160)]  # never on a switching instant (multiples of 0.25 ms)
+    for t in samples:
+        state = tuple(_state_at(ctl, t) for ctl in controls)
+        assert state in listed and listed[state] <= t
+    for closed, first in listed.items():
+        assert tuple(_state_at(ctl, first + 1e-9) for ctl in controls) == closed
