@@ -1,0 +1,341 @@
+"""A whole tolerance batch: sample, run chunks (anywhere), store, reduce, report.
+
+:func:`run_batch` is the public entry; :func:`format_batch_summary` the text the
+command line prints.  Each chunk is an independent task (:func:`run_chunk`,
+picklable) returning figures per sample; a chunk whose run raises records the
+message for each of its samples instead of stopping the batch.
+"""
+from __future__ import annotations
+
+import json
+import os
+import sys
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Sequence
+
+import numpy as np
+
+from ..circuit import Circuit, PowerIn
+from ..errors import CircuitodeError
+from ..limits import check_requirements_batch
+from ..measure import figure_unit
+from .engine import BATCH_METHODS, simulate_chunk
+from .executors import make_executor
+from .figures import batch_figure
+from .sampling import SampleTable, draw_samples, spreads_with_overrides
+from .statistics import FigureSummary, YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
+from .store import ChunkStore, fingerprint_text
+
+__all__ = ["BatchResult", "run_batch", "run_chunk", "format_batch_summary", "batch_figure_keys"]
+
+_BYTES_PER_CHUNK = 128e6  # waveform memory a chunk may hold
+
+
+@dataclass
+class BatchResult:
+    """Everything a batch produced.
+
+    samples : the parameter table.  figure_keys : [(figure, probe label)], f of them.
+    figure_units : f units.  figures : (N, f).  ok : (N,) bool.  messages : (N,) str
+    ("" where the run succeeded).  summaries : key → FigureSummary.  yield_estimate :
+    against the netlist's requirements.  sensitivity : key → [Driver] strongest first.
+    files : name → path written.  min_yield : the threshold asked for, or None.
+    """
+
+    samples: SampleTable
+    figure_keys: list
+    figure_units: list
+    figures: np.ndarray
+    ok: np.ndarray
+    messages: np.ndarray
+    summaries: dict
+    yield_estimate: YieldEstimate
+    sensitivity: dict
+    requirements: tuple = ()
+    files: dict = field(default_factory=dict)
+    min_yield: float | None = None
+    chunks_resumed: int = 0
+    executor: str = ""
+
+    @property
+    def exit_code(self) -> int:
+        """0, or 1 when a minimum yield was given and the yield is below it."""
+        if self.min_yield is not None and not self.yield_estimate.fraction >= self.min_yield:
+            return 1
+        return 0
+
+
+def batch_figure_keys(circuit: Circuit) -> tuple[list, list]:
+    """(probes to record, [(figure, probe label)]): the standard figures of each recorded
+    probe, then each requirement's figure."""
+    probes, keys = [], []
+
+    def add(p, figs):
+        if p.label not in [q.label for q in probes]:
+            probes.append(p)
+        for f in figs:
+            if (f, p.label) not in keys:
+                keys.append((f, p.label))
+
+    for p in circuit.records:
+        if isinstance(p, PowerIn):
+            add(p, ("peak", "energy"))
+        elif p.unit == "A":
+            add(p, ("peak", "time_of_peak", "minimum", "final", "i2t"))
+        else:
+            add(p, ("peak", "time_of_peak", "minimum", "final", "overshoot", "settling_time"))
+    for r in circuit.requirements:
+        add(r.probe, (r.figure,))
+    return probes, keys
+
+
+def _element_values(circuit: Circuit, names: Sequence[str], block: np.ndarray) -> dict:
+    env: dict[str, Any] = {k: float(v) for k, v in circuit.parameters.items()}
+    env.update({n: block[:, j] for j, n in enumerate(names)})
+    size = block.shape[0]
+    out = {}
+    for (element, field_), recipe in circuit.recipes.items():
+        if not set(getattr(recipe, "names", ())) & set(names):
+            continue
+        out[(element, field_)] = np.broadcast_to(np.asarray(recipe.evaluate(env), dtype=float), (size,)).copy()
+    return out
+
+
+def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
+    for (element, field_), recipe in circuit.recipes.items():
+        if "." in field_ and set(getattr(recipe, "names", ())) & set(names):
+            raise CircuitodeError(
+                f"the tolerance on {field_.split('.', 1)[1]} of source {element} is not supported in "
+                "batches yet; only resistances, capacitances, inductances, switch resistances and "
+                "couplings may vary — remove that tolerance or fix the source value"
+            )
+
+
+def run_chunk(task: dict) -> dict:
+    """Run one chunk (picklable task) and reduce it to figures; never raises for a sample."""
+    circuit = task["circuit"]
+    names, block = task["names"], task["values"]
+    start = task["start"]
+    size = block.shape[0]
+    keys = task["keys"]
+    figures = np.full((size, len(keys)), np.nan)
+    messages = np.full(size, "", dtype=object)
+    ok = np.zeros(size, dtype=bool)
+    try:
+        values = _element_values(circuit, names, block)
+        if not values:
+            raise CircuitodeError("no element value depends on the sampled parameters")
+        waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
+        labels = [p.label for p in task["probes"]]
+        for j, (fig, label) in enumerate(keys):
+            with np.errstate(all="ignore"):
+                figures[:, j] = batch_figure(fig, waves.t, waves.y[:, labels.index(label)])
+        ok = waves.ok.copy()
+        for i, msg in waves.problems.items():
+            messages[i] = msg
+        figures[~ok] = np.nan
+    except CircuitodeError as exc:
+        messages[:] = str(exc).splitlines()[0]
+    except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
+        messages[:] = f"numerical failure: {exc}"
+    return {"index": np.arange(start, start + size), "figures": figures, "ok": ok,
+            "message": messages.astype(str)}
+
+
+class _Progress:
+    """A one-line progress bar on stderr, only when stderr is a terminal."""
+
+    def __init__(self, total: int, enabled: bool):
+        self.total, self.done = total, 0
+        self.enabled = enabled and hasattr(sys.stderr, "isatty") and sys.stderr.isatty()
+
+    def advance(self, count: int) -> None:
+        self.done += count
+        if self.enabled:
+            width = 40
+            filled = int(width * self.done / max(self.total, 1))
+            sys.stderr.write(f"\r  samples [{'#' * filled}{'.' * (width - filled)}] {self.done}/{self.total}")
+            sys.stderr.flush()
+
+    def close(self) -> None:
+        if self.enabled:
+            sys.stderr.write("\n")
+
+
+def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int = 0,
+              workers: int | None = None, scheduler: Any = None, out_dir, chunk_size: int | None = None,
+              tol_overrides=None, min_yield: float | None = None, progress: bool = True,
+              method: str = "exact", plots: bool = True) -> BatchResult:
+    """Run a tolerance batch and write its results.
+
+    Parameters
+    ----------
+    circuit_or_path : a Circuit or the path of a netlist file.
+    samples : N (corners use 2^k whatever N).  sampler : "mc", "lhs", "sobol", "corners".
+    seed : integer seed.  workers : local processes (None/1 = in process).
+    scheduler : Dask scheduler address (or a distributed.Client).
+    out_dir : output folder; finished chunks there are reused (resume).
+    chunk_size : samples per chunk (default from a memory budget).
+    tol_overrides : ["NAME=5%", …].  min_yield : fraction in [0, 1] for the exit code.
+    progress : show a progress bar on stderr when it is a terminal.
+    method : "exact" or "rk4".  plots : write histogram and scatter PNGs.
+    """
+    if isinstance(circuit_or_path, Circuit):
+        circuit = circuit_or_path
+        identity = repr((circuit.elements, circuit.couplings, circuit.analysis, circuit.records,
+                         circuit.requirements, sorted(circuit.parameters.items()),
+                         sorted((k, repr(v)) for k, v in circuit.spreads.items())))
+    else:
+        from ..netlist import load
+
+        path = Path(circuit_or_path)
+        try:
+            text = path.read_bytes()
+        except OSError as exc:
+            raise CircuitodeError(f"cannot read netlist {path}: {exc.strerror}") from None
+        circuit = load(path)
+        identity = text
+    if method not in BATCH_METHODS:
+        raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
+    if min_yield is not None and not 0.0 <= float(min_yield) <= 1.0:
+        raise CircuitodeError(f"--min-yield must be a fraction between 0 and 1, got {min_yield!r}")
+    overrides = list(tol_overrides or [])
+    spreads = spreads_with_overrides(circuit, overrides)
+    table = draw_samples(spreads, int(samples), sampler, int(seed))
+    _check_supported(circuit, table.names)
+    probes, keys = batch_figure_keys(circuit)
+    if not keys:
+        raise CircuitodeError("nothing to measure: add a 'record' or 'require' statement to the netlist")
+    if chunk_size is None:
+        from .engine import output_grid
+
+        per_sample = output_grid(circuit).size * (len(probes) + 2) * 8 * 3
+        chunk_size = int(max(16, min(4096, _BYTES_PER_CHUNK // max(per_sample, 1))))
+    chunk_size = int(chunk_size)
+    if chunk_size < 1:
+        raise CircuitodeError(f"chunk size must be at least 1, got {chunk_size}")
+    N = table.count
+    n_chunks = -(-N // chunk_size)
+    store = ChunkStore(out_dir, {
+        "netlist_sha256": fingerprint_text(identity), "seed": int(seed), "sampler": sampler,
+        "samples": N, "chunk_size": chunk_size, "overrides": overrides, "method": method,
+    })
+    done = store.finished()
+    todo = [c for c in range(n_chunks) if c not in done]
+    bar = _Progress(N, progress)
+    bar.advance(sum(min(chunk_size, N - c * chunk_size) for c in done if c < n_chunks))
+    executor = make_executor(workers, scheduler)
+    values = table.values
+    tasks = [(c, {"circuit": circuit, "names": table.names, "start": c * chunk_size,
+                  "values": values[c * chunk_size:(c + 1) * chunk_size], "keys": keys,
+                  "probes": probes, "method": method}) for c in todo]
+    try:
+        for c, result in executor.map_unordered(run_chunk, tasks):
+            store.write(c, result)
+            bar.advance(result["index"].size)
+    finally:
+        executor.close()
+        bar.close()
+    return _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, len(done), executor.name, plots)
+
+
+def _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, resumed, executor_name, plots):
+    parts = [store.read(c) for c in range(n_chunks)]
+    figures = np.concatenate([p["figures"] for p in parts])
+    ok = np.concatenate([p["ok"] for p in parts])
+    messages = np.concatenate([p["message"] for p in parts])
+    unit_of = {p.label: p.unit for p in probes}
+    units = [figure_unit(f, unit_of[label]) for f, label in keys]
+    fig_map = {k: figures[:, j] for j, k in enumerate(keys)}
+    summaries = {k: summarise_figure(f"{k[0]} of {k[1]}", figures[:, j]) for j, k in enumerate(keys)}
+    reqs = tuple(circuit.requirements)
+    passes = check_requirements_batch(reqs, fig_map) if reqs else np.zeros((ok.size, 0), dtype=bool)
+    limit_passes = {r.label: passes[:, i] for i, r in enumerate(reqs)}
+    yld = estimate_yield(limit_passes, ok)
+    params = table.values
+    sens = {k: sensitivity_ranking(table.names, params, figures[:, j]) for j, k in enumerate(keys)}
+    result = BatchResult(table, list(keys), units, figures, ok, messages, summaries, yld, sens, reqs,
+                         {}, min_yield, resumed, executor_name)
+    result.files = _write_outputs(result, Path(store.folder), plots)
+    return result
+
+
+def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
+    import csv
+
+    files = {}
+    table = result.samples
+    path = folder / "samples.csv"
+    header = ["sample", "ok", "message"] + [f"{n}" for n in table.names] + [
+        f"{f} of {label} [{u}]" for (f, label), u in zip(result.figure_keys, result.figure_units)]
+    tmp = path.with_name(".samples.csv.tmp")
+    with open(tmp, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(header)
+        values = table.values
+        rows = np.concatenate([values, result.figures], axis=1)
+        for i in range(table.count):  # writing text rows; the numerics are done
+            w.writerow([i, int(result.ok[i]), result.messages[i]] + [repr(float(v)) for v in rows[i]])
+    os.replace(tmp, path)
+    files["samples"] = path
+    summary = {
+        "samples": table.count, "sampler": table.sampler, "seed": table.seed, "note": table.note,
+        "failed": int((~result.ok).sum()),
+        "yield": {"passed": result.yield_estimate.passed, "total": result.yield_estimate.total,
+                  "fraction": result.yield_estimate.fraction, "wilson95": [result.yield_estimate.low,
+                                                                          result.yield_estimate.high],
+                  "per_limit": result.yield_estimate.per_limit},
+        "figures": {f"{k[0]} of {k[1]}": {
+            "unit": u, "mean": s.mean, "std": s.std, "percentiles": dict(zip(["p1", "p5", "p50", "p95", "p99"], s.percentiles)),
+            "min": s.minimum, "min_sample": s.argmin, "max": s.maximum, "max_sample": s.argmax,
+            "drivers": [[d.parameter, d.rho] for d in result.sensitivity[k]]}
+            for k, u, s in zip(result.figure_keys, result.figure_units, result.summaries.values())},
+    }
+    path = folder / "batch_summary.json"
+    path.write_text(json.dumps(summary, indent=2, default=float).replace("NaN", "null"), encoding="utf-8")
+    files["summary"] = path
+    if plots:
+        from .plots import write_plots
+
+        files.update(write_plots(result, folder))
+    return files
+
+
+def _fmt(v: float) -> str:
+    return "-" if not np.isfinite(v) else f"{v:.3g}"
+
+
+def format_batch_summary(result: BatchResult) -> str:
+    """A short plain-text summary (≤ 80 columns): statistics, yield, strongest drivers."""
+    t = result.samples
+    lines = [f"Tolerance batch: {t.count} samples ({t.sampler}, seed {t.seed}), "
+             f"{int((~result.ok).sum())} failed"]
+    if t.note:
+        lines.append(f"  note: {t.note}")
+    if result.chunks_resumed:
+        lines.append(f"  resumed: {result.chunks_resumed} chunk(s) were already on disk")
+    lines.append(f"{'figure':<29}" + "".join(f"{h:>10}" for h in ("mean", "sigma", "P1", "P99", "max")))
+    for (key, s), unit in zip(result.summaries.items(), result.figure_units):
+        name = f"{key[0]} {key[1].replace('current through ', 'I ').replace('voltage at ', 'V ')}"
+        name = f"{name} [{unit}]" if unit else name
+        cells = (s.mean, s.std, s.percentiles[0], s.percentiles[-1], s.maximum)
+        lines.append(f"{name[:28]:<29}" + "".join(f"{_fmt(v):>10}" for v in cells))
+    y = result.yield_estimate
+    if result.requirements:
+        lines.append(f"Yield: {y.passed}/{y.total} = {100 * y.fraction:.2f} % "
+                     f"(95 % Wilson interval {100 * y.low:.2f}–{100 * y.high:.2f} %)")
+        for label, count in y.per_limit.items():
+            lines.append(f"  {label[:60]}: {count} pass")
+    else:
+        lines.append("Yield: no 'require' limits in the netlist")
+    lines.append("Strongest driver (Spearman rank correlation):")
+    for key, drivers in result.sensitivity.items():
+        if drivers and np.isfinite(drivers[0].rho):
+            lines.append(f"  {key[0]} of {key[1]}"[:56].ljust(57)
+                         + f"{drivers[0].parameter[:14]:<15}{drivers[0].rho:+.2f}")
+    if result.min_yield is not None:
+        verdict = "meets" if result.exit_code == 0 else "is BELOW"
+        lines.append(f"Yield {verdict} the minimum of {100 * result.min_yield:.1f} %")
+    lines.append("Simulation results do not replace measurement and qualified review.")
+    return "\n".join(line[:80] for line in lines)
