@@ -216,7 +216,7 @@ def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuratio
         key = tuple(state)
         if words and key not in seen:
             seen.add(key)
-            scheduled.append(Configuration(key, float(t), "; ".join(words)))
+            scheduled.append(Configuration(key, float(t), _list(words)))
 
     free = [i for i, s in enumerate(switches) if _is_free(s)]
     if 2 ** len(free) <= MAX_CONFIGURATIONS:
@@ -239,9 +239,10 @@ def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuratio
                 continue
             seen.add(key)
             if flip:
-                words = "; ".join(_threshold_words(switches[i], closed[i]) for i in flip)
+                words = [_threshold_words(switches[i], closed[i]) for i in flip]
                 if base.cause != "initial state":
-                    words = f"{base.cause}; {words}"
+                    words.insert(0, base.cause)
+                words = _list(words)
                 out.append(Configuration(key, math.nan, words))
             else:
                 out.append(base)
@@ -393,6 +394,8 @@ def _where(circuit: Circuit, indices: Sequence[int]):
 
 def _list(words: Sequence[str]) -> str:
     words = list(words)
+    if not words:
+        return "nothing"
     return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
 
 
@@ -742,14 +745,14 @@ def check_capacitor_loops(circuit: Circuit, configurations: Sequence[Configurati
             if switches:
                 with_.append(f"closed switch{'es' if len(switches) > 1 else ''} {_list(switches)}")
             extra = f" (with {', '.join(with_)})" if with_ else ""
-            msg = (f"capacitor{'s' if len(caps) > 1 else ''} {_list(caps)}{extra} form a loop with no resistance"
+            msg = (f"capacitor{'s' if len(caps) > 1 else ''} {_list(caps)}{extra} {'form' if len(caps) > 1 else 'forms'} a loop with no resistance"
                    f"{_loop_phrase(circuit, loop, cfg)}; "
                    f"the capacitor voltages are tied together and any difference is equalised in zero time")
             fix = f"add a series resistance (e.g. the ESR of {caps[0]})"
             if sources:
                 fix += f" or the internal resistance of {sources[0]}"
             if switches:
-                fix += f", or give switch {_list(switches)} an on-resistance"
+                fix += f", or give switch{'es' if len(switches) > 1 else ''} {_list(switches)} an on-resistance"
         out.append(Diagnostic("capacitor-loop", msg, _names(circuit, loop), fix, where=_where(circuit, loop)))
     return out
 
@@ -799,7 +802,8 @@ def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configurat
                        f"{_list(through)} while {names} {'is' if len(opened) == 1 else 'are'} open, {cfg.when()}; "
                        + ("interrupting an inductor current would need an infinite voltage" if inductors else
                           "a current source cannot drive into an open circuit"))
-                fix = f"give switch {names} an off-resistance or add a parallel resistor / snubber across it"
+                fix = (f"give switch{'es' if len(opened) > 1 else ''} {names} an off-resistance or add a parallel "
+                       f"resistor / snubber across {'them' if len(opened) > 1 else 'it'}")
             else:
                 msg = (f"{label} {'is' if len(nodes) == 1 else 'are'} joined to the rest only through "
                        f"{_list(through)}; their currents are tied by Kirchhoff's current law")
