@@ -523,6 +523,18 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
     Returns
     -------
     ndarray of shape ``y.shape[:-1]`` in ``figure_unit(figure, signal_unit)``.
+
+    Examples
+    --------
+    An inrush current of 2 A decaying with τ = 1 ms; ∫ i² dt = 2τ (1 − e⁻¹⁰) ≈ 2 mA²s:
+
+    >>> import numpy as np
+    >>> t = np.linspace(0.0, 5e-3, 5001)
+    >>> i = 2.0 * np.exp(-t / 1e-3)
+    >>> float(measure("peak", t, i, signal_unit="A"))
+    2.0
+    >>> round(float(measure("i2t", t, i, signal_unit="A")), 6), figure_unit("i2t", "A")
+    (0.002, 'A²s')
     """
     function = _FUNCTIONS.get(figure) if isinstance(figure, str) else None
     if function is None:

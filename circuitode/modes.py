@@ -242,6 +242,18 @@ def analyse_modes(
     Returns
     -------
     tuple of :class:`Mode`; empty for a circuit without states.
+
+    Examples
+    --------
+    A series RLC (R = 4.7 Ω, L = 2 mH, C = 10 µF): ζ = (R/2)√(C/L) ≈ 0.166,
+    fn = 1/(2π√(LC)) ≈ 1125 Hz.
+
+    >>> A = [[0.0, 1 / 10e-6], [-1 / 2e-3, -4.7 / 2e-3]]
+    >>> (mode,) = analyse_modes(A, ("voltage across C1", "current through L1"))
+    >>> mode.kind, round(mode.damping_ratio, 4), round(mode.natural_frequency_hz, 1)
+    ('underdamped', 0.1662, 1125.4)
+    >>> sorted(mode.main_states())
+    ['current through L1', 'voltage across C1']
     """
     A = _checked_matrix(A, state_names)
     n = A.shape[0]

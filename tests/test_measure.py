@@ -5,6 +5,7 @@ code under test.
 """
 from __future__ import annotations
 
+import doctest
 import importlib
 from types import SimpleNamespace
 
@@ -353,3 +354,9 @@ def test_summarise_marks_step_figures_of_a_pulse_as_nan():
     # ringing figures still apply to the pulse: ζ = σ/√(σ²+ωd²) (Ogata ch. 5)
     wd = 2 * np.pi * 100
     assert row["damping_ratio"][0] == pytest.approx(200 / np.hypot(200, wd), rel=1e-3)
+
+
+def test_docstring_examples_run():
+    # The examples in the docstrings are checked numbers too (closed forms stated beside them).
+    result = doctest.testmod(m)
+    assert result.attempted >= 3 and result.failed == 0

@@ -5,6 +5,7 @@ the circuit's order (capacitor voltages, then inductor currents).
 """
 from __future__ import annotations
 
+import doctest
 import importlib
 
 import numpy as np
@@ -30,6 +31,7 @@ SERIES_NAMES = ("voltage across C1", "current through L1")
 
 # The package exports a function named `measure` too; load the module itself.
 measure = importlib.import_module("circuitode.measure")
+modes_module = importlib.import_module("circuitode.modes")
 
 
 def series_rlc(R: float, L: float, C: float) -> np.ndarray:
@@ -310,3 +312,9 @@ def test_simulated_waveform_zeta_matches_modal_zeta_in_each_configuration():
         after.damped_frequency_hz, rel=0.01
     )
     assert before.damping_ratio == pytest.approx((R_int + R_pre) / 2 * np.sqrt(C / L), rel=1e-9)
+
+
+def test_docstring_examples_run():
+    # The examples in the docstrings are checked numbers too (closed forms stated beside them).
+    result = doctest.testmod(modes_module)
+    assert result.attempted >= 3 and result.failed == 0
