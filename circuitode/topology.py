@@ -237,6 +237,9 @@ def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuratio
             key = tuple(closed)
             if key in seen:
                 continue
+            if len(out) == MAX_CONFIGURATIONS:
+                notes.append(f"only the first {MAX_CONFIGURATIONS} switch configurations were checked")
+                return out, notes
             seen.add(key)
             if flip:
                 words = [_threshold_words(switches[i], closed[i]) for i in flip]
@@ -246,9 +249,6 @@ def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuratio
                 out.append(Configuration(key, math.nan, words))
             else:
                 out.append(base)
-            if len(out) >= MAX_CONFIGURATIONS:
-                notes.append(f"only the first {MAX_CONFIGURATIONS} switch configurations were checked")
-                return out, notes
     return out, notes
 
 

@@ -525,6 +525,12 @@ def test_periodic_switch_and_the_configuration_cap():
     assert any(d.code == "configurations-capped" for d in diagnose(capped))
     full = circuit(SOURCE, Resistor("R", "in", "gnd", 1.0), *many[:12])
     assert len(reachable_configurations(full)) == 2 ** 12 == MAX_CONFIGURATIONS
+    assert not any(d.code == "configurations-capped" for d in diagnose(full))
+    # 12 threshold switches and one timed switch: 2^13 reachable, only the first 4096 kept
+    timed = Switch("K", "in", "gnd", closes_at(1e-3), on_resistance=1.0, off_resistance=1.0)
+    over = circuit(SOURCE, Resistor("R", "in", "gnd", 1.0), *many[:12], timed)
+    assert len(reachable_configurations(over)) == MAX_CONFIGURATIONS
+    assert any(d.code == "configurations-capped" for d in diagnose(over))
 
 
 # ---------------------------------------------------------------- DC steady state
