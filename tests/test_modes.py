@@ -11,6 +11,8 @@ import importlib
 import numpy as np
 import pytest
 import scipy.signal
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from circuitode.errors import CircuitodeError
 from circuitode.modes import (
@@ -318,3 +320,28 @@ def test_docstring_examples_run():
     # The examples in the docstrings are checked numbers too (closed forms stated beside them).
     result = doctest.testmod(modes_module)
     assert result.attempted >= 3 and result.failed == 0
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    st.integers(1, 6).flatmap(
+        lambda n: st.tuples(
+            st.just(n),
+            st.lists(st.floats(-1e4, 1e4, allow_nan=False), min_size=n * n, max_size=n * n),
+        )
+    )
+)
+def test_modes_account_for_every_eigenvalue_once(case):
+    # Linear algebra (any text): the eigenvalues of A, counted with multiplicity, sum to
+    # trace A.  Whatever the grouping into pairs and sections, the modes must cover each
+    # eigenvalue exactly once, and each mode's participation shares must sum to 1.
+    n, entries = case
+    A = np.array(entries).reshape(n, n)
+    names = tuple(f"voltage across C{k}" if k % 2 else f"current through L{k}" for k in range(n))
+    modes = analyse_modes(A, names)
+    covered = [lam for mode in modes for lam in mode.eigenvalues]
+    assert len(covered) == n
+    scale = max(1.0, float(np.abs(A).sum()))
+    assert abs(sum(covered) - np.trace(A)) <= 1e-6 * scale
+    for mode in modes:
+        assert sum(w for _, w in mode.participation) == pytest.approx(1.0)
