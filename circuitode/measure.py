@@ -21,6 +21,7 @@ Control Engineering, ch. 5; Nise, Control Systems Engineering, ch. 4).
 
 Integrals (rms, mean, i2t, energy) use the trapezoidal rule on the samples;
 a repeated instant is an interval of zero length and contributes nothing.
+A signal containing NaN (a failed sample of a batch) gets NaN for every figure.
 """
 from __future__ import annotations
 
@@ -227,7 +228,7 @@ def peak(t, y) -> np.ndarray:
 def time_of_peak(t, y) -> np.ndarray:
     """Instant (s, on the run's own clock) of the largest sample; the first one if repeated."""
     t, y = _checked(t, y)
-    return _at(t, np.argmax(y, axis=-1))
+    return np.where(np.isnan(np.max(y, axis=-1)), np.nan, _at(t, np.argmax(y, axis=-1)))
 
 
 def minimum(t, y) -> np.ndarray:
@@ -332,7 +333,8 @@ def settling_time(
     entered = t0 + np.clip(frac, 0.0, 1.0) * (t1 - t0)
     result = np.where(any_outside, entered - origin, np.maximum(first - origin, 0.0))
     result = np.where(any_outside & (last == nt - 1), np.nan, result)
-    return np.where(amplitude != 0, result, np.nan)
+    valid = (amplitude != 0) & np.all(np.isfinite(y), axis=-1)
+    return np.where(valid, result, np.nan)
 
 
 # --------------------------------------------------------------------------

@@ -271,6 +271,17 @@ def test_per_signal_clocks_equal_single_calls():
     np.testing.assert_allclose(m.overshoot(t, y, final=1.2), expected, rtol=1e-3)
 
 
+def test_failed_sample_gives_nan_for_every_figure():
+    # A batch row that failed upstream arrives as NaN; no figure may turn it into a number.
+    t = np.linspace(0.0, 0.2, 2001)
+    good = second_order_step(0.3, WN, t)
+    y = np.stack([good, np.full_like(t, np.nan)])
+    for name in m.FIGURE_UNITS:
+        values = m.measure(name, t, y, signal_unit="W" if name == "energy" else "V")
+        assert np.isnan(values[1]), name
+        assert np.isfinite(values[0]), name
+
+
 @settings(max_examples=40, deadline=None)
 @given(st.lists(st.floats(-1e3, 1e3), min_size=3, max_size=40))
 def test_rms_bounds_mean_and_peak(values):
