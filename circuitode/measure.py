@@ -309,7 +309,9 @@ def settling_time(
     default; Ogata, ch. 5), interpolated to where it enters the band for good.
 
     0 when it never leaves the band; NaN when it is still outside at the last sample
-    (not settled within the run) or the amplitude is zero.
+    (not settled within the run) or the amplitude is zero.  Textbook settling times
+    count from the instant the step is applied: for a step applied by a switch at
+    t_s, pass ``start=t_s``.
     """
     if not band > 0:
         raise MeasurementError(f"settling band must be a positive fraction, got {band!r}")
@@ -568,7 +570,9 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
     currents (unit "A") and ``energy`` for power signals (unit "W").  Values are
     numpy values (floats for a single run); figures that do not apply are NaN —
     in particular the step figures (overshoot, rise and settling time) of a signal
-    that returns to where it began, such as an inrush current pulse.
+    that returns to where it began, such as an inrush current pulse.  Default options
+    throughout: the time of peak is an instant on the run's clock, and the settling
+    time counts from the start of the run (not from a later switching instant).
     """
     t = waveforms.t
     out: dict[str, dict[str, tuple[Any, str]]] = {}
