@@ -268,7 +268,8 @@ def probe_rows(circuit: Circuit, layout: Layout, probes, conductance: np.ndarray
     ground = circuit.ground
     node = dict(layout.node, **{ground: K})  # ground → the zero row
     g_of = {c[0]: i for i, c in enumerate(layout.conductors)}
-    state_of = {l.name: len(circuit.capacitors) + i for i, l in enumerate(circuit.inductors)}
+    first_inductor = len(circuit.capacitors)
+    state_of = {l.name: first_inductor + i for i, l in enumerate(circuit.inductors)}
     input_of = {s.name: n + i for i, s in enumerate(circuit.sources)}
 
     def node_index(name: str) -> int:

@@ -32,6 +32,8 @@ from typing import Sequence
 import numpy as np
 from scipy.linalg import block_diag
 
+from .errors import CircuitodeError
+
 __all__ = [
     "LinearGenerator",
     "Dc",
@@ -43,7 +45,25 @@ __all__ = [
     "Exponential",
     "Waveform",
     "SourceBank",
+    "WaveformError",
 ]
+
+
+class WaveformError(CircuitodeError, ValueError):
+    """A waveform whose fields make no sense (a period of zero, a negative time constant …).
+
+    Raised when the waveform is created; the message says which field and what to write.
+    """
+
+
+def _require(ok, message: str) -> None:
+    if not np.all(ok):
+        raise WaveformError(message)
+
+
+def _finite(kind: str, **fields) -> None:
+    for name, value in fields.items():
+        _require(np.isfinite(np.asarray(value, dtype=float)), f"{kind} field '{name}' must be a finite number, got {value!r}")
 
 #: F of the two-state (value, slope) generator: value' = slope, slope' = 0.
 _LINE_F = np.array([[0.0, 1.0], [0.0, 0.0]])
@@ -136,6 +156,9 @@ class Dc(_Timed):
 
     value: float
 
+    def __post_init__(self) -> None:
+        _finite("dc", value=self.value)
+
     def value_at(self, t):
         """Value at time(s) ``t`` (s): the constant, in the shape of ``t``.
 
@@ -160,6 +183,9 @@ class Step(_Timed):
     before: float
     after: float
     at: float = 0.0
+
+    def __post_init__(self) -> None:
+        _finite("step", before=self.before, after=self.after, at=self.at)
 
     def _value_slope(self, t: np.ndarray):
         eps = _snap_eps(t, self.at)
@@ -188,6 +214,10 @@ class Ramp(_Timed):
     final: float
     start: float
     duration: float
+
+    def __post_init__(self) -> None:
+        _finite("ramp", initial=self.initial, final=self.final, start=self.start, duration=self.duration)
+        _require(np.asarray(self.duration) >= 0, f"a ramp's duration must not be negative (got {self.duration!r} s)")
 
     def _value_slope(self, t: np.ndarray):
         rise = float(self.final) - float(self.initial)
@@ -230,6 +260,16 @@ class PulseTrain(_Timed):
     width: float
     period: float
     count: int | None = None
+
+    def __post_init__(self) -> None:
+        _finite("pulse", low=self.low, high=self.high, delay=self.delay, rise=self.rise,
+                fall=self.fall, width=self.width, period=self.period)
+        _require(np.asarray(self.period) > 0, f"a pulse period must be positive (got {self.period!r} s)")
+        for name in ("rise", "fall", "width"):
+            value = getattr(self, name)
+            _require(np.asarray(value) >= 0, f"a pulse's {name} time must not be negative (got {value!r} s)")
+        _require(self.count is None or self.count >= 1,
+                 f"a pulse count must be at least 1 (got {self.count!r}); leave it out for endless pulses")
 
     def _corners(self) -> np.ndarray:
         """Offsets (s) of the corners within one period, sorted, each < period."""
@@ -308,6 +348,10 @@ class Sine(_Timed):
     offset: float = 0.0
     delay: float = 0.0
 
+    def __post_init__(self) -> None:
+        _finite("sine", amplitude=self.amplitude, frequency=self.frequency, phase=self.phase,
+                offset=self.offset, delay=self.delay)
+
     @property
     def angular_frequency(self) -> float:
         """ω = 2π f, rad/s."""
@@ -350,6 +394,14 @@ class PiecewiseLinear(_Timed):
     times: tuple[float, ...]
     values: tuple[float, ...]
 
+    def __post_init__(self) -> None:
+        _require(len(self.times) == len(self.values) and len(self.times) >= 1,
+                 f"piecewise-linear needs as many values as times, at least one "
+                 f"(got {len(self.times)} times, {len(self.values)} values)")
+        _finite("piecewise-linear", times=self.times, values=self.values)
+        _require(np.all(np.diff(np.asarray(self.times, dtype=float)) > 0),
+                 "piecewise-linear times must increase strictly from point to point")
+
     def _value_slope(self, t: np.ndarray):
         knots = np.asarray(self.times, dtype=float)
         heights = np.asarray(self.values, dtype=float)
@@ -387,6 +439,12 @@ class Exponential(_Timed):
     final: float
     delay: float
     time_constant: float
+
+    def __post_init__(self) -> None:
+        _finite("exponential", initial=self.initial, final=self.final, delay=self.delay,
+                time_constant=self.time_constant)
+        _require(np.asarray(self.time_constant) > 0,
+                 f"an exponential's time constant must be positive (got {self.time_constant!r} s)")
 
     def value(self, t):
         """Value at time(s) ``t`` (s); same shape as ``t``."""

@@ -189,3 +189,23 @@ def test_empty_bank():
     gen = bank.generators(0.0, 1.0)
     assert gen.F.shape == (0, 0) and gen.H.shape == (0, 0)
     assert bank.breakpoints(0.0, 1.0).size == 0
+
+
+@pytest.mark.parametrize("make, words", [
+    (lambda: PulseTrain(0, 1, 0, 0, 0, 0.5, period=0.0), "period must be positive"),
+    (lambda: PulseTrain(0, 1, 0, -1e-3, 0, 0.5, period=1.0), "rise time must not be negative"),
+    (lambda: PulseTrain(0, 1, 0, 0, 0, 0.5, period=1.0, count=0), "count must be at least 1"),
+    (lambda: Exponential(1, 0, 0, time_constant=0.0), "time constant must be positive"),
+    (lambda: Ramp(0, 1, 0, duration=-1.0), "duration must not be negative"),
+    (lambda: PiecewiseLinear((0.0, 1.0, 1.0), (0, 1, 2)), "increase strictly"),
+    (lambda: PiecewiseLinear((0.0, 1.0), (0,)), "as many values as times"),
+    (lambda: Sine(1.0, float("nan")), "'frequency' must be a finite number"),
+    (lambda: Dc(float("inf")), "'value' must be a finite number"),
+])
+def test_nonsense_fields_raise_our_error(make, words):
+    from circuitode.errors import CircuitodeError
+    from circuitode.sources import WaveformError
+
+    with pytest.raises(WaveformError, match=words) as err:
+        make()
+    assert isinstance(err.value, CircuitodeError)
