@@ -427,7 +427,7 @@ class _Builder:
         figure = FIGURE_WORDS[st.figure]
         probe = self.probe(st.probe, "a requirement")
         base = probe.unit
-        what = f"the limit of a {st.figure}"
+        what = f"the limit of the {st.figure}"
         need = False
         if figure in ("overshoot", "undershoot"):
             unit, need = "%", True
@@ -547,7 +547,11 @@ def build_circuit(statements: list, overrides: Mapping[str, Any] | None = None,
     ------
     NetlistError : located at the offending statement, with what to change.
     """
-    return _Builder(statements, overrides, source_file).run()
+    try:
+        return _Builder(statements, overrides, source_file).run()
+    except RecursionError:
+        raise NetlistError("an expression is nested too deeply to evaluate",
+                           hint="split it into several parameters") from None
 
 
 def loads(text: str, filename: str = "<text>", overrides: Mapping[str, Any] | None = None) -> cm.Circuit:

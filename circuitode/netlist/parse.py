@@ -569,7 +569,7 @@ def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistE
         return NetlistError(f"the statement ends too early; expected {wanted}", where,
                             "complete the statement on this line")
     at_start = not before.strip()
-    if at_start and word:
+    if at_start and word and word[0].isalpha():
         return NetlistError(f"unknown statement '{word}'", where,
                             did_you_mean(word, STATEMENT_WORDS) or "a line starts with a statement word")
     if word and keywords:
@@ -587,12 +587,20 @@ def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistE
     if rest[:1] == '"':
         return NetlistError("a text in double quotes is not closed on this line", where,
                             'end the text with a second "')
-    if token_type is None and rest:
-        shown = rest[0]
-        return NetlistError(f"unexpected character '{shown}'; expected {wanted}", where,
-                            "remove it" if not shown.isalnum() else None)
+    if token_type is None and rest and not rest[0].isalnum():
+        return NetlistError(f"unexpected character '{rest[0]}'", where,
+                            "remove it; see docs/language.md for the characters a statement may use")
     shown = word or rest[:1]
+    if token_type is None and len(wanted.split(", ")) > 4:  # the lexer's list is too broad to help
+        return NetlistError(f"unexpected '{shown}'", where, "check the spelling and the order of the words")
     return NetlistError(f"unexpected '{shown}'; expected {wanted}", where)
+
+
+def _too_deep(file: str, lines: list[str]) -> NetlistError:
+    deepest = max(range(len(lines)), key=lambda i: lines[i].count("("), default=0)
+    text = lines[deepest] if lines else ""
+    return NetlistError("an expression is nested too deeply to read", Where(file, deepest + 1, 1, text),
+                        "split it into several parameters")
 
 
 def parse_text(text: str, file: str = "<text>") -> Netlist:
@@ -607,7 +615,7 @@ def parse_text(text: str, file: str = "<text>") -> Netlist:
     ------
     NetlistError : located at the first mistake, with what was expected.
     """
-    lines = text.splitlines()
+    lines = [line.rstrip("\r") for line in text.split("\n")]  # lark counts lines by "\n" only
     try:
         tree = _parser().parse(text)
     except UnexpectedInput as err:
@@ -620,5 +628,9 @@ def parse_text(text: str, file: str = "<text>") -> Netlist:
     except VisitError as err:
         if isinstance(err.orig_exc, NetlistError):
             raise err.orig_exc from None
+        if isinstance(err.orig_exc, RecursionError):
+            raise _too_deep(file, lines) from None
         raise
+    except RecursionError:
+        raise _too_deep(file, lines) from None
     return Netlist(file, statements, tuple(lines))

@@ -1,0 +1,176 @@
+"""Malformed netlists: each gets our own located, plain-worded NetlistError — never a traceback."""
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from circuitode.circuit import Circuit
+from circuitode.errors import NetlistError
+from circuitode.netlist import loads
+from circuitode.netlist.parse import _parser
+
+BASE = "ground g\nvoltage_source V1 a -- g dc 1 V\nresistor R1 a -- b 1\ncapacitor C1 b -- g 1 uF\n"  # 4 lines
+
+# (netlist text, line, column, a regex the message must contain, a regex the hint must contain or None)
+CASES = [
+    ("resistr R1 a -- g 5", 1, 1, r"unknown statement 'resistr'", r"did you mean 'resistor'"),
+    ("ground g\nresistor R1 a - g 5", 2, 15, r"expected '--' between the two nodes", None),
+    ("ground g\nresistor R1 a -- g 5 kg", 2, 22, r"unknown unit 'kg'", r"prefixes are p n u"),
+    ("ground g\nresistor R1 a -- g", 2, 19, r"ends too early; expected a value", None),
+    ("ground g\ncapacitor C1 a -- g 10 mH", 2, 21, r"a capacitor's value is in farads \(F\); got H", None),
+    ("ground g\nresistor R1 a -- g 10 meg", 2, 23, r"unknown unit 'meg'", r"capital M"),
+    ('circuit "unterminated', 1, 9, r"not closed", None),
+    ("param x = 3 $ 4", 1, 13, r"unexpected character '\$'", None),
+    (BASE + "require peek voltage at b < 3 V", 5, 9, r"unexpected 'peek'", r"did you mean 'peak'"),
+    (BASE + "require peak voltage at b < 3 A", 5, 29, r"in volts \(V\); got A", None),
+    (BASE + "require overshoot voltage at b < 10", 5, 34, r"overshoot needs its unit", r"percent"),
+    (BASE + "record voltage at bb", 5, 19, r"there is no node 'bb'", r"did you mean 'b'"),
+    (BASE + "record current through R2", 5, 24, r"there is no element 'R2'", r"R1"),
+    (BASE + "require i2t voltage at b < 3 A²s", 5, 13, r"i2t is taken of a current", None),
+    ("param a = b\nparam b = c * 2\nparam c = a + 1", 3, 11, r"circle: a → b → c → a", None),
+    ("param x = y2 + 1\nparam y = 2", 1, 11, r"unknown name 'y2'", r"did you mean 'y'"),
+    ("param x = sqr(4)", 1, 11, r"unknown function 'sqr'", r"did you mean 'sqrt'"),
+    (BASE + "voltage_source V2 b -- g sinus amplitude 1 V frequency 1 Hz", 5, 26, r"unknown waveform 'sinus'",
+     r"did you mean 'sine'"),
+    (BASE + "voltage_source V2 b -- g sine amplitude 1 V", 5, 26, r"needs the field 'frequency'", None),
+    (BASE + "voltage_source V2 b -- g sine amplitude 1 V frequency 1 Hz amplitud 3 V", 5, 60,
+     r"no field 'amplitud'", r"did you mean 'amplitude'"),
+    (BASE + "current_source I2 b -- g dc 3 V", 5, 29, r"in amperes \(A\); got V", None),
+    (BASE + "switch K a -- b closes at 2 ms closes at 3 ms", 5, 32, r"already closed", None),
+    (BASE + "switch K a -- b closes at 2 ms opens at 1 ms", 5, 41, r"times must increase", None),
+    (BASE + "switch K a -- b opens when power in R1 > 3 W", 5, 28, r"cannot watch a power", None),
+    (BASE + "switch K a -- b toggles period 1 ms duty 140 %", 5, 42, r"duty must lie strictly between", None),
+    (BASE + "transient until 10 ms method rk5", 5, 23, r"unknown method 'rk5'", r"rk45"),
+    (BASE + "transient step 1 us", 5, 1, r"needs its end time", r"until"),
+    (BASE + "transient until 1 ms\ntransient until 2 ms", 6, 1, r"second 'transient'", None),
+    (BASE + "resistor R1 b -- g 5", 5, 10, r"'R1' is already used", r"t\.cnet:3:10"),
+    (BASE + "coupling K R1 C1 k 0.5", 5, 12, r"joins two inductors; 'R1' is a resistor", None),
+    ("param x = 1 / 0", 1, 11, r"does not evaluate to a finite number", r"division by zero"),
+    ("param x = (1 + 2", 1, 17, r"ends too early; expected '\)'", None),
+    ("param x = 1 ± 5", 1, 15, r"tolerance is written in percent", None),
+    ("param x = 1 ± 5 % gaussian", 1, 19, r"unknown distribution 'gaussian'", r"'normal' or 'uniform'"),
+    (BASE + "voltage_source Vw b -- g pwl (0 s, 0 V) (2 ms, 1 V) (1 ms, 0 V)", 5, 54, r"times must increase", None),
+    ("ground g\nground h", 2, 8, r"ground node is declared twice", None),
+    (BASE + "resistor R2 a -- b 5 initial 3 V", 5, 30, r"resistor has no initial value", None),
+    ("ground gg\nresistor R1 a -- g 1", 1, 8, r"'gg' is not connected", r"did you mean 'g'"),
+    ("param x = 2 ohm\nparam x = 3 ohm", 2, 7, r"'x' is defined twice", r"t\.cnet:1:7"),
+    (BASE + "transient until 1 ms step 1 us points 100", 5, 32, r"either 'step' or 'points'", None),
+    (BASE + "voltage_source V2 b -- g pulse high 5 V width 1 us period 2 us count 2.5", 5, 70,
+     r"whole number", None),
+    (BASE + "require energy in R9 < 2 J", 5, 19, r"no element 'R9'", None),
+    (BASE + "require peak voltage at b 3 V", 5, 27, r"unexpected '3'; expected .*comparison", None),
+    (BASE + "  switch K a -- b closes at 1 ms opns at 2 ms", 5, 34, r"unexpected 'opns'", r"did you mean 'opens'"),
+    ("ground g\ncapacitor C1 a -- g 4R7", 2, 21, r"farads \(F\); got Ω", None),
+    ("ground g\n\n# a comment\nresistor R1 a -- g 5 ± 5 %  # fine\nresistor R2 a -- g 1 KΩ", 5, 22,
+     r"unknown unit 'KΩ'", r"case-sensitive"),
+    (BASE + "switch K a -- b closes when voltage at b > 3 A", 5, 44, r"switching level is in volts", None),
+    (BASE + "record voltage across g", 5, 23, r"no element 'g'", None),
+]
+
+
+def _lark_names() -> set[str]:
+    return {t.name for t in _parser().terminals if len(t.name) >= 3} | {"Token(", "Tree(", "Traceback", "lark"}
+
+
+@pytest.mark.parametrize("text, line, column, gist, hint", CASES, ids=[f"case{i}" for i in range(len(CASES))])
+def test_located_plain_error(text, line, column, gist, hint):
+    with pytest.raises(NetlistError) as info:
+        loads(text, "t.cnet")
+    err = info.value
+    assert err.where is not None
+    assert (err.where.file, err.where.line, err.where.column) == ("t.cnet", line, column)
+    assert err.where.text == text.splitlines()[line - 1]
+    assert re.search(gist, err.message), err.message
+    if hint is not None:
+        assert err.hint and re.search(hint, err.hint), err.hint
+    shown = str(err)
+    assert shown.startswith(f"t.cnet:{line}:{column}: error: ")
+    # the caret sits under the reported column
+    quoted, caret = shown.splitlines()[1:3]
+    assert caret.index("^") == column - 1 + 4 and quoted.strip() == text.splitlines()[line - 1].strip()
+    for name in _lark_names():
+        assert name not in shown, f"lark's name {name!r} leaked into: {shown}"
+
+
+def test_there_are_at_least_twenty_distinct_cases():
+    assert len({c[0] for c in CASES}) >= 20
+
+
+def test_unknown_override_has_no_location_but_a_suggestion():
+    with pytest.raises(NetlistError) as info:
+        loads("param R_pre = 10 Ω", overrides={"R_per": 5.0})
+    assert info.value.where is None and "did you mean 'R_pre'" in info.value.hint
+
+
+def test_include_in_text_resolves_from_the_current_folder(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    with pytest.raises(NetlistError) as info:
+        loads('ground g\ninclude "parts.cnet"', "<text>")
+    assert info.value.where.line == 2 and "does not exist" in info.value.message
+
+
+# ---------------------------------------------------------------------------
+# Property: whatever the text, the result is a Circuit or a NetlistError.
+# ---------------------------------------------------------------------------
+
+NETLISTS = Path(__file__).resolve().parent.parent / "netlists"
+EXAMPLE_TEXTS = [(p, p.read_text(encoding="utf-8")) for p in sorted(NETLISTS.glob("*.cnet"))]
+PIECES = [
+    "resistor", "capacitor", "inductor", "switch", "voltage_source", "current_source", "coupling", "param",
+    "ground", "record", "require", "transient", "include", "circuit", " -- ", " = ", " ± ", " +- ", " % ",
+    "(", ")", ",", "^", "*", "/", "-", "+", "<", ">=", " 4k7", " 1e-3", " 2 mH", " Ω", " µF", "\n", "\t", "#",
+    '"', " at ", " when ", " closes", " opens", " toggles", " on ", " off ", " k ", " pwl ", " dc ", " sine ",
+    "initial", "until", "step", "points", "method", "energy in", "voltage at", "current through", " a", " b",
+    " g", "1", "0", "9999999999999999999", "1e999", ".", "R2", "\u2126", "²", "\r\n",
+]
+
+
+def _outcome(text: str, filename: str) -> None:
+    try:
+        result = loads(text, filename)
+    except NetlistError as err:
+        str(err)  # the message itself must render
+        return
+    assert isinstance(result, Circuit)
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(st.sampled_from(PIECES), max_size=40).map("".join))
+def test_random_text_is_a_circuit_or_a_netlist_error(text):
+    _outcome(text, "<text>")
+
+
+@settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(
+    example=st.sampled_from(range(len(EXAMPLE_TEXTS))),
+    edits=st.lists(
+        st.tuples(st.sampled_from(["delete", "insert", "replace", "drop_line", "swap_lines"]),
+                  st.integers(min_value=0, max_value=10**6), st.sampled_from(PIECES)),
+        min_size=1, max_size=4,
+    ),
+)
+def test_mutated_examples_are_a_circuit_or_a_netlist_error(example, edits):
+    path, text = EXAMPLE_TEXTS[example]
+    for kind, position, piece in edits:
+        if kind in ("drop_line", "swap_lines"):
+            lines = text.split("\n")
+            i = position % len(lines)
+            if kind == "drop_line":
+                del lines[i]
+            else:
+                j = (position // 7) % len(lines)
+                lines[i], lines[j] = lines[j], lines[i]
+            text = "\n".join(lines)
+            continue
+        i = position % (len(text) + 1)
+        if kind == "delete":
+            text = text[:i] + text[i + 1 + position % 5:]
+        elif kind == "insert":
+            text = text[:i] + piece + text[i:]
+        else:
+            text = text[:i] + piece + text[i + len(piece):]
+    _outcome(text, str(path))  # the real path, so includes resolve
