@@ -74,11 +74,13 @@ def _validated(requirement: Any) -> tuple[str, str]:
     comparison = getattr(requirement, "comparison", None)
     if figure not in FIGURE_UNITS:
         raise LimitError(
-            f"requirement {_label(requirement)}: unknown figure {figure!r}; choose one of: {', '.join(FIGURE_UNITS)}"
+            f"requirement {_label(requirement)}: unknown figure {figure!r}; "
+            f"choose one of: {', '.join(FIGURE_UNITS)}"
         )
     if comparison not in COMPARISONS:
         raise LimitError(
-            f"requirement {_label(requirement)}: unknown comparison {comparison!r}; use one of {' '.join(COMPARISONS)}"
+            f"requirement {_label(requirement)}: unknown comparison {comparison!r}; "
+            f"use one of {' '.join(COMPARISONS)}"
         )
     return figure, comparison
 
@@ -140,7 +142,8 @@ def check_requirements(requirements: Sequence[Any], waveforms: Any) -> list[Limi
         value_f = float(value)
         reason = ""
         if np.isnan(value_f):
-            reason = "not measurable: " + _UNMEASURABLE.get(figure, "the figure is undefined for this waveform")
+            why = _UNMEASURABLE.get(figure, "the figure is undefined for this waveform")
+            reason = "not measurable: " + why
         elif not passed:
             reason = (
                 f"measured {value_f:g} {figure_unit(figure, unit)} does not meet "

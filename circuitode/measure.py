@@ -116,7 +116,9 @@ def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
     t = np.asarray(t, dtype=float)
     y = np.asarray(y, dtype=float)
     if t.ndim < 1 or t.shape[-1] < 2:
-        raise MeasurementError(f"time must be an array of at least 2 instants along its last axis, got shape {t.shape}")
+        raise MeasurementError(
+            f"time must be an array of at least 2 instants along its last axis, got shape {t.shape}"
+        )
     if y.ndim < 1 or y.shape[-1] != t.shape[-1]:
         raise MeasurementError(
             f"signal of shape {y.shape} does not match {t.shape[-1]} time instants; "
@@ -126,7 +128,9 @@ def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
         try:
             t, y = np.broadcast_arrays(t, y)
         except ValueError:
-            raise MeasurementError(f"time axes of shape {t.shape} do not fit signals of shape {y.shape}") from None
+            raise MeasurementError(
+                f"time axes of shape {t.shape} do not fit signals of shape {y.shape}"
+            ) from None
     if not np.all(np.isfinite(t)):
         raise MeasurementError("time contains NaN or infinite values")
     if np.any(np.diff(t, axis=-1) < 0):
@@ -293,7 +297,9 @@ def rise_time(t, y, *, low: float = 0.1, high: float = 0.9, initial=None, final=
     too.  NaN when a level is never reached or the amplitude is zero.
     """
     if not 0.0 <= low < high <= 1.0:
-        raise MeasurementError(f"reference levels need 0 ≤ low < high ≤ 1, got low={low!r}, high={high!r}")
+        raise MeasurementError(
+            f"reference levels need 0 ≤ low < high ≤ 1, got low={low!r}, high={high!r}"
+        )
     t, y = _checked(t, y)
     y0, yf, amplitude, _ = _step_levels(y, initial, final)
     with np.errstate(invalid="ignore", divide="ignore"):
@@ -552,7 +558,9 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
     unknown = sorted(set(options) - set(allowed))
     if unknown:
         choices = ", ".join(allowed) if allowed else "none"
-        raise MeasurementError(f"figure {figure!r} has no option {', '.join(unknown)}; its options: {choices}")
+        raise MeasurementError(
+            f"figure {figure!r} has no option {', '.join(unknown)}; its options: {choices}"
+        )
     return function(t, y, **options)
 
 

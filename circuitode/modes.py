@@ -140,7 +140,9 @@ def _checked_matrix(A: Any, state_names: Sequence[str]) -> np.ndarray:
     if A.ndim != 2 or A.shape[0] != A.shape[1]:
         raise ModeAnalysisError(f"the state matrix must be square (n, n), got shape {A.shape}")
     if len(state_names) != A.shape[0]:
-        raise ModeAnalysisError(f"{len(state_names)} state names given for a state matrix of {A.shape[0]} states")
+        raise ModeAnalysisError(
+            f"{len(state_names)} state names given for a state matrix of {A.shape[0]} states"
+        )
     if not np.all(np.isfinite(A)):
         raise ModeAnalysisError("the state matrix contains NaN or infinite entries")
     return A
@@ -190,7 +192,8 @@ def _oscillatory(lam: complex, share: np.ndarray, names, tolerance) -> Mode:
 
 def _first_order(lam: float, share: np.ndarray, names, zero_scale) -> Mode:
     if abs(lam) <= zero_scale:
-        return Mode((complex(lam),), 0.0, float("nan"), float("nan"), float("inf"), INTEGRATING, _shares(share, names))
+        nan = float("nan")
+        return Mode((complex(lam),), 0.0, nan, nan, float("inf"), INTEGRATING, _shares(share, names))
     return Mode(
         eigenvalues=(complex(lam),),
         natural_frequency=abs(lam),
@@ -335,7 +338,8 @@ def eigen_summary(A: Any) -> dict[str, np.ndarray]:
         pick = np.argmin(masked, axis=-1)[..., None]
         any_osc = np.any(oscillates, axis=-1)
         least = np.where(any_osc, np.take_along_axis(masked, pick, axis=-1)[..., 0], np.nan)
-        ringing = np.where(any_osc, np.abs(np.take_along_axis(w, pick, axis=-1)[..., 0].imag) / (2 * np.pi), np.nan)
+        picked = np.take_along_axis(w, pick, axis=-1)[..., 0]
+        ringing = np.where(any_osc, np.abs(picked.imag) / (2 * np.pi), np.nan)
         slowest = np.max(1.0 / np.abs(w.real), axis=-1)
     return {
         "eigenvalues": w,
