@@ -698,3 +698,49 @@ def test_dc_explanation_exactly_when_the_state_matrix_is_singular():
         singular_seen += singular
         regular_seen += not singular
     assert singular_seen > 20 and regular_seen > 20  # both outcomes were exercised
+
+
+def test_switched_verdict_agrees_with_assembly_in_every_reachable_configuration():
+    # Same common-practice fact as above, now with timed, periodic and threshold switches:
+    # the checks report an error exactly when some reachable configuration cannot be assembled.
+    import random
+
+    from circuitode.errors import SingularSystemError
+    from circuitode.statespace import assemble
+
+    nodes = ["gnd", "n1", "n2", "n3", "n4"]
+    rng = random.Random(5)
+    outcomes = set()
+    for _ in range(600):
+        parts = []
+        for k in range(rng.randint(2, 9)):
+            kind, a, b = rng.choice("RRCLVISS"), rng.choice(nodes), rng.choice(nodes)
+            name = f"{kind}{k}"
+            control = rng.choice([
+                closes_at(1e-3 * rng.randint(1, 5)),
+                opens_at(1e-3 * rng.randint(1, 5)),
+                PeriodicSchedule(1e-3, 0.5, 1e-3 * rng.randint(0, 3)),
+                ThresholdRule(True, NodeVoltage("n1"), True, 1.0),
+            ])
+            parts.append({
+                "R": lambda: Resistor(name, a, b, 1.0),
+                "C": lambda: Capacitor(name, a, b, 1.0),
+                "L": lambda: Inductor(name, a, b, 1.0),
+                "V": lambda: VoltageSource(name, a, b, Dc(1.0)),
+                "I": lambda: CurrentSource(name, a, b, Dc(1.0)),
+                "S": lambda: Switch(name, a, b, control, on_resistance=rng.choice([None, 1.0]),
+                                    off_resistance=rng.choice([None, 1e6])),
+            }[kind]())
+        c = circuit(*parts, until=10e-3)
+        codes = {d.code for d in errors(c)}
+        if codes & {"no-ground", "unconnected-node"}:
+            continue
+        singular = False
+        for cfg in reachable_configurations(c):
+            try:
+                assemble(c, cfg.closed)
+            except SingularSystemError:
+                singular = True
+        assert singular == bool(codes), [(type(e).__name__, e.name, e.first, e.second) for e in parts]
+        outcomes.add(singular)
+    assert outcomes == {True, False}
