@@ -433,3 +433,44 @@ def test_capacitor_bank_has_two_timed_switches():
     c = load(NETLISTS / "capacitor_bank.cnet")
     timed = [s for s in c.switches if isinstance(s.control, cm.TimedSchedule)]
     assert [s.control.changes[0][0] for s in timed] == [pytest.approx(5e-3), pytest.approx(25e-3)]
+
+
+# ---------------------------------------------------------------------------
+# The language reference's examples
+# ---------------------------------------------------------------------------
+
+DOCS = Path(__file__).resolve().parent.parent / "docs" / "language.md"
+
+
+def _doc_blocks() -> list[str]:
+    text = DOCS.read_text(encoding="utf-8")
+    return [b for b in text.split("```")[1::2] if "error:" not in b]
+
+
+def test_every_example_in_the_language_reference_parses():
+    from circuitode.netlist.parse import parse_text
+
+    blocks = _doc_blocks()
+    assert len(blocks) >= 15
+    for block in blocks:
+        parse_text(block.strip("\n"), "language.md")  # raises NetlistError on any syntax slip
+
+
+def test_first_example_of_the_language_reference_builds():
+    c = loads(_doc_blocks()[0].strip("\n"))
+    assert c.title == "DC-link pre-charge"
+    assert c.element("C1").capacitance == pytest.approx(1.5e-3)
+
+
+def test_error_examples_in_the_language_reference_are_real():
+    text = DOCS.read_text(encoding="utf-8")
+    for block in [b for b in text.split("```")[1::2] if "error:" in b]:
+        head, quoted = block.strip("\n").splitlines()[:2]
+        location, message = head.split(": error: ")
+        line, column = map(int, location.split(":")[1:])
+        # put the quoted statement (shown indented by four spaces) on its line, after a ground
+        source = "ground gnd" + "\n" * (line - 1) + quoted[4:]
+        with pytest.raises(NetlistError) as info:
+            loads(source, location.split(":")[0])
+        assert info.value.message == message
+        assert (info.value.where.line, info.value.where.column) == (line, column)
