@@ -72,7 +72,7 @@ def describe_configuration(circuit: Circuit, closed: Sequence[bool]) -> str:
     """Words for a switch configuration, e.g. ``"with K1 closed, K2 open"``."""
     switches = circuit.switches
     if not switches:
-        return "(the circuit has no switches)"
+        return "in its only configuration (it has no switches)"
     words = [f"{s.name} {'closed' if c else 'open'}" for s, c in zip(switches, closed)]
     return "with " + ", ".join(words)
 

@@ -268,7 +268,8 @@ def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None)
     _, _, problems = check_structure(circuit, ss_at_start.closed, dc=True)
     if problems:
         raise SingularSystemError(
-            f"no unique DC steady state {describe_configuration(circuit, ss_at_start.closed)}: "
+            f"cannot start from the DC steady state of the circuit "
+            f"{describe_configuration(circuit, ss_at_start.closed)}: "
             + _dc_words(circuit, ss_at_start.closed))
     m = ss_at_start.n_inputs
     u = np.zeros(m) if u0 is None else np.asarray(u0, dtype=float)
