@@ -308,22 +308,27 @@ def rise_time(t, y, *, low: float = 0.1, high: float = 0.9, initial=None, final=
 
 
 def settling_time(
-    t, y, *, band: float = 0.02, initial=None, final=None, start=None
+    t, y, *, band: float = 0.02, initial=None, final=None, start=None, dwell: float = 0.05
 ) -> np.ndarray:
     """Settling time (s): from ``start`` (default: the first instant) to the last
     instant the signal is outside ``final ± band·|final − initial|`` (2 % band by
     default; Ogata, ch. 5), interpolated to where it enters the band for good.
 
-    0 when it never leaves the band; NaN when it is still outside at the last sample
-    (not settled within the run) or the amplitude is zero.  Textbook settling times
+    0 when it never leaves the band.  NaN when the amplitude is zero, or when the
+    signal has not stayed inside the band for at least the last ``dwell`` fraction of
+    the run (5 % by default): a waveform still ringing at the end would otherwise
+    "settle" at the last sample, since the final level defaults to that sample, and
+    a limit on it would pass wrongly — run longer instead.  Textbook settling times
     count from the instant the step is applied: for a step applied by a switch at
     t_s, pass ``start=t_s``.
     """
+    if not 0 <= dwell < 1:
+        raise MeasurementError(f"settling dwell must be a fraction of the run in [0, 1), got {dwell!r}")
     if not band > 0:
         raise MeasurementError(f"settling band must be a positive fraction, got {band!r}")
     t, y = _checked(t, y)
     y0, yf, amplitude, _ = _step_levels(y, initial, final)
-    first, _ = _ends(t, y)
+    first, end = _ends(t, y)
     origin = _level(start, first)
     half_width = band * np.abs(amplitude)
     error = y - yf[..., None]
@@ -340,7 +345,8 @@ def settling_time(
     t0, t1 = _at(t, k), _at(t, k + 1)
     entered = t0 + np.clip(frac, 0.0, 1.0) * (t1 - t0)
     result = np.where(any_outside, entered - origin, np.maximum(first - origin, 0.0))
-    result = np.where(any_outside & (last == nt - 1), np.nan, result)
+    too_late = any_outside & ((last == nt - 1) | (entered > end - dwell * (end - first)))
+    result = np.where(too_late, np.nan, result)
     valid = (amplitude != 0) & np.all(np.isfinite(y), axis=-1)
     return np.where(valid, result, np.nan)
 

@@ -217,6 +217,20 @@ def test_settling_nan_when_not_settled_and_zero_when_never_out():
     assert m.settling_time(t, inside, initial=0.0, final=1.0) == 0.0
 
 
+def test_settling_needs_the_signal_to_stay_in_band_before_the_run_ends():
+    # A ringing step cut off while it still rings: with the final level taken from the
+    # last sample, the last sample is trivially "in band"; without the dwell rule the
+    # settling time would be reported as about the end of the run.
+    zeta = 0.05
+    t = np.linspace(0.0, 0.05, 5001)  # 4/(ζωn) ≈ 0.25 s: far from settled at 50 ms
+    y = second_order_step(zeta, WN, t)
+    assert np.isnan(m.settling_time(t, y))
+    without_rule = m.settling_time(t, y, dwell=0.0)
+    assert without_rule > 0.045  # what the rule protects against
+    # The same signal with the true final value given is not settled either (Ogata ch. 5).
+    assert np.isnan(m.settling_time(t, y, final=1.0))
+
+
 def test_batched_equals_loop_of_single_calls():
     rng = np.random.default_rng(7)
     t = np.linspace(0.0, 0.2, 4001)
@@ -315,6 +329,10 @@ def test_figure_units():
         (lambda: m.peak([0.0], [1.0]), "at least 2"),
         (lambda: m.rms([0, 1, 2], [0, 1, 2], start=1.5, end=3.0), "window"),
         (lambda: m.settling_time([0, 1], [0, 1], band=-0.1), "band"),
+        (lambda: m.settling_time([0, 1], [0, 1], dwell=1.5), "dwell"),
+        (lambda: m.damping_ratio([0, 1, 2], [0, 1, 0], floor=2.0), "floor"),
+        (lambda: m.final([0, 1, 2], [0, 1, 0], window=-1.0), "window"),
+        (lambda: m.mean([[0, 1, 2], [0, 1, 2]], [[0, 1, 0]] * 3), "do not fit"),
         (lambda: m.rise_time([0, 1], [0, 1], low=0.9, high=0.1), "reference levels"),
         (lambda: m.figure_unit("loudness", "V"), "unknown figure"),
     ],
