@@ -11,6 +11,12 @@ An ideal switch (no on-resistance) is a short when closed; one with no
 off-resistance is an open when open.  A switch with a resistance in that state
 is simply a resistor.
 
+Every ``check_*`` function takes the circuit (and, for the switched checks,
+optionally the configurations to examine, by default all reachable ones) and
+returns a list of Diagnostic; ``elements`` names the elements involved in
+file order and ``where`` is the first one's place in the netlist (for a
+duplicate name: the second use).
+
 Decisions
 ---------
 * Floating parts: a part of the circuit with no conducting path to ground in
