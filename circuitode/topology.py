@@ -13,9 +13,10 @@ is simply a resistor.
 
 Every ``check_*`` function takes the circuit (and, for the switched checks,
 optionally the configurations to examine, by default all reachable ones) and
-returns a list of Diagnostic; ``elements`` names the elements involved in
-file order and ``where`` is the first one's place in the netlist (for a
-duplicate name: the second use).
+returns a list of Diagnostic; ``elements`` names the elements involved (loops,
+cut sets and floating parts in file order; a coupling fault starts with the
+coupling; a node fault ends with the node) and ``where`` is the first one's
+place in the netlist (for a duplicate name: the second use).
 
 Decisions
 ---------
@@ -640,7 +641,7 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
             msg = (f"{_nodes_label(nodes)}{with_} {'loses' if len(nodes) == 1 else 'lose'} every path to ground "
                    f"while {switches} {'is' if len(cut_off) == 1 else 'are'} open, {cfg.when()}")
             fix = f"give {switches} an off-resistance (e.g. 100 MΩ) or tie the part to ground through a large resistor"
-            involved = inside + cut_off
+            involved = sorted(inside + cut_off)
             out.append(Diagnostic("floating-part", msg, _names(circuit, involved), fix, where=_where(circuit, involved)))
     return out
 
