@@ -70,12 +70,14 @@ class Samples:
             element = circuit.by_name.get(name)
             if element is None:
                 raise StateSpaceRequestError(f"batch values name {name!r}, which is not an element of the circuit")
-            allowed = _COUPLING_FIELDS if name in {c.name for c in circuit.couplings} else VARIABLE_FIELDS.get(type(element), ())
+            coupled = name in {c.name for c in circuit.couplings}
+            allowed = _COUPLING_FIELDS if coupled else VARIABLE_FIELDS.get(type(element), ())
             if field_ not in allowed:
-                raise StateSpaceRequestError(
-                    f"batch values for {name!r} give field {field_!r}; a {type(element).__name__.lower()} "
-                    f"can vary only in {', '.join(allowed) or 'nothing'}"
-                )
+                kind = "coupling" if coupled else type(element).__name__.lower()
+                can = (f"a {kind} can vary only in {', '.join(allowed)}" if allowed else
+                       f"a {kind} has no value this stage can vary per sample (source waveforms are "
+                       "evaluated by the source bank, not by the state-space matrices)")
+                raise StateSpaceRequestError(f"batch values for {name!r} give field {field_!r}; {can}")
             if getattr(element, field_) is None:
                 raise StateSpaceRequestError(
                     f"switch {name!r} has no {field_.replace('_', ' ')} (it is ideal in that state), "

@@ -151,6 +151,27 @@ def assemble(
         inductor/current-source cut set, a non-positive-definite inductance matrix).
     BadValueError : a single circuit with an unusable element value.
     StateSpaceRequestError : a probe, switch-state tuple or batch that makes no sense.
+
+    Notes
+    -----
+    A batch holds N dense MNA matrices at once: about 8·N·K² bytes for K unknowns
+    (nodes + capacitors + voltage sources + closed ideal switches); split very
+    large batches into chunks.
+
+    Examples
+    --------
+    An RC low-pass, 1 kΩ and 1 µF: A = −1/RC = −1000 1/s.
+
+    >>> from circuitode.circuit import Capacitor, Circuit, Resistor, VoltageSource, NodeVoltage
+    >>> from circuitode.sources import Dc
+    >>> rc = Circuit("rc", "gnd", (VoltageSource("V", "in", "gnd", Dc(1.0)),
+    ...                            Resistor("R", "in", "out", 1e3), Capacitor("C", "out", "gnd", 1e-6)))
+    >>> ss = assemble(rc, (), [NodeVoltage("out")])
+    >>> ss.A, ss.B, ss.C, ss.D
+    (array([[-1000.]]), array([[1000.]]), array([[1.]]), array([[0.]]))
+    >>> batch = assemble(rc, (), values={("R", "resistance"): np.array([1e3, 2e3])})
+    >>> batch.A[:, 0, 0]
+    array([-1000.,  -500.])
     """
     closed = check_closed(circuit, closed)
     layout = build_layout(circuit, closed)

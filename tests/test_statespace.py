@@ -422,3 +422,86 @@ def test_cache_assembles_each_configuration_once():
     assert other is not first and len(cache) == 2
     assert cache.initially_closed == (True, False, True)
     assert first.C[0, 0] != other.C[0, 0]
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.floats(0.1, 1e3), min_size=10, max_size=10), st.booleans())
+def test_stored_energy_never_grows_without_a_source(scale, closed):
+    # With u = 0, d/dt ½ xᵀ E x = −Σ R i² ≤ 0 for E = blockdiag(C, L-matrix): the
+    # symmetric part of E A is negative semidefinite (Tellegen's theorem / energy
+    # balance of passive RLC networks, Nilsson & Riedel ch. 6–8; common practice).
+    C1, C2 = scale[0] * 1e-7, scale[1] * 1e-7
+    L1, L2, k = scale[2] * 1e-4, scale[3] * 1e-4, (scale[4] / 1e3) * 0.98
+    ckt = circuit(VoltageSource("V", "in", "0", Dc(1)),
+                  Resistor("R1", "in", "a", scale[5]), Capacitor("C1", "a", "0", C1),
+                  Inductor("L1", "a", "b", L1), Switch("K", "b", "c", NEVER, on_resistance=scale[6] / 100),
+                  Capacitor("C2", "c", "0", C2), Resistor("R2", "b", "0", scale[7]),
+                  Inductor("L2", "c", "0", L2), Resistor("R3", "c", "0", scale[8]),
+                  couplings=[Coupling("M", "L1", "L2", k)])
+    A = assemble(ckt, (closed,)).A
+    M = k * np.sqrt(L1 * L2)
+    E = np.zeros((4, 4))
+    E[0, 0], E[1, 1] = C1, C2
+    E[2:, 2:] = [[L1, M], [M, L2]]
+    dissipation = np.linalg.eigvalsh(E @ A + A.T @ E)
+    assert dissipation.max() <= 1e-9 * np.abs(dissipation).max()
+
+
+def test_batch_of_one_keeps_its_axis_and_samples_come_out_whole():
+    ckt = batch_circuit()
+    batch = assemble(ckt, (True,), [CurrentThrough("K")], {("R1", "resistance"): np.array([2.0])})
+    assert batch.A.shape == (1, 3, 3) and batch.C.shape == (1, 1, 3) and batch.batch_size == 1
+    single = batch.sample(0)
+    assert single.batch_size is None and single.A.shape == (3, 3)
+    np.testing.assert_allclose(single.A, assemble(ckt, (True,)).A, rtol=1e-13)
+    with pytest.raises(StateSpaceRequestError, match="not a batch"):
+        single.sample(0)
+
+
+def test_request_errors_say_what_to_change():
+    ckt = batch_circuit()
+    with pytest.raises(StateSpaceRequestError, match="'dense' or 'sparse'"):
+        assemble(ckt, (True,), solver="fastest")
+    with pytest.raises(StateSpaceRequestError, match="single circuits"):
+        assemble(ckt, (True,), (), {("R1", "resistance"): np.ones(3)}, solver="sparse")
+    with pytest.raises(StateSpaceRequestError, match="coupling can vary only in k"):
+        assemble(ckt, (True,), (), {("M", "inductance"): np.ones(3)})
+    with pytest.raises(StateSpaceRequestError, match="source waveforms"):
+        assemble(ckt, (True,), (), {("V", "waveform.value"): np.ones(3)})
+    with pytest.raises(StateSpaceRequestError, match="not an element"):
+        assemble(ckt, (True,), (), {("R7", "resistance"): np.ones(3)})
+    ideal = circuit(VoltageSource("V", "in", "0", Dc(1)), Switch("K", "in", "a", ALWAYS),
+                    Resistor("R", "a", "0", 1.0))
+    with pytest.raises(StateSpaceRequestError, match="ideal in that state"):
+        assemble(ideal, (True,), (), {("K", "on_resistance"): np.ones(3)})
+
+
+def test_missing_ground_and_topology_words():
+    no_ground = Circuit(title="t", ground=None, elements=(
+        VoltageSource("V", "in", "x", Dc(1)), Resistor("R", "in", "x", 1.0)))
+    with pytest.raises(SingularSystemError, match="no ground node"):
+        assemble(no_ground, ())
+    # a loop that exists in every configuration is also reported by the topology checks
+    loop = circuit(VoltageSource("V", "in", "0", Dc(1)), Capacitor("C", "in", "0", 1e-6))
+    with pytest.raises(SingularSystemError, match="loop V, C|loop C, V") as err:
+        assemble(loop, ())
+    assert "topology checks found" in str(err.value)
+
+
+def test_batched_steady_state_leaves_bad_samples_nan():
+    rl = circuit(VoltageSource("V", "in", "0", Dc(1)), Resistor("R", "in", "a", 4.0),
+                 Inductor("L", "a", "0", 1e-3))
+    batch = assemble(rl, (), (), {("R", "resistance"): np.array([4.0, 0.0, 8.0])})
+    x = initial_state(rl, "steady", batch, np.array([[12.0], [12.0], [12.0]]))
+    # i_L = V/R at DC (inductor a short; Nilsson & Riedel ch. 7)
+    np.testing.assert_allclose(x[[0, 2], 0], [3.0, 1.5], rtol=1e-12)
+    assert np.isnan(x[1]).all()
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    import circuitode.statespace as module
+
+    result = doctest.testmod(module)
+    assert result.attempted > 0 and result.failed == 0
