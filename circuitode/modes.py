@@ -21,7 +21,9 @@ Classification rule (stated plainly because it is a choice):
   most-overlapping participation first;
 * any other real eigenvalue is its own first-order mode: *aperiodic
   (first-order)* when λ < 0 (ζ = 1 by the formula, Q = ½), *growing* when λ > 0,
-  *integrating* when λ ≈ 0 (|λ| ≤ ``tolerance`` × the largest |λ|).
+  *integrating* when λ ≈ 0 (|λ| ≤ ``zero_tolerance`` × ‖A‖₁, i.e. within a
+  few hundred rounding errors of the eigenvalue computation; a slow bleeder
+  discharge of seconds beside microsecond modes is still a real mode).
 
 Participation of state i in mode k is the participation factor
 |l_ik r_ik| / Σ_j |l_jk r_jk| from the left and right eigenvectors (Kundur,
@@ -227,6 +229,7 @@ def analyse_modes(
     *,
     state_units: Sequence[str] | None = None,
     tolerance: float = 1e-6,
+    zero_tolerance: float = 1e-12,
     pair_share: float = 0.02,
 ) -> tuple[Mode, ...]:
     """Natural modes of ``dx/dt = A x``, lowest natural frequency first.
@@ -237,8 +240,9 @@ def analyse_modes(
     state_names : n names, e.g. ``circuit.state_names`` ("voltage across C1" …).
     state_units : n units ("V" capacitor voltage, "A" inductor current); when
         omitted the kind is read from the names ("voltage…" / "current…").
-    tolerance : relative size below which an imaginary or real part counts as zero
-        and two real roots count as equal.
+    tolerance : relative size (to |λ|) below which an imaginary or real part counts
+        as zero and two real roots count as equal.
+    zero_tolerance : an eigenvalue with |λ| ≤ zero_tolerance × ‖A‖₁ counts as λ = 0.
     pair_share : least participation of a capacitor and of an inductor for a real
         eigenvalue to belong to an L–C section (see the module text).
 
@@ -265,8 +269,8 @@ def analyse_modes(
     names = tuple(state_names)
     w, shares = _participation(A)
     kinds = _state_kinds(names, state_units)
-    scale = float(np.max(np.abs(w))) if np.any(w != 0) else 1.0
-    zero_scale = tolerance * scale
+    scale = max(float(np.linalg.norm(A, 1)), float(np.max(np.abs(w))))
+    zero_scale = zero_tolerance * scale
 
     modes: list[Mode] = []
     real_idx: list[int] = []
@@ -357,7 +361,8 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
     ----------
     circuit : a built :class:`circuitode.circuit.Circuit`.
     until : end of the run, s (default: the circuit's analysis window).
-    **options : passed to :func:`analyse_modes` (``tolerance``, ``pair_share``).
+    **options : passed to :func:`analyse_modes` (``tolerance``, ``zero_tolerance``,
+        ``pair_share``).
 
     Returns
     -------

@@ -127,6 +127,16 @@ def test_first_order_and_integrating_modes():
     assert fast.time_constant == pytest.approx(R * C1 * C2 / (C1 + C2), rel=1e-10)
 
 
+def test_slow_bleeder_beside_fast_modes_is_not_called_integrating():
+    # A capacitor bank with a bleeder resistor: τ = R C = 6 s, next to microsecond modes
+    # (stiffness ratio ~ 3·10⁶).  λ = −1/6 1/s is a real first-order mode (Nilsson &
+    # Riedel ch. 7), not a zero eigenvalue.
+    A = np.diag([-1 / 6.0, -5e5])
+    slow, fast = analyse_modes(A, ("voltage across C_b1", "current through L_d1"))
+    assert slow.kind == APERIODIC and slow.time_constant == pytest.approx(6.0)
+    assert fast.time_constant == pytest.approx(2e-6)
+
+
 def test_two_identical_rc_sections_are_not_called_critically_damped():
     # A repeated real eigenvalue from two separate RC circuits is two first-order modes;
     # "critically damped" needs an L–C pair (the rule in the module text).
