@@ -78,7 +78,7 @@ def describe_configuration(circuit: Circuit, closed: Sequence[bool]) -> str:
 
 
 class _Forest:
-    """Union-find over node names that remembers, per joined pair, the path of elements."""
+    """Union-find over node names: which nodes are already joined by the branches seen so far."""
 
     def __init__(self, nodes: Sequence[str]):
         self.parent = {n: n for n in nodes}
@@ -189,7 +189,8 @@ def _loop_words(circuit: Circuit, loop: list[str], kinds: set, dc: bool) -> str:
 
 
 def _floating_words(floating: list[str], dc: bool) -> str:
-    nodes = ", ".join(floating)
+    shown = 8
+    nodes = ", ".join(floating[:shown]) + (f" and {len(floating) - shown} more" if len(floating) > shown else "")
     if dc:
         return (
             f"in DC steady state node(s) {nodes} have no path to ground except through "
@@ -223,6 +224,7 @@ def _topology_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
 
 
 def build_layout(circuit: Circuit, closed: tuple[bool, ...]) -> Layout:
+    """Number the unknowns of the companion network, or raise SingularSystemError in words."""
     kept, conductors, problems = check_structure(circuit, closed, dc=False)
     if problems:
         words = _topology_words(circuit, closed)

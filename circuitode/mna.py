@@ -154,7 +154,7 @@ def inductance_matrix(circuit: Circuit, samples: Samples) -> np.ndarray:
     if nL and circuit.couplings:
         lowest = np.linalg.eigvalsh(L)[:, 0]
         bad = ~(lowest > 1e-12 * own.max(axis=1))
-        names = ", ".join(f"{c.name} (k = {c.k:g})" for c in circuit.couplings)
+        names = ", ".join(c.name if samples.batched else f"{c.name} (k = {c.k:g})" for c in circuit.couplings)
         samples.require(
             bad, circuit.couplings[0].name,
             f"the inductance matrix of the coupled inductors is not positive definite (couplings {names})",

@@ -24,6 +24,12 @@ A sample whose values are unusable (a resistance that is not positive, an
 inductance matrix that is not positive definite …) does not stop a batch: its
 matrices are NaN and ``StateSpace.sample_ok`` is False for it.  A single
 circuit raises instead.
+
+The work is split in three modules: :mod:`circuitode.companion` lays out the
+companion network and proves from the graph alone that it has a unique
+solution (or says why not); :mod:`circuitode.mna` stamps and solves it for
+every sample; this module turns the solution into ``A, B, C, D`` and the
+initial state.
 """
 from __future__ import annotations
 
@@ -294,8 +300,10 @@ def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None)
             + _dc_words(circuit, ss_at_start.closed))
     m = ss_at_start.n_inputs
     u = np.zeros(m) if u0 is None else np.asarray(u0, dtype=float)
-    if u.shape[-1:] != (m,):
-        raise StateSpaceRequestError(f"u0 must have {m} entries (one per source), got shape {u.shape}")
+    if u.shape[-1:] != (m,) or (N is None and u.ndim > 1):
+        raise StateSpaceRequestError(
+            f"u0 must have {m} entries (one per source){'' if N is None else ', or shape (N, m)'}, "
+            f"got shape {u.shape}")
     if n == 0:
         return np.zeros(shape)
     drive = -np.einsum("...ij,...j->...i", ss_at_start.B, u)
