@@ -69,6 +69,9 @@ CASES = [
      r"unknown unit 'KΩ'", r"case-sensitive"),
     (BASE + "switch K a -- b closes when voltage at b > 3 A", 5, 44, r"switching level is in volts", None),
     (BASE + "record voltage across g", 5, 23, r"no element 'g'", None),
+    ("param x = 1.2.3", 1, 11, r"'1\.2\.3' is not a number", r"one decimal point"),
+    ("ground g\nvoltage_source V a -- g", 2, 24, r"ends too early; expected a waveform \(dc, step", None),
+    ("param x = 4k7k", 1, 11, r"already holds its prefix", None),
 ]
 
 

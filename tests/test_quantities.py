@@ -205,3 +205,11 @@ def test_every_unit_is_known_to_the_grammar():
         for text in written:
             c = loads(f"param x = 2 {text}")
             assert c.parameters["x"] == pytest.approx(parse_quantity(f"2 {text}")), text
+
+
+def test_iec_code_takes_no_second_prefix():
+    # IEC 60062:2016 letter code: the letter is the multiplier, so a further prefix is a slip
+    assert parse_quantity("4k7 Ω", "Ω") == 4700.0
+    for bad in ("4k7 kΩ", "4k7k", "2m2 mF"):
+        with pytest.raises(NetlistError, match="already holds its prefix"):
+            parse_quantity(bad)

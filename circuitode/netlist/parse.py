@@ -509,6 +509,9 @@ def _describe(expected: set[str]) -> tuple[str, list[str]]:
     if {"NUMBER", "NAME"} <= names and "(" in literals.values():
         words.append("a value (a number with a unit, a parameter name or an expression)")
         names -= {"NUMBER", "NAME"} | {n for n, lit in literals.items() if lit in ("(", "-", "+")}
+    if "NAME" in names and {"dc", "pwl"} <= set(literals.values()):
+        words.append("a waveform (dc, step, ramp, pulse, sine, exponential or pwl)")
+        names -= {"NAME"} | {n for n, lit in literals.items() if lit in ("dc", "pwl")}
     if {n for n, lit in literals.items() if lit in _OPERATORS} and "UNIT" in names:
         words.append("a unit or an operator (+ - * / ^)")
         names -= {"UNIT"} | {n for n, lit in literals.items() if lit in _OPERATORS}
@@ -576,6 +579,11 @@ def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistE
         close = did_you_mean(word, keywords)
         if close.startswith("did you mean"):
             return NetlistError(f"unexpected '{word}'; expected {wanted}", where, close)
+    number = re.search(r"[\d.]+$", before)
+    if number and rest[:1] in ".0123456789":
+        shown = number.group(0) + re.match(r"[\w.]*", rest).group(0)
+        return NetlistError(f"'{shown}' is not a number", Where(file, line, number.start() + 1, text),
+                            "write one decimal point, e.g. 1.25, or an exponent, e.g. 1.5e-3")
     if word and re.search(r"%[ \t]*$", before) and word.isidentifier():
         return NetlistError(f"unknown distribution '{word}'", where,
                             "a tolerance's distribution is 'normal' or 'uniform' (or leave it out for normal)")

@@ -229,6 +229,11 @@ def read_quantity(number: str, unit: str = "") -> Quantity:
                 hint=f"write {number.replace('R', '.')} {unit}",
             )
         canonical = "Ω"
+    elif _LETTER_CODE.fullmatch(number) and unit and unit not in UNITS and "/" not in unit:
+        raise NetlistError(
+            f"the code '{number}' already holds its prefix; it cannot take another in '{unit}'",
+            hint=f"write {number} followed by the unit alone",
+        )
     si = _to_float(value.scaleb(exponent), f"{number} {unit}".strip()) * factor
     return Quantity(si, canonical)
 
