@@ -149,6 +149,7 @@ class _Builder:
             self.definitions[name] = ex.Number(value, unit, st.value.where)
         for name in ex.evaluation_order(self.definitions):
             st = self.params[name]
+            self.check_sums(self.definitions[name])
             self.param_units[name] = self._unit_of(self.definitions[name])
             value = self._number(self.definitions[name], st.value.where, f"parameter '{name}'")
             self.values[name] = value
@@ -176,6 +177,20 @@ class _Builder:
             left, right = self._unit_of(expr.left), self._unit_of(expr.right)
             return left if left == right else None
         return None
+
+    def check_sums(self, expr: ex.Expression) -> None:
+        """Refuse a sum or difference of two quantities written in different units (3 V + 2 A)."""
+        if isinstance(expr, ex.Binary):
+            if expr.op in "+-":
+                left, right = self._unit_of(expr.left), self._unit_of(expr.right)
+                if left is not None and right is not None and left != right:
+                    verb = "add" if expr.op == "+" else "subtract"
+                    raise NetlistError(f"cannot {verb} {unit_phrase(left)} and {unit_phrase(right)}", expr.where,
+                                       "write both terms in the same unit")
+            self.check_sums(expr.left)
+            self.check_sums(expr.right)
+        elif isinstance(expr, (ex.Unary, ex.Call)):
+            self.check_sums(expr.operand if isinstance(expr, ex.Unary) else expr.argument)
 
     def _number(self, expr: ex.Expression, where: Where, what: str) -> float:
         try:
@@ -211,6 +226,7 @@ class _Builder:
     def value(self, valued: Valued, unit: str | None, what: str, owner: str | None = None,
               field: str | None = None, need_unit: bool = False) -> float:
         """SI value of a written value, unit-checked; records spreads and recipes for ``owner.field``."""
+        self.check_sums(valued.expr)
         found = self._unit_of(valued.expr)
         try:
             check_unit(found, unit, what)
