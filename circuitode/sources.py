@@ -219,9 +219,14 @@ class Ramp(_Timed):
         _finite("ramp", initial=self.initial, final=self.final, start=self.start, duration=self.duration)
         _require(np.asarray(self.duration) >= 0, f"a ramp's duration must not be negative (got {self.duration!r} s)")
 
+    def _is_jump(self) -> bool:
+        """A duration below the resolution of time, or too short for a finite slope, is a jump."""
+        rise = abs(float(self.final) - float(self.initial))
+        return bool(self.duration <= _snap_eps(self.start) or rise / np.finfo(float).max > self.duration)
+
     def _value_slope(self, t: np.ndarray):
         rise = float(self.final) - float(self.initial)
-        if self.duration <= 0.0:  # a jump at ``start``
+        if self._is_jump():  # a jump at ``start``
             return Step(self.initial, self.final, self.start)._value_slope(t)
         eps = _snap_eps(t, self.start, self.start + self.duration)
         fraction = np.clip((t - self.start) / self.duration, 0.0, 1.0)
@@ -236,7 +241,7 @@ class Ramp(_Timed):
 
     def breakpoints(self, t0: float, t1: float) -> np.ndarray:
         """Start and end of the ramp, where inside (t0, t1)."""
-        return _inside([self.start, self.start + max(self.duration, 0.0)], t0, t1)
+        return _inside([self.start] if self._is_jump() else [self.start, self.start + self.duration], t0, t1)
 
     def generator(self, t0: float, t1: float) -> LinearGenerator:
         """Two states (value, slope)."""
@@ -271,17 +276,23 @@ class PulseTrain(_Timed):
         _require(self.count is None or self.count >= 1,
                  f"a pulse count must be at least 1 (got {self.count!r}); leave it out for endless pulses")
 
+    def _edges(self) -> tuple[float, float, float]:
+        """(rise, width, fall) in s, a rise or fall below the resolution of time taken as a jump."""
+        resolution = float(_snap_eps(self.delay, self.period))
+        return (float(self.rise) if self.rise > resolution else 0.0, float(self.width),
+                float(self.fall) if self.fall > resolution else 0.0)
+
     def _corners(self) -> np.ndarray:
         """Offsets (s) of the corners within one period, sorted, each < period."""
-        r, w, f = max(self.rise, 0.0), max(self.width, 0.0), max(self.fall, 0.0)
+        r, w, f = self._edges()
         offsets = np.unique([0.0, r, r + w, r + w + f])
         return offsets[offsets < self.period]
 
     def _value_slope(self, t: np.ndarray):
         low, high = float(self.low), float(self.high)
-        r, w, f = max(self.rise, 0.0), max(self.width, 0.0), max(self.fall, 0.0)
+        r, w, f = self._edges()
         since = t - self.delay
-        eps = _snap_eps(since, self.period)
+        eps = _snap_eps(t, self.delay)  # rounding in t - delay and in k·period
         k = np.floor(since / self.period)
         tau = since - k * self.period
         wrap = tau >= self.period - eps  # rounding put t just before a period start
@@ -324,7 +335,7 @@ class PulseTrain(_Timed):
             last = min(last, self.count - 1) if np.isfinite(t1) else self.count - 1
         k = np.arange(first, last + 1, dtype=float)
         times = (self.delay + k[:, None] * self.period + self._corners()[None, :]).ravel()
-        r, w, f = max(self.rise, 0.0), max(self.width, 0.0), max(self.fall, 0.0)
+        r, w, f = self._edges()
         if self.count is not None and r + w + f > self.period:  # last pulse cut off by the train's end
             times = np.append(times, self.delay + self.count * self.period)
         return _inside(times, t0, t1)
@@ -409,8 +420,7 @@ class PiecewiseLinear(_Timed):
         if knots.size < 2:
             return value, np.zeros_like(value)
         slopes = np.diff(heights) / np.diff(knots)
-        eps = _snap_eps(t, knots[-1], knots[0])
-        piece = np.searchsorted(knots, t + eps, side="right") - 1
+        piece = np.searchsorted(knots, t, side="right") - 1  # corners are the knots themselves
         inner = (piece >= 0) & (piece < knots.size - 1)
         slope = np.where(inner, slopes[np.clip(piece, 0, knots.size - 2)], 0.0)
         return value, slope

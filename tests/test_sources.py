@@ -209,3 +209,22 @@ def test_nonsense_fields_raise_our_error(make, words):
     with pytest.raises(WaveformError, match=words) as err:
         make()
     assert isinstance(err.value, CircuitodeError)
+
+
+def test_value_just_before_time_zero_is_the_value_before_any_edge():
+    # The transient driver asks for u(0⁻) at t = −tiny; a pulse or step starting at 0
+    # must still give its value before the edge there.
+    before = -np.finfo(float).tiny
+    assert SQUARE.value(before) == 0.0 and SQUARE.value(0.0) == 1.0
+    assert Step(1.0, 2.0, at=0.0).value(before) == 1.0
+    assert Ramp(0.0, 2.0, start=0.0, duration=0.0).value(before) == 0.0
+
+
+def test_edges_shorter_than_time_resolution_are_jumps():
+    # A subnormal rise or ramp duration would give an infinite slope; it is taken as a jump.
+    for wave in (Ramp(0.0, 1.0, start=0.0, duration=5e-324),
+                 PulseTrain(0.0, 1.0, delay=0.0, rise=5e-324, fall=0.0, width=0.5, period=1.0)):
+        corners = wave.breakpoints(-1.0, 0.9)
+        np.testing.assert_allclose(corners, [0.0] + ([0.5] if isinstance(wave, PulseTrain) else []))
+        gen = wave.generator(0.0, 0.4)
+        assert np.all(np.isfinite(gen.z0)) and gen.z0[0] == 1.0 and gen.z0[1] == 0.0
