@@ -79,7 +79,7 @@ class DaskExecutor:
         else:
             address = str(scheduler)
             try:
-                self.client = distributed.Client(address, timeout=timeout, set_as_default=False)
+                self.client = distributed.Client(address, timeout=timeout)
             except (OSError, TimeoutError, ValueError) as exc:
                 raise CircuitodeError(
                     f"cannot reach the Dask scheduler at {address!r} ({exc}); check the "
