@@ -27,7 +27,8 @@ EVENT_TOL = {"rk4": 1e-9, "rk45": 1e-9, "dop853": 1e-9, "radau": 1e-9, "bdf": 1e
 
 def integrator(name, step=1e-7):
     """rk4 gets a fixed step (stable for every system below); the others tight tolerances."""
-    return get_integrator(name, step=step if name == "rk4" else None, rtol=1e-10, atol=1e-13)
+    rtol = 1e-9 if name == "radau" else 1e-10  # Radau is slow at 1e-10 and meets TOL at 1e-9
+    return get_integrator(name, step=step if name == "rk4" else None, rtol=rtol, atol=1e-13)
 
 
 class Constant:
@@ -181,11 +182,11 @@ def test_lossless_lc_period_and_energy(name):
 def test_series_rlc_sine_steady_state_matches_phasor(name):
     # Phasor analysis (Alexander & Sadiku, ch. 9–10; Nilsson & Riedel, ch. 9):
     # V_C / V = 1 / (1 − ω²LC + jωRC); after the transient (e^{−αt}, α = R/2L) decays.
-    R, L, C, amp, f = 10.0, 1e-3, 10e-6, 3.0, 1e3
+    R, L, C, amp, f = 16.0, 1e-3, 10e-6, 3.0, 1e3
     w = 2 * np.pi * f
     A, B = series_rlc(R, L, C)
-    seg = LinearSegment(A, B, SineInput(amp, w), 0.0, 8e-3, [0.0, 0.0])
-    t = np.linspace(7e-3, 8e-3, 41)  # α t ≥ 35: transient below 1e-15
+    seg = LinearSegment(A, B, SineInput(amp, w), 0.0, 5e-3, [0.0, 0.0])
+    t = np.linspace(4.4e-3, 5e-3, 25)  # α t ≥ 35: transient below 1e-15
     res = integrator(name, step=1e-7).solve(seg, t)
     H = 1 / (1 - w**2 * L * C + 1j * w * R * C)
     want = amp * abs(H) * np.sin(w * t + np.angle(H))

@@ -15,8 +15,8 @@ scaling-and-squaring).  One exponential is computed per distinct interval
 length, so a uniform output grid costs one ``expm`` per segment.
 
 Events are detected by a sign change of g between consecutive check points
-(the output times, refined to at most a quarter period of the fastest
-oscillation of M) and located by Brent's method on the exact propagation from
+(the output times, each interval split equally so that no part exceeds a
+quarter period of the fastest oscillation of M) and located by Brent's method on the exact propagation from
 the last check point.
 """
 from __future__ import annotations
@@ -30,7 +30,7 @@ from .base import Integrator, event_values, first_crossing, generator_matrices, 
 
 __all__ = ["Exact", "augmented_matrix", "MAX_CHECK_POINTS"]
 
-#: Cap on the extra points inserted to look for event crossings in one segment.
+#: Cap on the check points used to look for event crossings in one segment.
 MAX_CHECK_POINTS = 100_000
 
 
@@ -66,10 +66,9 @@ class Exact(Integrator):
         M = augmented_matrix(segment.A, segment.B, F, H)
         w0 = np.concatenate([segment.x0, z0])
 
-        times = [np.array([t0, t1]), t_out]
+        grid = np.unique(np.concatenate([[t0], t_out, [t1]]))
         if events:
-            times.append(self._check_points(M, t0, t1))
-        grid = np.unique(np.concatenate(times))
+            grid = self._refine(grid, M)
         w, expm_calls = self._propagate(M, w0, grid, t1 - t0)
         counters = {"steps": int(grid.size - 1), "expm_calls": expm_calls}
 
@@ -108,15 +107,24 @@ class Exact(Integrator):
         return w, int(lengths.size)
 
     @staticmethod
-    def _check_points(M, t0, t1):
-        """Extra times so that no oscillation of M completes a quarter period unseen."""
+    def _refine(grid, M):
+        """Split each interval of ``grid`` into equal parts no longer than a quarter period
+        of the fastest oscillation of M, so no crossing hides between check points.
+        Equal parts keep a uniform grid uniform (one exponential still serves)."""
         if M.shape[0] == 0:
-            return np.zeros(0)
+            return grid
         omega = float(np.max(np.abs(np.linalg.eigvals(M).imag)))
         if omega == 0.0:
-            return np.zeros(0)
-        count = int(min(np.ceil((t1 - t0) * omega / (np.pi / 2)), MAX_CHECK_POINTS))
-        return np.linspace(t0, t1, count + 1)
+            return grid
+        gaps = np.diff(grid)
+        spacing = max(np.pi / (2 * omega), (grid[-1] - grid[0]) / MAX_CHECK_POINTS)
+        counts = np.maximum(np.ceil(gaps / spacing - 1e-9), 1).astype(int)
+        if np.all(counts == 1):
+            return grid
+        first = np.repeat(np.cumsum(counts) - counts, counts)
+        part = (np.arange(counts.sum()) - first) / np.repeat(counts, counts)
+        fine = np.repeat(grid[:-1], counts) + np.repeat(gaps, counts) * part
+        return np.append(fine, grid[-1])
 
     def _locate(self, M, w_start, g_start, h, events, n, H):
         """Earliest crossing within one interval by Brent's method on expm(M s) w_start."""
