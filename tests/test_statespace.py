@@ -162,7 +162,7 @@ def test_passive_ladder_is_stable(scale):
 # Outputs
 # --------------------------------------------------------------------------
 
-VALUES = dict(R1=2.0, R2=3.0, R3=5.0, R4=7.0, R5=11.0, Ron=0.5, C=1e-6, L=1e-3)
+VALUES = dict(R1=2.0, R2=3.0, R3=5.0, R4=7.0, R5=11.0, Ron=0.5, Roff=1e3, C=1e-6, L=1e-3)
 
 
 def probe_circuit(closed_k1=True):
@@ -174,35 +174,38 @@ def probe_circuit(closed_k1=True):
         Switch("K1", "a", "c", ALWAYS), Resistor("R3", "c", "0", v["R3"]),
         Switch("K2", "a", "d", NEVER), Resistor("R4", "d", "0", v["R4"]),
         Switch("K3", "a", "e", ALWAYS, on_resistance=v["Ron"]), Resistor("R5", "e", "0", v["R5"]),
+        Switch("K4", "a", "0", NEVER, on_resistance=1.0, off_resistance=v["Roff"]),
     )
 
 
 def test_every_probe_kind_against_hand_solution():
     # Hand solution by Kirchhoff's laws (Nilsson & Riedel ch. 2–4): node a is the
     # capacitor voltage vC; b = vC − R2 iL; K1 ties c to a; K2 open leaves R4 idle;
-    # K3's on-resistance and R5 divide vC.
+    # K3's on-resistance and R5 divide vC; K4 is open with an off-resistance to ground.
     v = VALUES
     probes = [
         NodeVoltage("a"), NodeVoltage("0"), NodeVoltage("d"), NodeVoltage("e"),
         VoltageBetween("a", "b"), VoltageAcross("L1"), VoltageAcross("V1"), VoltageAcross("I1"),
         VoltageAcross("K2"), CurrentThrough("R1"), CurrentThrough("C1"), CurrentThrough("L1"),
         CurrentThrough("V1"), CurrentThrough("I1"), CurrentThrough("K1"), CurrentThrough("K2"),
-        CurrentThrough("K3"), CurrentThrough("R4"),
+        CurrentThrough("K3"), CurrentThrough("R4"), CurrentThrough("K4"), VoltageAcross("C1"),
+        VoltageAcross("R1"),
     ]
-    ss = assemble(probe_circuit(), (True, False, True), probes)
+    ss = assemble(probe_circuit(), (True, False, True, False), probes)
     rng = np.random.default_rng(7)
     for _ in range(5):
         vC, iL, V, I = rng.normal(size=4)
         iR1 = (V - vC) / v["R1"]
         iK3 = vC / (v["Ron"] + v["R5"])
-        iC = iR1 + I - iL - vC / v["R3"] - iK3
+        iC = iR1 + I - iL - vC / v["R3"] - iK3 - vC / v["Roff"]
         expected = [vC, 0.0, 0.0, vC * v["R5"] / (v["Ron"] + v["R5"]), v["R2"] * iL, vC - v["R2"] * iL,
-                    V, -vC, vC, iR1, iC, iL, -iR1, I, vC / v["R3"], 0.0, iK3, 0.0]
+                    V, -vC, vC, iR1, iC, iL, -iR1, I, vC / v["R3"], 0.0, iK3, 0.0, vC / v["Roff"], vC,
+                    V - vC]
         y = ss.C @ [vC, iL] + ss.D @ [V, I]
         np.testing.assert_allclose(y, expected, rtol=1e-12, atol=1e-12)
         np.testing.assert_allclose(ss.A @ [vC, iL] + ss.B @ [V, I],
                                    [iC / v["C"], (vC - v["R2"] * iL) / v["L"]], rtol=1e-12)
-    assert ss.output_labels[0] == "voltage at a" and ss.output_units[-1] == "A"
+    assert ss.output_labels[0] == "voltage at a" and ss.output_units[-3:] == ("A", "V", "V")
     assert ss.input_names == ("V1", "I1") and ss.input_units == ("V", "A")
     assert ss.state_names == ("voltage across C1", "current through L1")
 
@@ -210,24 +213,24 @@ def test_every_probe_kind_against_hand_solution():
 def test_power_probe_and_unknown_names_are_refused_with_advice():
     ckt = probe_circuit()
     with pytest.raises(StateSpaceRequestError, match="voltage across R1 and current through R1") as err:
-        assemble(ckt, (True, False, True), [PowerIn("R1")])
+        assemble(ckt, (True, False, True, False), [PowerIn("R1")])
     assert isinstance(err.value, ValueError) and isinstance(err.value, CircuitodeError)
     with pytest.raises(StateSpaceRequestError, match="no node named 'zz'"):
-        assemble(ckt, (True, False, True), [NodeVoltage("zz")])
+        assemble(ckt, (True, False, True, False), [NodeVoltage("zz")])
     with pytest.raises(StateSpaceRequestError, match="no two-terminal element named 'R9'"):
-        assemble(ckt, (True, False, True), [CurrentThrough("R9")])
-    with pytest.raises(StateSpaceRequestError, match="2 switch states given for 3 switches"):
+        assemble(ckt, (True, False, True, False), [CurrentThrough("R9")])
+    with pytest.raises(StateSpaceRequestError, match="2 switch states given for 4 switches"):
         assemble(ckt, (True, False))
 
 
 def test_switch_states_change_the_network():
     # K1 open: R3 carries nothing, so the capacitor sees one conductance less (Ohm's law).
     v = VALUES
-    closed = assemble(probe_circuit(), (True, False, True))
-    opened = assemble(probe_circuit(), (False, False, True))
+    closed = assemble(probe_circuit(), (True, False, True, False))
+    opened = assemble(probe_circuit(), (False, False, True, False))
     assert opened.A[0, 0] - closed.A[0, 0] == pytest.approx(1 / (v["R3"] * v["C"]), rel=1e-12)
     # K2 closed ideal: R4 now across the capacitor
-    both = assemble(probe_circuit(), (True, True, True))
+    both = assemble(probe_circuit(), (True, True, True, False))
     assert closed.A[0, 0] - both.A[0, 0] == pytest.approx(1 / (v["R4"] * v["C"]), rel=1e-12)
 
 
@@ -416,11 +419,11 @@ def test_batched_steady_state_matches_single_runs():
 
 def test_cache_assembles_each_configuration_once():
     cache = StateSpaceCache(probe_circuit(), [CurrentThrough("K1")])
-    first = cache.get((True, False, True))
-    assert cache.get([True, False, True]) is first
-    other = cache.get((False, False, True))
+    first = cache.get((True, False, True, False))
+    assert cache.get([True, False, True, False]) is first
+    other = cache.get((False, False, True, False))
     assert other is not first and len(cache) == 2
-    assert cache.initially_closed == (True, False, True)
+    assert cache.initially_closed == (True, False, True, False)
     assert first.C[0, 0] != other.C[0, 0]
 
 
