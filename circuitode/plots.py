@@ -85,6 +85,7 @@ def plot_waveforms(
                     ha="right", va="bottom", fontsize=7, color="#555555")
         word = QUANTITY_NAMES.get(unit, "value")
         ax.set_ylabel(f"{word} [{yp}{unit}]")
+        ax.margins(x=0, y=0.14)
         ax.grid(True, color="#e3e3e3", lw=0.7)
         ax.set_axisbelow(True)
         for side in ("top", "right"):

@@ -29,6 +29,7 @@ from .circuit import (
     TimedSchedule,
     VoltageSource,
 )
+from .measure import figure_unit
 from .netlist.quantities import format_si
 
 __all__ = [
@@ -39,6 +40,7 @@ __all__ = [
     "run_text",
     "modes_text",
     "limits_text",
+    "requirement_words",
     "write_summary_json",
     "describe_control",
     "describe_waveform",
@@ -242,7 +244,8 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
     if circuit.records:
         out.extend(_wrap("records: " + ", ".join(p.label for p in circuit.records), indent=""))
     for r in circuit.requirements:
-        out.extend(_wrap(f"requires: {r.label}", indent=""))
+        unit = figure_unit(r.figure, r.probe.unit)
+        out.extend(_wrap(f"requires: {requirement_words(r, unit)}", indent=""))
     out.append("")
     errors = [d for d in diagnostics if d.severity == "error"]
     warnings = [d for d in diagnostics if d.severity != "error"]
@@ -294,10 +297,20 @@ def limits_text(results: Sequence[Any]) -> list[str]:
     lines = []
     for r in results:
         mark = "pass" if r.passed else "FAIL"
-        lines.extend(_wrap(f"{mark:<5}{r.requirement.label}", indent="  "))
+        lines.extend(_wrap(f"{mark:<5}{requirement_words(r.requirement, r.unit)}", indent="  "))
         lines.append(f"{'':7}measured {_si(r.value, r.unit)}, margin {_si(r.margin, r.unit)}"
                      + ("" if r.passed or getattr(r, "reason", "") == "" else f" ({r.reason})"))
     return lines
+
+
+def requirement_words(requirement: Any, unit: str) -> str:
+    """E.g. "peak of current through R1 < 2 A" (the limit in engineering notation)."""
+    limit = f"{requirement.comparison} {format_si(requirement.limit, unit)}"
+    probe = requirement.probe
+    if requirement.figure == "energy" and type(probe).__name__ == "PowerIn":
+        return f"energy in {probe.element} {limit}"
+    figure = {"i2t": "I²t", "final": "final value"}.get(requirement.figure, requirement.figure.replace("_", " "))
+    return f"{figure} of {probe.label} {limit}"
 
 
 def run_text(
@@ -362,7 +375,7 @@ def modes_text(configurations: Sequence[Any], path: str | None = None, title: st
         out.append(f"  {'eigenvalue 1/s':<22}{'fn':>10}{'ζ':>8}{'Q':>8}{'τ':>10}  class")
         for m in cfg.modes:
             lam = m.eigenvalue
-            eig = f"{lam.real:.4g}" + (f" ± {abs(lam.imag):.4g}j" if lam.imag else "")
+            eig = f"{lam.real:.3g}" + (f" ± {abs(lam.imag):.3g}j" if lam.imag else "")
             zeta = "—" if math.isnan(m.damping_ratio) else f"{m.damping_ratio:.3f}"
             q = "∞" if math.isinf(m.quality_factor) else ("—" if math.isnan(m.quality_factor)
                                                           else f"{m.quality_factor:.3g}")
