@@ -508,3 +508,31 @@ def test_docstring_examples_run():
 
     result = doctest.testmod(module)
     assert result.attempted > 0 and result.failed == 0
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.tuples(st.sampled_from("RCLVI"), st.integers(0, 3), st.integers(0, 3)),
+                min_size=2, max_size=7))
+def test_dc_steady_state_exists_exactly_when_A_is_invertible(parts):
+    # Claim in companion.py: with positive values, A is singular exactly when the DC
+    # network (capacitors open, inductors shorted) has a loop of inductors/sources or a
+    # node with no DC path to ground.  Checked against the numerical rank of A
+    # (all values 1, so the rank is not blurred by scaling).
+    from circuitode.companion import check_structure
+
+    kinds = {"R": lambda n, a, b: Resistor(n, a, b, 1.0), "C": lambda n, a, b: Capacitor(n, a, b, 1.0),
+             "L": lambda n, a, b: Inductor(n, a, b, 1.0), "V": lambda n, a, b: VoltageSource(n, a, b, Dc(1)),
+             "I": lambda n, a, b: CurrentSource(n, a, b, Dc(1))}
+    nodes = ["0", "a", "b", "c"]
+    elements = [kinds[k](f"{k}{i}", nodes[p], nodes[q]) for i, (k, p, q) in enumerate(parts)]
+    ckt = circuit(*elements)
+    try:
+        ss = assemble(ckt, ())
+    except SingularSystemError:
+        return  # the companion network itself is singular: no A to judge
+    n = ss.A.shape[0]
+    if n == 0:
+        return
+    _, _, problems = check_structure(ckt, (), dc=True)
+    invertible = np.linalg.matrix_rank(ss.A, tol=1e-9) == n
+    assert invertible == (not problems), (parts, problems, np.linalg.eigvals(ss.A))
