@@ -188,9 +188,9 @@ def test_modal_zeta_agrees_with_log_decrement_on_the_waveform():
     t = np.linspace(0.0, 12 * mode.time_constant, 20001)
     _, v = scipy.signal.step(system, T=t)
     v = 48.0 * v
-    zeta_wave = measure.damping_ratio(t, v, final=48.0)
+    zeta_wave = measure.damping_ratio(t, v)
     assert zeta_wave == pytest.approx(mode.damping_ratio, rel=0.02)
-    assert measure.damped_frequency(t, v, final=48.0) == pytest.approx(mode.damped_frequency_hz, rel=0.01)
+    assert measure.damped_frequency(t, v) == pytest.approx(mode.damped_frequency_hz, rel=0.01)
 
 
 def test_eigen_summary_batch_matches_single_analyses():
@@ -318,9 +318,9 @@ def test_simulated_waveform_zeta_matches_modal_zeta_in_each_configuration():
     before, after = (c.modes[0] for c in circuit_modes(circuit))
     # The bypass closes before the first peak, so the ringing to measure is that of the
     # bypassed configuration: measure from the switching instant on.
-    zeta = measure.damping_ratio(waves.t, v, final=48.0, start=switch_time)
+    zeta = measure.damping_ratio(waves.t, v, start=switch_time)
     assert zeta == pytest.approx(after.damping_ratio, rel=0.02)
-    assert measure.damped_frequency(waves.t, v, final=48.0, start=switch_time) == pytest.approx(
+    assert measure.damped_frequency(waves.t, v, start=switch_time) == pytest.approx(
         after.damped_frequency_hz, rel=0.01
     )
     assert before.damping_ratio == pytest.approx((R_int + R_pre) / 2 * np.sqrt(C / L), rel=1e-9)
