@@ -59,9 +59,14 @@ class LimitResult:
     reason: str = ""
 
 
+_NO_RINGING = (
+    "the waveform does not ring as one damped sinusoid (too few extrema, or several modes "
+    "superposed); the mode table gives ζ per mode"
+)
+
 _UNMEASURABLE = {
-    "damping_ratio": "the waveform does not ring (fewer than two extrema about its final value)",
-    "damped_frequency": "the waveform does not ring (fewer than two extrema about its final value)",
+    "damping_ratio": _NO_RINGING,
+    "damped_frequency": _NO_RINGING,
     "overshoot": "there is no step: the final value equals the initial one",
     "undershoot": "there is no step: the final value equals the initial one",
     "rise_time": "the signal never crosses the 10 % and 90 % levels of its step (or there is no step)",
