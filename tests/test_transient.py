@@ -227,6 +227,21 @@ def test_threshold_switch_instant(name):
 
 
 @pytest.mark.parametrize("name", ALL)
+def test_threshold_waits_while_the_quantity_sits_on_the_level(name):
+    # v_C stays exactly 0 V until the source steps at t0, then rises at once (common practice),
+    # so "closes when voltage at out > 0 V" acts at t0, not at the start where v_C only touches 0.
+    R, C, V, t0, until = 1e3, 1e-6, 5.0, 1e-3, 4e-3
+    rule = ThresholdRule(closes=True, probe=NodeVoltage("out"), above=True, level=0.0)
+    c = Circuit("late", "gnd", (VoltageSource("V1", "in", "gnd", Step(0.0, V, t0)),
+                                Resistor("R1", "in", "out", R), Capacitor("C1", "out", "gnd", C),
+                                Switch("K", "out", "x", rule), Resistor("R2", "x", "gnd", 1e3)),
+                records=(NodeVoltage("out"),))
+    w = run(c, name, until, rk4_step=1e-6, points=41, initial="rest")
+    assert len(w.events) == 1
+    assert abs(w.events[0].time - t0) < 1e-9 * until
+
+
+@pytest.mark.parametrize("name", ALL)
 def test_coupled_inductors_against_independent_model(name):
     # Coupled coils: [L1 M; M L2] d/dt [i1; i2] = [V − R1 i1; −R2 i2], M = k√(L1 L2)
     # (Alexander & Sadiku, ch. 13, magnetically coupled circuits); reference by expm in the test.

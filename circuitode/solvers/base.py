@@ -116,8 +116,9 @@ class LinearEvent:
     """A threshold on a linear output: ``g(t) = c·x + d·u(t) − level``.
 
     c : (n,) row of C.  d : (m,) row of D.  level : SI value.
-    rising : True fires when g goes from below zero to zero or above; False fires
-    when g goes from above zero to zero or below.
+    rising : True fires when g goes from zero or below to above zero (the quantity
+    rises through ``level``); False fires when g goes from zero or above to below
+    zero.  A quantity that merely touches the level does not fire.
     """
 
     c: np.ndarray
@@ -140,8 +141,8 @@ class LinearEvent:
         return g
 
     def met(self, g: np.ndarray) -> np.ndarray:
-        """Whether the condition holds for values g (array of bool)."""
-        return g >= 0.0 if self.rising else g <= 0.0
+        """Whether the condition holds (strictly past the level) for values g (array of bool)."""
+        return g > 0.0 if self.rising else g < 0.0
 
 
 def event_values(events: Sequence[LinearEvent], x: np.ndarray, u: np.ndarray) -> np.ndarray:

@@ -79,9 +79,9 @@ class Exact(Integrator):
             g = event_values(events, x_all, u_all)
             hit = first_crossing(events, g)
             if hit is not None:
-                k, _ = hit
+                k, first = hit
                 s, event_index, w_end, calls = self._locate(
-                    M, w[k], g[k], grid[k + 1] - grid[k], events, n, H)
+                    M, w[k], g[k], grid[k + 1] - grid[k], events, n, H, first)
                 counters["expm_calls"] += calls
                 event_time = grid[k] + s
         idx = np.searchsorted(grid, t_out)
@@ -126,7 +126,7 @@ class Exact(Integrator):
         fine = np.repeat(grid[:-1], counts) + np.repeat(gaps, counts) * part
         return np.append(fine, grid[-1])
 
-    def _locate(self, M, w_start, g_start, h, events, n, H):
+    def _locate(self, M, w_start, g_start, h, events, n, H, first):
         """Earliest crossing within one interval by Brent's method on expm(M s) w_start."""
         calls = 0
 
@@ -144,9 +144,11 @@ class Exact(Integrator):
             end = g(h)
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
-            s = h if end == 0.0 else brentq(g, 0.0, h, xtol=self.event_tol,
+            s = brentq(g, 0.0, h, xtol=self.event_tol,
                                             rtol=4 * np.finfo(float).eps)
             if best is None or s < best[0]:
                 best = (s, j)
+        if best is None:  # re-evaluation rounded the crossing away: take the interval's end
+            best = (h, first)
         s, j = best
         return s, j, state(s), calls

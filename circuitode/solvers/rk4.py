@@ -166,9 +166,9 @@ class RK4(Integrator):
             g = event_values(events, x, segment.input_values(nodes))
             hit = first_crossing(events, g)
             if hit is not None:
-                k, _ = hit
+                k, first = hit
                 event_time, event_index, x_end = self._locate(segment, events, g[k], x[k],
-                                                              nodes[k], h[k])
+                                                              nodes[k], h[k], first)
                 counters["steps"] = k + 1
         idx = np.searchsorted(nodes, t_out)
         if event_time is not None:
@@ -178,7 +178,7 @@ class RK4(Integrator):
             t_kept = t_out
         return SegmentResult(t_kept, x[idx], event_time, event_index, x_end, counters)
 
-    def _locate(self, segment, events, g_start, x_start, t_start, h):
+    def _locate(self, segment, events, g_start, x_start, t_start, h, first):
         """Earliest crossing inside one step, on the RK4 polynomial of a partial step."""
         best = None
         for j, event in enumerate(events):
@@ -189,8 +189,10 @@ class RK4(Integrator):
             end = g(h)
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
-            s = h if end == 0.0 else brentq(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
+            s = brentq(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
             if best is None or s < best[0]:
                 best = (s, j)
+        if best is None:  # re-evaluation rounded the crossing away: take the interval's end
+            best = (h, first)
         s, j = best
         return t_start + s, j, _rk4_single(segment, x_start, t_start, s)

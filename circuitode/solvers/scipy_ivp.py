@@ -55,9 +55,16 @@ class ScipyIntegrator(Integrator):
             forced = B @ segment.input_values(np.array([t]))[0]
             return A @ x + (forced[:, None] if x.ndim == 2 else forced)
 
+        tiny = np.finfo(float).tiny
+
         def make_event(event):
+            # solve_ivp fires on g = 0 → 0; nudging "not yet met" values off zero makes it
+            # fire only when the quantity passes the level (LinearEvent.met), not on a touch.
             def g(t, x):
-                return float(event.value(x, segment.input_values(np.array([t])))[0])
+                value = float(event.value(x, segment.input_values(np.array([t])))[0])
+                if event.rising:
+                    return value if value > 0 else min(value, -tiny)
+                return value if value < 0 else max(value, tiny)
 
             g.terminal = True
             g.direction = 1.0 if event.rising else -1.0
