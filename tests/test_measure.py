@@ -185,7 +185,7 @@ def test_rc_charging_i2t_and_resistor_energy():
 
 def test_rms_and_mean_of_sine_over_whole_periods():
     # rms of A sin(ωt) over whole periods = A/√2; mean of an offset sine = the offset
-    # (Alexander & Sadiku ch. 11, effective value).
+    # (Alexander & Sadiku, effective value, ch. 11 from memory).
     f = 50.0
     t = np.linspace(0.0, 0.1, 5001)
     y = 325.0 * np.sin(2 * np.pi * f * t)

@@ -50,7 +50,7 @@ def parallel_rlc(R: float, L: float, C: float) -> np.ndarray:
 def test_series_rlc_underdamped(R):
     # Nilsson & Riedel ch. 8; Alexander & Sadiku ch. 8: α = R/(2L), ω0 = 1/√(LC),
     # ζ = α/ω0 = (R/2)√(C/L), ωd = √(ω0² − α²).  Q = 1/(2ζ) = (1/R)√(L/C)
-    # (Alexander & Sadiku ch. 14, series resonance).  Time constant of the envelope 1/α.
+    # (Alexander & Sadiku, series resonance, ch. 14 from memory).  Time constant of the envelope 1/α.
     L, C = 2e-3, 10e-6
     (mode,) = analyse_modes(series_rlc(R, L, C), SERIES_NAMES)
     w0 = 1 / np.sqrt(L * C)
