@@ -29,9 +29,9 @@ Participation of state i in mode k is the participation factor
 |l_ik r_ik| / Σ_j |l_jk r_jk| from the left and right eigenvectors (Kundur,
 Power System Stability and Control, ch. 12; Pérez-Arriaga, Verghese &
 Schweppe, IEEE Trans. PAS, 1982 — both cited from memory).  Unlike raw
-eigenvector magnitudes it does
-not depend on the units of the states (volts against amperes), so it names the
-capacitors and inductors that really form the mode.
+eigenvector magnitudes it does not depend on the units of the states (volts
+against amperes), so it names the capacitors and inductors that really form
+the mode.
 """
 from __future__ import annotations
 
