@@ -123,8 +123,11 @@ def test_dask_cluster_on_localhost_equals_in_process(tmp_path):
     assert np.array_equal(remote.figures, local.figures, equal_nan=True)
 
 
-def test_unreachable_scheduler_is_explained(tmp_path):
+def test_unreachable_scheduler_is_explained(tmp_path, monkeypatch):
     pytest.importorskip("distributed")
+    from circuitode.tolerance import executors
+
+    monkeypatch.setattr(executors, "CONNECT_TIMEOUT", 1.0)
     with pytest.raises(CircuitodeError, match="cannot reach the Dask scheduler"):
         _run(tmp_path, samples=10, scheduler="tcp://127.0.0.1:9")
 

@@ -14,7 +14,10 @@ from typing import Any, Callable, Iterable, Iterator
 
 from ..errors import CircuitodeError
 
-__all__ = ["InProcessExecutor", "LocalProcessExecutor", "DaskExecutor", "make_executor"]
+__all__ = ["InProcessExecutor", "LocalProcessExecutor", "DaskExecutor", "make_executor", "CONNECT_TIMEOUT"]
+
+#: Seconds to wait for a Dask scheduler to answer.
+CONNECT_TIMEOUT = 10.0
 
 Task = tuple[Any, Any]
 
@@ -64,7 +67,7 @@ class DaskExecutor:
     ``distributed.Client``.  Needs the optional ``cluster`` extra.
     """
 
-    def __init__(self, scheduler: Any, timeout: float = 10.0):
+    def __init__(self, scheduler: Any, timeout: float | None = None):
         try:
             import distributed
         except ImportError:
@@ -79,7 +82,7 @@ class DaskExecutor:
         else:
             address = str(scheduler)
             try:
-                self.client = distributed.Client(address, timeout=timeout)
+                self.client = distributed.Client(address, timeout=timeout or CONNECT_TIMEOUT)
             except (OSError, TimeoutError, ValueError) as exc:
                 raise CircuitodeError(
                     f"cannot reach the Dask scheduler at {address!r} ({exc}); check the "
