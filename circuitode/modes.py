@@ -328,12 +328,15 @@ def eigen_summary(A: Any) -> dict[str, np.ndarray]:
     ``ringing_frequency`` — |Im λ|/2π (Hz) of that least-damped eigenvalue (NaN when none);
     ``slowest_time_constant`` — largest 1/|Re λ| (s; inf when some Re λ = 0);
     ``largest_real_part`` — max Re λ (1/s; > 0 means the configuration is unstable);
-    and ``eigenvalues`` (..., n) sorted by |λ|.
+    and ``eigenvalues`` (..., n) sorted by |λ|.  A matrix containing NaN (a sample the
+    batch could not assemble) gets NaN in every entry.
     """
     A = np.asarray(A, dtype=float)
     if A.ndim < 2 or A.shape[-1] != A.shape[-2]:
         raise ModeAnalysisError(f"state matrices must have shape (..., n, n), got {A.shape}")
-    w = np.linalg.eigvals(A)
+    failed = ~np.all(np.isfinite(A), axis=(-2, -1))  # samples a batch could not assemble
+    w = np.linalg.eigvals(np.where(failed[..., None, None], 0.0, A)).astype(complex)
+    w = np.where(failed[..., None], np.nan, w)
     w = np.take_along_axis(w, np.argsort(np.abs(w), axis=-1), axis=-1)
     magnitude = np.abs(w)
     with np.errstate(invalid="ignore", divide="ignore"):

@@ -215,6 +215,16 @@ def test_eigen_summary_batch_matches_single_analyses():
         assert summary["largest_real_part"][k] < 0  # passive circuit: Re λ < 0 (common practice)
 
 
+def test_eigen_summary_of_a_failed_sample_is_nan():
+    stack = np.stack([series_rlc(10.0, 1e-3, 1e-6), np.full((2, 2), np.nan)])
+    summary = eigen_summary(stack)
+    assert np.isfinite(summary["least_damping_ratio"][0])
+    assert summary["least_damping_ratio"][0] == pytest.approx(5 * np.sqrt(1e-3))  # (R/2)√(C/L)
+    for key in ("least_damping_ratio", "ringing_frequency", "slowest_time_constant", "largest_real_part"):
+        assert np.isnan(summary[key][1]), key
+    assert np.all(np.isnan(summary["eigenvalues"][1]))
+
+
 def test_mode_rows_are_plain_numbers():
     L, C, R = 1e-3, 1e-6, 10.0
     rows = mode_rows(analyse_modes(series_rlc(R, L, C), SERIES_NAMES))
