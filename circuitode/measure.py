@@ -600,6 +600,17 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
         raise MeasurementError(
             f"figure {figure!r} has no option {', '.join(unknown)}; its options: {choices}"
         )
+    for name, value in options.items():
+        if value is None:
+            continue
+        try:
+            np.asarray(value, dtype=float)
+        except (TypeError, ValueError):
+            raise MeasurementError(f"option {name} of figure {figure!r} must be a number, got {value!r}") from None
+    try:
+        np.asarray(t, dtype=float), np.asarray(y, dtype=float)
+    except (TypeError, ValueError):
+        raise MeasurementError("time and signal must be arrays of numbers") from None
     return function(t, y, **options)
 
 

@@ -352,6 +352,8 @@ def test_figure_units():
         (lambda: m.mean([[0, 1, 2], [0, 1, 2]], [[0, 1, 0]] * 3), "do not fit"),
         (lambda: m.rise_time([0, 1], [0, 1], low=0.9, high=0.1), "reference levels"),
         (lambda: m.figure_unit("loudness", "V"), "unknown figure"),
+        (lambda: m.measure("settling_time", [0, 1], [0, 1], signal_unit="V", band="wide"), "must be a number"),
+        (lambda: m.measure("peak", [0, 1], ["a", "b"], signal_unit="V"), "arrays of numbers"),
     ],
 )
 def test_bad_input_gets_our_error(call, words):
