@@ -114,8 +114,11 @@ def figure_unit(figure: str, signal_unit: str) -> str:
 def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
     """Validated float arrays: ``t`` (nt,) shared by every signal, or ``t`` broadcast to
     ``y``'s shape when each signal has its own clock (a batch whose events differ)."""
-    t = np.asarray(t, dtype=float)
-    y = np.asarray(y, dtype=float)
+    try:
+        t = np.asarray(t, dtype=float)
+        y = np.asarray(y, dtype=float)
+    except (TypeError, ValueError):
+        raise MeasurementError("time and signal must be arrays of numbers") from None
     if t.ndim < 1 or t.shape[-1] < 2:
         raise MeasurementError(
             f"time must be an array of at least 2 instants along its last axis, got shape {t.shape}"
@@ -607,10 +610,6 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
             np.asarray(value, dtype=float)
         except (TypeError, ValueError):
             raise MeasurementError(f"option {name} of figure {figure!r} must be a number, got {value!r}") from None
-    try:
-        np.asarray(t, dtype=float), np.asarray(y, dtype=float)
-    except (TypeError, ValueError):
-        raise MeasurementError("time and signal must be arrays of numbers") from None
     return function(t, y, **options)
 
 

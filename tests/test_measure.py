@@ -354,6 +354,7 @@ def test_figure_units():
         (lambda: m.figure_unit("loudness", "V"), "unknown figure"),
         (lambda: m.measure("settling_time", [0, 1], [0, 1], signal_unit="V", band="wide"), "must be a number"),
         (lambda: m.measure("peak", [0, 1], ["a", "b"], signal_unit="V"), "arrays of numbers"),
+        (lambda: m.rms([0, 1], [[0, 1], [2]]), "arrays of numbers"),
     ],
 )
 def test_bad_input_gets_our_error(call, words):
