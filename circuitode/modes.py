@@ -268,6 +268,8 @@ def analyse_modes(
     if n == 0:
         return ()
     names = tuple(state_names)
+    if state_units is not None and len(state_units) != n:
+        raise ModeAnalysisError(f"{len(state_units)} state units given for a state matrix of {n} states")
     w, shares = _participation(A)
     kinds = _state_kinds(names, state_units)
     scale = max(float(np.linalg.norm(A, 1)), float(np.max(np.abs(w))))

@@ -251,6 +251,11 @@ def test_bad_matrices_get_our_error(A, names, words):
     assert isinstance(info.value, CircuitodeError)
 
 
+def test_mismatched_state_units_get_our_error():
+    with pytest.raises(ModeAnalysisError, match="state units"):
+        analyse_modes(series_rlc(1.0, 1e-3, 1e-6), SERIES_NAMES, state_units=("V",))
+
+
 def test_no_states_no_modes():
     assert analyse_modes(np.zeros((0, 0)), ()) == ()
 
