@@ -163,6 +163,27 @@ def test_participation_names_the_states_of_each_section():
     assert dict(slow.participation)["voltage across C2"] < 1e-12
 
 
+def test_two_overdamped_sections_are_paired_within_each_section():
+    # Two decoupled overdamped series RLC sections (states C1, C2, L1, L2): each pair of
+    # real roots must form one overdamped mode of its own section, with the section's
+    # ζ = (R/2)√(C/L) > 1 and ωn = 1/√(LC) (Nilsson & Riedel ch. 8).
+    names = ("voltage across C1", "voltage across C2", "current through L1", "current through L2")
+    sections = [(100.0, 1e-3, 1e-6), (9.0, 20e-6, 2e-6)]  # ζ ≈ 1.58 and 1.42
+    A = np.zeros((4, 4))
+    for idx, (R, L, C) in zip(([0, 2], [1, 3]), sections):
+        A[np.ix_(idx, idx)] = series_rlc(R, L, C)
+    zetas = [R / 2 * np.sqrt(C / L) for R, L, C in sections]
+    assert all(z > 1 for z in zetas)
+    modes = analyse_modes(A, names)
+    assert [m.kind for m in modes] == [OVERDAMPED, OVERDAMPED]
+    by_states = {frozenset(m.main_states()): m for m in modes}
+    first = by_states[frozenset({"voltage across C1", "current through L1"})]
+    second = by_states[frozenset({"voltage across C2", "current through L2"})]
+    assert first.damping_ratio == pytest.approx(zetas[0], rel=1e-9)
+    assert second.damping_ratio == pytest.approx(zetas[1], rel=1e-9)
+    assert first.natural_frequency == pytest.approx(1 / np.sqrt(1e-3 * 1e-6), rel=1e-9)
+
+
 def test_participation_does_not_depend_on_state_units():
     # Participation factors are invariant under a change of state scale (Pérez-Arriaga,
     # Verghese & Schweppe 1982, from memory): express the current in mA, x' = T x.
