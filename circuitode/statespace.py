@@ -164,6 +164,10 @@ def assemble(
     (nodes + capacitors + voltage sources + closed ideal switches); split very
     large batches into chunks.
 
+    A loop made only of closed ideal switches leaves the split of current among
+    them undetermined (the voltages are fine); the switch that closes the loop,
+    in file order, is given 0 A and the others carry the current.
+
     Examples
     --------
     An RC low-pass, 1 kΩ and 1 µF: A = −1/RC = −1000 1/s.
