@@ -241,6 +241,23 @@ def test_threshold_waits_while_the_quantity_sits_on_the_level(name):
     assert abs(w.events[0].time - t0) < 1e-9 * until
 
 
+def test_threshold_on_a_circuit_without_storage():
+    # Divider of two equal resistors on sin ωt: v_out = ½ sin ωt passes ¼ at ωt = π/6, i.e.
+    # t = 1/(12 f); then K (1 Ω) parallels R2, giving the divider 0.5/1.5 (Ohm's law, common practice).
+    f = 50.0
+    rule = ThresholdRule(closes=True, probe=NodeVoltage("out"), above=True, level=0.25)
+    c = Circuit("no storage", "gnd", (
+        VoltageSource("V1", "in", "gnd", Sine(amplitude=1.0, frequency=f)),
+        Resistor("R1", "in", "out", 1.0), Resistor("R2", "out", "gnd", 1.0),
+        Switch("K", "out", "gnd", rule, on_resistance=1.0)), records=(NodeVoltage("out"),))
+    w = simulate(c, until=0.04, points=81)
+    assert w.method == "exact" and w.states.shape == (w.t.size, 0)
+    assert abs(w.events[0].time - 1 / (12 * f)) < 1e-9 * 0.04
+    after = w.t > w.events[0].time
+    want = np.sin(2 * np.pi * f * w.t[after]) / 3
+    assert np.max(np.abs(w["voltage at out"][after] - want)) < 1e-12
+
+
 @pytest.mark.parametrize("name", ALL)
 def test_coupled_inductors_against_independent_model(name):
     # Coupled coils: [L1 M; M L2] d/dt [i1; i2] = [V − R1 i1; −R2 i2], M = k√(L1 L2)

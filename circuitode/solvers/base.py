@@ -93,16 +93,15 @@ class LinearSegment:
     def input_values(self, t: np.ndarray) -> np.ndarray:
         """Inputs at times ``t`` (nt,) → (nt, m); an empty input set gives (nt, 0).
 
-        Times are nudged inside the segment by 1e-12 of its length so that a jump
-        of a source exactly at ``t0`` or ``t1`` (a breakpoint) is seen from inside
-        (at least four ulps):
+        Times are nudged inside the segment by 64 ulps of the largest time so that a
+        jump of a source exactly at ``t0`` or ``t1`` (a breakpoint) is seen from inside:
         the value just after ``t0`` and just before ``t1``.
         """
         t = np.atleast_1d(np.asarray(t, dtype=float))
         if self.n_inputs == 0:
             return np.zeros((t.size, 0))
         span = self.t1 - self.t0
-        nudge = min(max(1e-12 * span, 4 * np.spacing(max(abs(self.t0), abs(self.t1)))), span / 4)
+        nudge = min(64 * np.finfo(float).eps * max(abs(self.t0), abs(self.t1), span), span / 4)
         t = np.clip(t, self.t0 + nudge, self.t1 - nudge)
         return np.asarray(self.inputs.values(t), dtype=float).reshape(t.size, self.n_inputs)
 
