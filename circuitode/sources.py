@@ -74,7 +74,9 @@ _LINE_H = np.array([1.0, 0.0])
 class LinearGenerator:
     """Exact autonomous linear model of a signal on one segment.
 
-    F : (m, m) array, 1/s.  z0 : (m,) state at the segment start.  H : (m,) output row.
+    F : (q, q) array, 1/s.  z0 : (q,) state at the segment start.  H : (q,) output
+    row for one waveform, or (m, q) for a :class:`SourceBank` of m inputs.
+    On the segment, ``u(t) = H @ expm(F (t - t0)) @ z0``.
     """
 
     F: np.ndarray
