@@ -111,7 +111,23 @@ class _Settings:
     initial: str
 
 
+def _number(value, what: str) -> float | None:
+    """``value`` as a float (None stays None), or our error naming the setting."""
+    if value is None:
+        return None
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise CircuitodeError(f"{what} must be a number, got {value!r}") from None
+    if not np.isfinite(number):
+        raise CircuitodeError(f"{what} must be a finite number, got {value!r}")
+    return number
+
+
 def _settings(circuit: Circuit, method, step, until, points, initial) -> _Settings:
+    if not isinstance(circuit, Circuit):
+        raise CircuitodeError(
+            f"simulate needs a Circuit (from circuitode.load), got {type(circuit).__name__}")
     a = circuit.analysis
     until = until if until is not None else (a.until if a is not None else None)
     if until is None:
@@ -121,9 +137,11 @@ def _settings(circuit: Circuit, method, step, until, points, initial) -> _Settin
     points = points if points is not None else (a.points if a is not None else None)
     method = method if method is not None else (a.method if a is not None else "auto")
     initial = initial if initial is not None else (a.initial if a is not None else "given")
-    if not (isinstance(until, (int, float)) and np.isfinite(until) and until > 0):
+    until, step, points = (_number(until, "the end time (until)"), _number(step, "the step"),
+                           _number(points, "points"))
+    if not until > 0:
         raise CircuitodeError(f"the transient end time must be a positive number of seconds, got {until!r}")
-    if step is not None and not (np.isfinite(step) and 0 < step <= until):
+    if step is not None and not (0 < step <= until):
         raise CircuitodeError(
             f"the step must be a positive time no longer than the window ({until:g} s), got {step!r}")
     if points is None:
@@ -292,6 +310,10 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     outside the stability region of any reachable configuration.
     """
     s = _settings(circuit, method, step, until, points, initial)
+    rtol, atol = _number(rtol, "rtol"), _number(atol, "atol")
+    if probes is not None and not all(hasattr(p, "label") and hasattr(p, "unit") for p in probes):
+        raise CircuitodeError("probes must be probe objects such as NodeVoltage('out') or "
+                              "CurrentThrough('R1'), not text")
     warnings = _verify(circuit, s.until)
     wanted = recorded_probes(circuit, probes)
     linear = _linear_probes(wanted)

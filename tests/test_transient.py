@@ -407,6 +407,14 @@ def test_unknown_method_and_bad_settings_are_refused():
         simulate(c, until=1e-3, points=1)
     with pytest.raises(CircuitodeError, match="step"):
         simulate(c, until=1e-3, step=-1.0)
+    with pytest.raises(CircuitodeError, match="until"):
+        simulate(c, until="soon")
+    with pytest.raises(CircuitodeError, match="rtol"):
+        simulate(c, until=1e-3, rtol="tight")
+    with pytest.raises(CircuitodeError, match="probe objects"):
+        simulate(c, until=1e-3, probes=["voltage at out"])
+    with pytest.raises(CircuitodeError, match="nowhere"):
+        simulate(c, until=1e-3, probes=[NodeVoltage("nowhere")])
 
 
 def test_default_records_and_csv_with_units(tmp_path):
