@@ -228,3 +228,42 @@ def test_edges_shorter_than_time_resolution_are_jumps():
         np.testing.assert_allclose(corners, [0.0] + ([0.5] if isinstance(wave, PulseTrain) else []))
         gen = wave.generator(0.0, 0.4)
         assert np.all(np.isfinite(gen.z0)) and gen.z0[0] == 1.0 and gen.z0[1] == 0.0
+
+
+def test_source_batch_equals_one_bank_per_sample():
+    # Each waveform is linear in its level fields (its definition), so the batch built from
+    # basis waveforms must equal a bank built per sample with those levels written in.
+    import dataclasses
+
+    from circuitode.source_batch import SourceBatch
+
+    waves = [Dc(48.0), PULSE, Sine(2.0, 3.0, phase=0.7, offset=0.25, delay=0.1),
+             Exponential(5.0, 5.0, delay=0.2, time_constant=0.15),
+             PiecewiseLinear((0.1, 0.3), (0.0, 5.0))]
+    bank = SourceBank(waves, ["pack", "drive", "hum", "surge", "ramp"])
+    rng = np.random.default_rng(11)
+    N = 5
+    varied = {("pack", "waveform.value"): 48.0 * rng.uniform(0.9, 1.1, N),
+              ("drive", "waveform.high"): rng.uniform(3, 5, N),
+              ("hum", "waveform.amplitude"): rng.uniform(1, 3, N),
+              ("surge", "waveform.initial"): rng.uniform(6, 9, N)}
+    batch = SourceBatch(bank, varied)
+    t = np.linspace(0.0, 0.012, 41)
+    got = batch.values(t)
+    assert got.shape == (N, 41, 5) and batch.values(0.01).shape == (N, 5)
+    corners = batch.breakpoints(0.0, 0.5)
+    assert 0.2 in corners  # the exponential's start, although its nominal levels are equal
+    for i in range(N):
+        per_field: dict[str, dict] = {}
+        for (name, field), arr in varied.items():
+            per_field.setdefault(name, {})[field.split(".")[1]] = arr[i]
+        single = SourceBank([dataclasses.replace(w, **per_field.get(n, {})) for w, n in zip(waves, bank.names)])
+        np.testing.assert_allclose(got[i], single.values(t), rtol=1e-13, atol=1e-12)
+        t0, t1 = 0.2, 0.3  # no corner of any input inside
+        gen, ref = batch.generators(t0, t1), single.generators(t0, t1)
+        np.testing.assert_allclose(gen.z0[i], ref.z0, rtol=1e-13, atol=1e-12)
+        np.testing.assert_array_equal(gen.F, ref.F)
+    from circuitode.sources import WaveformError
+
+    with pytest.raises(WaveformError, match="timing stays common"):
+        SourceBatch(bank, {("hum", "waveform.frequency"): np.ones(N)})
