@@ -4,7 +4,8 @@ Closed forms of the waveforms are those written in each class's docstring (the
 definitions of a step, ramp, trapezoidal pulse, sine and exponential are common
 practice).  The generator checks use the exact solution of z' = F z,
 z(t) = expm(F (t - t0)) z0 (Ogata "Modern Control Engineering" ch. 9, solution
-of the homogeneous state equation), computed independently with scipy.linalg.expm.
+of the homogeneous state equation; chapter number from memory), computed
+independently with scipy.linalg.expm.
 """
 from __future__ import annotations
 

@@ -1,6 +1,9 @@
 """Tests of the state-space assembly (modified nodal analysis of the companion network).
 
-Each reference names its source beside the check.
+Each reference names its source beside the check.  Chapter numbers of Nilsson &
+Riedel "Electric Circuits", Alexander & Sadiku "Fundamentals of Electric
+Circuits" and Nise "Control Systems Engineering" are from memory (they shift a
+little between editions); the formulas themselves are standard.
 """
 from __future__ import annotations
 
