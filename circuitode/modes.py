@@ -51,6 +51,14 @@ __all__ = [
     "circuit_modes",
     "mode_rows",
     "eigen_summary",
+    "UNDERDAMPED",
+    "UNDAMPED",
+    "GROWING_OSCILLATION",
+    "CRITICALLY_DAMPED",
+    "OVERDAMPED",
+    "APERIODIC",
+    "GROWING",
+    "INTEGRATING",
 ]
 
 UNDERDAMPED = "underdamped"
