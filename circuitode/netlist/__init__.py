@@ -5,7 +5,7 @@
 >>> c.element("R1").resistance
 4700.0
 """
-from .build import load, loads
+from .loader import load, loads
 from .quantities import format_si, parse_quantity, si_scale
 
 __all__ = ["load", "loads", "format_si", "parse_quantity", "si_scale"]

@@ -19,80 +19,20 @@ from .. import sources as src
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
-from .parse import (
-    CouplingStmt, ElementStmt, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt, RequireStmt,
-    SourceStmt, SwitchStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued, parse_text,
-)
 from .quantities import check_unit, parse_quantity, unit_phrase
+from .syntax import (
+    CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt,
+    ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued,
+)
+from .vocabulary import (
+    ELEMENT_UNITS, FIGURE_WORDS, METHOD_NAMES, TOGGLE_FIELDS, WAVEFORM_CLASSES, WAVEFORM_FIELDS,
+)
 
-__all__ = ["METHOD_NAMES", "WAVEFORM_FIELDS", "FIGURE_WORDS", "expand_includes", "build_circuit", "load", "loads"]
-
-#: Integrator names a `transient` statement may give (see circuit.Analysis).
-METHOD_NAMES = ("auto", "rk4", "rk45", "dop853", "radau", "bdf", "exact")
-
-#: Waveform kind → written field → (dataclass field, unit role, default or None when required).
-#: Unit roles: "signal" (V or A by source kind), "s", "Hz", "rad", "count".
-WAVEFORM_FIELDS: dict[str, dict[str, tuple[str, str, float | None]]] = {
-    "step": {"from": ("before", "signal", 0.0), "to": ("after", "signal", None), "at": ("at", "s", 0.0)},
-    "ramp": {"from": ("initial", "signal", 0.0), "to": ("final", "signal", None), "start": ("start", "s", 0.0),
-             "duration": ("duration", "s", None)},
-    "pulse": {"low": ("low", "signal", 0.0), "high": ("high", "signal", None), "delay": ("delay", "s", 0.0),
-              "rise": ("rise", "s", 0.0), "fall": ("fall", "s", 0.0), "width": ("width", "s", None),
-              "period": ("period", "s", None), "count": ("count", "count", math.inf)},
-    "sine": {"amplitude": ("amplitude", "signal", None), "frequency": ("frequency", "Hz", None),
-             "phase": ("phase", "rad", 0.0), "offset": ("offset", "signal", 0.0), "delay": ("delay", "s", 0.0)},
-    "exponential": {"from": ("initial", "signal", 0.0), "to": ("final", "signal", None),
-                    "delay": ("delay", "s", 0.0), "time_constant": ("time_constant", "s", None)},
-}
-_WAVEFORM_CLASSES = {"step": src.Step, "ramp": src.Ramp, "pulse": src.PulseTrain, "sine": src.Sine,
-                     "exponential": src.Exponential}
-_TOGGLE_FIELDS = {"period": ("period", "s", None), "duty": ("duty", "%", None), "start": ("start", "s", 0.0)}
-
-#: Written figure words → canonical names of circuit.FIGURES.
-FIGURE_WORDS = {
-    "peak": "peak", "minimum": "minimum", "final": "final", "overshoot": "overshoot", "undershoot": "undershoot",
-    "rise time": "rise_time", "settling time": "settling_time", "rms": "rms", "mean": "mean", "i2t": "i2t",
-    "I²t": "i2t", "energy": "energy", "max slope": "max_slope", "damping ratio": "damping_ratio",
-    "damped frequency": "damped_frequency",
-}
-_ELEMENT_UNITS = {
-    "resistor": ("Ω", "resistance", "a resistor's value", None),
-    "capacitor": ("F", "capacitance", "a capacitor's value", ("V", "initial_voltage", "a capacitor's initial voltage")),
-    "inductor": ("H", "inductance", "an inductor's value", ("A", "initial_current", "an inductor's initial current")),
-}
+__all__ = ["build_circuit", "METHOD_NAMES", "FIGURE_WORDS", "WAVEFORM_FIELDS"]
 
 
 def _located(err: NetlistError, where: Where | None) -> NetlistError:
     return err if err.where is not None else NetlistError(err.message, where, err.hint)
-
-
-def expand_includes(netlist: Netlist, base_dir: Path, chain: tuple[str, ...] = ()) -> list:
-    """The statements of ``netlist`` with every ``include`` replaced by the included file's statements.
-
-    Paths are relative to the including file's folder (``base_dir``).  ``chain``
-    holds the resolved paths of the files being included, to report cycles.
-    """
-    chain = chain or (netlist.file,)
-    out: list = []
-    for st in netlist.statements:
-        if not isinstance(st, IncludeStmt):
-            out.append(st)
-            continue
-        target = (base_dir / st.path).resolve()
-        if str(target) in chain:
-            names = [Path(c).name for c in chain[chain.index(str(target)):]] + [target.name]
-            raise NetlistError("files include each other in a circle: " + " includes ".join(names), st.where,
-                               "remove one of these include statements")
-        try:
-            text = target.read_text(encoding="utf-8")
-        except FileNotFoundError:
-            raise NetlistError(f"the included file '{st.path}' does not exist (looked for {target})", st.where,
-                               "paths are relative to the folder of the file that includes them") from None
-        except (OSError, UnicodeDecodeError) as err:
-            raise NetlistError(f"the included file '{st.path}' cannot be read: {err}", st.where) from None
-        sub = parse_text(text, str(target))
-        out.extend(expand_includes(sub, target.parent, chain + (str(target),)))
-    return out
 
 
 class _Builder:
@@ -278,7 +218,7 @@ class _Builder:
 
     def on_element(self, st: ElementStmt) -> None:
         self.declare(st.name, st.where)
-        unit, field, what, initial = _ELEMENT_UNITS[st.kind]
+        unit, field, what, initial = ELEMENT_UNITS[st.kind]
         value = self.value(st.value, unit, what, st.name, field)
         kwargs: dict[str, Any] = {field: value}
         if st.initial is not None:
@@ -358,7 +298,7 @@ class _Builder:
                                did_you_mean(spec.kind, ["dc", "pwl", *WAVEFORM_FIELDS]))
         kwargs = self.fields(spec.fields, WAVEFORM_FIELDS[spec.kind], st.name, "waveform.",
                              f"a {spec.kind} waveform", signal)
-        return _WAVEFORM_CLASSES[spec.kind](**kwargs)
+        return WAVEFORM_CLASSES[spec.kind](**kwargs)
 
     def on_switch(self, st: SwitchStmt) -> None:
         self.declare(st.name, st.where)
@@ -381,7 +321,7 @@ class _Builder:
             control = cm.TimedSchedule(initially_closed=not c.moves[0][0], changes=tuple(changes))
         elif isinstance(c, ToggleSpec):
             self._where = c.where
-            kw = self.fields(c.fields, _TOGGLE_FIELDS, st.name, "control.", "a toggling switch")
+            kw = self.fields(c.fields, TOGGLE_FIELDS, st.name, "control.", "a toggling switch")
             if not 0.0 < kw["duty"] < 1.0:
                 field = next(f for f in c.fields if f.name == "duty")
                 raise NetlistError("the duty must lie strictly between 0 % and 100 %", field.value.where,
@@ -568,41 +508,3 @@ def build_circuit(statements: list, overrides: Mapping[str, Any] | None = None,
     except RecursionError:
         raise NetlistError("an expression is nested too deeply to evaluate",
                            hint="split it into several parameters") from None
-
-
-def loads(text: str, filename: str = "<text>", overrides: Mapping[str, Any] | None = None) -> cm.Circuit:
-    """Parse and build netlist text. Includes are resolved relative to ``filename``'s folder
-    (the current folder for ``"<text>"``).
-
-    Raises
-    ------
-    NetlistError : for every mistake in the text, located and explained.
-    """
-    netlist = parse_text(text, filename)
-    is_path = not (filename.startswith("<") and filename.endswith(">"))
-    base = Path(filename).resolve().parent if is_path else Path.cwd()
-    chain = (str(Path(filename).resolve()),) if is_path else (filename,)
-    statements = expand_includes(netlist, base, chain)
-    return build_circuit(statements, overrides, filename if is_path else None)
-
-
-def load(path: str | Path, overrides: Mapping[str, Any] | None = None) -> cm.Circuit:
-    """Read, parse and build a ``.cnet`` file.
-
-    Parameters
-    ----------
-    path : the netlist file.
-    overrides : parameter name → new value (``"47 Ω"`` or an SI float), e.g. from ``--set``.
-
-    Raises
-    ------
-    NetlistError : when the file cannot be read, or for any mistake in it.
-    """
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise NetlistError(f"the netlist file '{path}' does not exist", hint="check the path") from None
-    except (OSError, UnicodeDecodeError) as err:
-        raise NetlistError(f"the netlist file '{path}' cannot be read: {err}") from None
-    return loads(text, str(path), overrides)

@@ -1,4 +1,4 @@
-"""Netlist text → syntax tree (dataclasses that remember where each part was written).
+"""Netlist text → syntax tree (see :mod:`.syntax`), with every failure in plain words.
 
 The grammar lives in ``grammar.lark`` (lark, LALR, contextual lexer).  Every
 lark failure is turned into a :class:`~circuitode.errors.NetlistError` with
@@ -8,230 +8,23 @@ lark's own class and terminal names never reach the user.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass, field
 from functools import lru_cache
 from importlib import resources
 
 from lark import Lark, Token, Transformer, v_args
-from lark.exceptions import LarkError, UnexpectedCharacters, UnexpectedInput, UnexpectedToken, VisitError
+from lark.exceptions import LarkError, UnexpectedInput, UnexpectedToken, VisitError
 
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
 from .quantities import read_quantity, split_unit
-
-__all__ = [
-    "Tolerance",
-    "Valued",
-    "Field",
-    "WaveformSpec",
-    "ProbeSpec",
-    "TimedSpec",
-    "ToggleSpec",
-    "ThresholdSpec",
-    "TitleStmt",
-    "IncludeStmt",
-    "ParamStmt",
-    "GroundStmt",
-    "ElementStmt",
-    "CouplingStmt",
-    "SourceStmt",
-    "SwitchStmt",
-    "TransientStmt",
-    "RecordStmt",
-    "RequireStmt",
-    "Netlist",
-    "STATEMENT_WORDS",
-    "parse_text",
-]
-
-# --------------------------------------------------------------------------
-# Syntax tree
-# --------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class Tolerance:
-    """``± 5 % uniform``: relative as a fraction (0.05), distribution "normal" or "uniform"."""
-
-    relative: float
-    distribution: str
-    where: Where
-
-
-@dataclass(frozen=True)
-class Valued:
-    """A written value: an expression, an optional tolerance, and where it starts."""
-
-    expr: ex.Expression
-    tolerance: Tolerance | None
-    where: Where
-
-
-@dataclass(frozen=True)
-class Field:
-    """A named field such as ``amplitude 325 V`` of a waveform or a toggling switch."""
-
-    name: str
-    value: Valued
-    where: Where
-
-
-@dataclass(frozen=True)
-class WaveformSpec:
-    """kind : "dc", "pwl" or the written kind word.  fields : named fields.  points : pwl pairs."""
-
-    kind: str
-    fields: tuple[Field, ...]
-    points: tuple[tuple[Valued, Valued], ...]
-    where: Where
-
-
-@dataclass(frozen=True)
-class ProbeSpec:
-    """kind : "at", "between", "across", "through" or "power".  names with their places."""
-
-    kind: str
-    names: tuple[str, ...]
-    wheres: tuple[Where, ...]
-    where: Where
-
-
-@dataclass(frozen=True)
-class TimedSpec:
-    """``closes at 1 ms opens at 4 ms``: (closes?, time, where) per move."""
-
-    moves: tuple[tuple[bool, Valued, Where], ...]
-
-
-@dataclass(frozen=True)
-class ToggleSpec:
-    """``toggles period 20 us duty 40 % start 0 s``."""
-
-    fields: tuple[Field, ...]
-    where: Where
-
-
-@dataclass(frozen=True)
-class ThresholdSpec:
-    """``closes when voltage at link > 43 V``."""
-
-    closes: bool
-    probe: ProbeSpec
-    comparison: str
-    level: Valued
-
-
-@dataclass(frozen=True)
-class TitleStmt:
-    title: str
-    where: Where
-
-
-@dataclass(frozen=True)
-class IncludeStmt:
-    path: str
-    where: Where
-
-
-@dataclass(frozen=True)
-class ParamStmt:
-    name: str
-    value: Valued
-    where: Where
-
-
-@dataclass(frozen=True)
-class GroundStmt:
-    node: str
-    where: Where
-
-
-@dataclass(frozen=True)
-class ElementStmt:
-    """resistor, capacitor or inductor."""
-
-    kind: str
-    name: str
-    first: str
-    second: str
-    value: Valued
-    initial: Valued | None
-    where: Where
-
-
-@dataclass(frozen=True)
-class CouplingStmt:
-    name: str
-    first: str
-    second: str
-    k: Valued
-    wheres: tuple[Where, Where]
-    where: Where
-
-
-@dataclass(frozen=True)
-class SourceStmt:
-    """kind : "voltage_source" or "current_source"."""
-
-    kind: str
-    name: str
-    first: str
-    second: str
-    waveform: WaveformSpec
-    where: Where
-
-
-@dataclass(frozen=True)
-class SwitchStmt:
-    name: str
-    first: str
-    second: str
-    control: TimedSpec | ToggleSpec | ThresholdSpec
-    on: Valued | None
-    off: Valued | None
-    where: Where
-
-
-@dataclass(frozen=True)
-class TransientStmt:
-    """settings : (word, Valued or str, where), word in until/step/points/method/initial."""
-
-    settings: tuple[tuple[str, object, Where], ...]
-    where: Where
-
-
-@dataclass(frozen=True)
-class RecordStmt:
-    probes: tuple[ProbeSpec, ...]
-    where: Where
-
-
-@dataclass(frozen=True)
-class RequireStmt:
-    """figure : the written figure words, normalised to single spaces ("settling time")."""
-
-    figure: str
-    probe: ProbeSpec
-    comparison: str
-    limit: Valued
-    where: Where
-
-
-Statement = (
-    TitleStmt | IncludeStmt | ParamStmt | GroundStmt | ElementStmt | CouplingStmt | SourceStmt | SwitchStmt
-    | TransientStmt | RecordStmt | RequireStmt
+from .syntax import (
+    CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt,
+    RequireStmt, SourceStmt, SwitchStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
+    TransientStmt, Valued, WaveformSpec,
 )
 
-
-@dataclass(frozen=True)
-class Netlist:
-    """One parsed file: its name, its lines and its statements in order (includes not expanded)."""
-
-    file: str
-    statements: tuple[Statement, ...]
-    lines: tuple[str, ...] = field(default=(), repr=False)
-
+__all__ = ["STATEMENT_WORDS", "parse_text"]
 
 # --------------------------------------------------------------------------
 # lark → syntax tree
