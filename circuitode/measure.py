@@ -626,8 +626,9 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
     {label: {figure: (value, unit)}} with :data:`STANDARD_FIGURES`, plus ``i2t`` for
     currents (unit "A") and ``energy`` for power signals (unit "W").  Values are
     numpy values (floats for a single run); figures that do not apply are NaN —
-    in particular the step figures (overshoot, rise and settling time) of a signal
-    that returns to where it began, such as an inrush current pulse.  Default options
+    in particular the step figures (overshoot, undershoot, rise and settling time)
+    of a signal that returns to where it began, such as an inrush current pulse,
+    or that has not settled by the end of the run (AC, still ringing).  Default options
     throughout: the time of peak is an instant on the run's clock, and the settling
     time counts from the start of the run (not from a later switching instant).
     """
@@ -641,7 +642,10 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
             figures.append("i2t")
         if unit == "W":
             figures.append("energy")
-        no_step = _is_pulse(y)
+        # Step figures need a step: a signal that moved and came back (an inrush
+        # pulse) or one that never settles (AC, still ringing) has no final state
+        # level to refer to, so its overshoot or rise time would mean nothing.
+        no_step = _is_pulse(y) | np.isnan(measure("settling_time", t, y, signal_unit=unit))
         row = {}
         for name in figures:
             value = measure(name, t, y, signal_unit=unit)

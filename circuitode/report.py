@@ -375,7 +375,10 @@ def modes_text(configurations: Sequence[Any], path: str | None = None, title: st
         out.append(f"  {'eigenvalue 1/s':<22}{'fn':>10}{'ζ':>8}{'Q':>8}{'τ':>10}  class")
         for m in cfg.modes:
             lam = m.eigenvalue
-            eig = f"{lam.real:.3g}" + (f" ± {abs(lam.imag):.3g}j" if lam.imag else "")
+            if lam.imag:
+                eig = f"{lam.real:.3g} ± {abs(lam.imag):.3g}j"
+            else:  # a first-order mode, or both real roots of an overdamped L–C section
+                eig = ", ".join(f"{complex(r).real:.3g}" for r in m.eigenvalues)
             zeta = "—" if math.isnan(m.damping_ratio) else f"{m.damping_ratio:.3f}"
             q = "∞" if math.isinf(m.quality_factor) else ("—" if math.isnan(m.quality_factor)
                                                           else f"{m.quality_factor:.3g}")
