@@ -27,7 +27,7 @@ from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method,
 from .sources import SourceBank
 from .statespace import StateSpaceCache, describe_configuration, initial_state
 
-__all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "recorded_probes"]
+__all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
 #: Output points when neither a step nor a number of points is given.
 DEFAULT_POINTS = 2001
