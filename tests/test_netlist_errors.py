@@ -73,6 +73,7 @@ CASES = [
     ("ground g\nvoltage_source V a -- g", 2, 24, r"ends too early; expected a waveform \(dc, step", None),
     ("param x = 4k7k", 1, 11, r"already holds its prefix", None),
     ("param v = 2 V\nparam x = 1 + (v - 2 A)", 2, 16, r"cannot subtract volts \(V\) and amperes \(A\)", None),
+    (BASE + "record voltage atb", 5, 16, r"'atb' is not a word of this statement", r"space after 'at'"),
 ]
 
 

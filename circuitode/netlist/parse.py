@@ -8,6 +8,7 @@ lark's own class and terminal names never reach the user.
 from __future__ import annotations
 
 import re
+from contextvars import ContextVar
 from functools import lru_cache
 from importlib import resources
 
@@ -31,10 +32,31 @@ __all__ = ["STATEMENT_WORDS", "parse_text"]
 # --------------------------------------------------------------------------
 
 
+#: (file, lines, text) of the text being parsed, for the keyword check below.
+_CURRENT: ContextVar[tuple[str, list[str], str]] = ContextVar("netlist_text")
+
+
+def _keyword_stands_alone(token: Token) -> Token:
+    """Refuse a keyword glued to the word after it ("voltage atlink"), which the lexer would split."""
+    file, lines, text = _CURRENT.get()
+    end = token.end_pos
+    if end is not None and end < len(text) and (text[end].isalnum() or text[end] == "_"):
+        glued = re.match(r"\w*", text[token.start_pos:]).group(0)
+        where = Where(file, token.line, token.column, lines[token.line - 1] if token.line <= len(lines) else "")
+        raise NetlistError(f"'{glued}' is not a word of this statement", where,
+                           f"put a space after '{token}' if '{text[end:end + len(glued) - len(token)]}' "
+                           "is meant to follow it")
+    return token
+
+
 @lru_cache(maxsize=1)
 def _parser() -> Lark:
     grammar = resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8")
-    return Lark(grammar, parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
+    options = dict(parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
+    plain = Lark(grammar, **options)
+    keywords = {t.name: _keyword_stands_alone for t in plain.terminals
+                if t.pattern.type == "str" and t.pattern.value.isidentifier()}
+    return Lark(grammar, lexer_callbacks=keywords, **options)
 
 
 class _ToTree(Transformer):
@@ -417,6 +439,7 @@ def parse_text(text: str, file: str = "<text>") -> Netlist:
     NetlistError : located at the first mistake, with what was expected.
     """
     lines = [line.rstrip("\r") for line in text.split("\n")]  # lark counts lines by "\n" only
+    _CURRENT.set((file, lines, text))
     try:
         tree = _parser().parse(text)
     except UnexpectedInput as err:
