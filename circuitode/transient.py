@@ -20,8 +20,8 @@ from typing import Sequence
 
 import numpy as np
 
-from .circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PowerIn, Switch,
-                      ThresholdRule, VoltageAcross)
+from .circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+                      PowerIn, Switch, ThresholdRule, VoltageAcross)
 from .errors import CircuitodeError
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from .sources import SourceBank
@@ -279,7 +279,13 @@ def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple
 def _threshold_reason(sw: Switch) -> str:
     rule = sw.control
     verb = "closes" if rule.closes else "opens"
-    return f"{sw.name} {verb} when {rule.probe.label} {'>' if rule.above else '<'} {rule.level:g}"
+    return (f"{sw.name} {verb} when {rule.probe.label} {'>' if rule.above else '<'} "
+            f"{rule.level:g} {rule.probe.unit}")
+
+
+def _schedule_reason(sw: Switch) -> str:
+    kind = "periodic" if isinstance(sw.control, PeriodicSchedule) else "timed"
+    return f"{sw.name} follows its {kind} schedule"
 
 
 def simulate(circuit: Circuit, *, method: str | None = None, step: float | None = None,
@@ -337,7 +343,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
         name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
     elif s.method == "auto":
         confs = _configurations_to_check(circuit, s.until, start, schedule)
-        name, reason = choose_method([e for _, e in _eigenvalue_sets(cache, [start] + confs)],
+        name, reason = choose_method([e for _, e in _eigenvalue_sets(cache, list(dict.fromkeys([start, *confs])))],
                                      True, s.step)
     else:
         name, reason = s.method, f"{s.method}: chosen by the user"
@@ -345,7 +351,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
                                 atol=atol, event_tol=EVENT_TOL_FRACTION * s.until)
     if integrator.fixed_step and n:
         confs = _configurations_to_check(circuit, s.until, start, schedule)
-        for conf, eig in _eigenvalue_sets(cache, [start] + confs):
+        for conf, eig in _eigenvalue_sets(cache, list(dict.fromkeys([start, *confs]))):
             check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
 
     # -- initial state ---------------------------------------------------
@@ -405,7 +411,8 @@ class _Run:
                 _, k, state = queue.pop(0)
                 if closed[k] != state:
                     u_b, u_a = self._inputs_around(t)
-                    closed = self.switch(t, x, u_b, u_a, closed, k, state, "scheduled")
+                    closed = self.switch(t, x, u_b, u_a, closed, k, state,
+                                         _schedule_reason(circuit.switches[k]))
             if t >= until - self.slack:
                 break
             t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
