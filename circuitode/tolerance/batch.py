@@ -29,7 +29,7 @@ from .store import ChunkStore, fingerprint_text
 
 __all__ = ["BatchResult", "run_batch", "run_chunk", "format_batch_summary", "batch_figure_keys"]
 
-_BYTES_PER_CHUNK = 128e6  # waveform memory a chunk may hold
+_BYTES_PER_CHUNK = 384e6  # waveform memory a chunk may hold (bytes)
 
 
 @dataclass
@@ -200,7 +200,10 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
     if min_yield is not None and not 0.0 <= float(min_yield) <= 1.0:
         raise CircuitodeError(f"--min-yield must be a fraction between 0 and 1, got {min_yield!r}")
-    overrides = list(tol_overrides or [])
+    if isinstance(tol_overrides, dict):
+        overrides = [f"{k}={v}" for k, v in tol_overrides.items()]
+    else:
+        overrides = list(tol_overrides or [])
     spreads = spreads_with_overrides(circuit, overrides)
     table = draw_samples(spreads, int(samples), sampler, int(seed))
     _check_supported(circuit, table.names)
@@ -210,7 +213,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     if chunk_size is None:
         from .engine import output_grid
 
-        per_sample = output_grid(circuit).size * (len(probes) + 2) * 8 * 3
+        per_sample = output_grid(circuit).size * (2 * len(probes) + 8) * 8
         chunk_size = int(max(16, min(4096, _BYTES_PER_CHUNK // max(per_sample, 1))))
     chunk_size = int(chunk_size)
     if chunk_size < 1:

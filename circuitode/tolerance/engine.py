@@ -202,16 +202,13 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
 
     p_all = len(all_rows)
     nt = t_grid.size
-    Y = np.empty((nt, N, p_all))
-    filled = np.zeros(nt, dtype=bool)
-    covered = np.zeros(nt, dtype=bool)
+    # each switching instant adds two rows (and replaces a grid instant it falls on)
+    record = _Record(N, nt + 2 * len(changes) + 2 * len(rules), p_all)
     y_end_before = None
-    extra_t: list[np.ndarray] = []   # per-sample extra instants, each (N,)
-    extra_y: list[np.ndarray] = []   # matching (N, p_all)
     event_times = np.full((N, len(rules)), np.nan)
-    # rows just before and just after each threshold switch acts: (N, k, p) each
-    event_rows = (np.full((N, len(rules), p_all), np.nan), np.full((N, len(rules), p_all), np.nan))
     tol = EVENT_TOL_FRACTION * until
+    levels = np.array([r.level for r in rules])
+    signs = np.array([1.0 if r.above else -1.0 for r in rules])
     queue = list(changes)
     n = x.shape[1]
 
@@ -235,8 +232,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
                 w0 = np.concatenate([x, np.broadcast_to(z0, (N, z0.size))], axis=1)
                 y_end_before = _matvec(_G_for(cache, key_of, tuple(timed), code,
                                               _Stepper(method, cache, H, F), ok, problems), w0)
-            extra_t.append(np.full(N, a))
-            extra_y.append(y_end_before)
+            record.all(a, y_end_before)
             for i, st in due:
                 timed[i] = st
         stepper = _Stepper(method, cache, H, F)
@@ -249,26 +245,22 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         G_cur = G_of(code)
         y_now = _matvec(G_cur, w)
         if due:
-            extra_t.append(np.full(N, a))
-            extra_y.append(y_now)
-        for slot in np.flatnonzero(np.abs(t_grid - a) <= slack):
-            if due:
-                covered[slot] = True  # the two rows of the switching instant stand for it
-            else:
-                Y[slot], filled[slot] = y_now, True
+            record.all(a, y_now)  # a grid instant here is stood for by the two rows
+        elif np.any(np.abs(t_grid - a) <= slack):
+            record.all(a, y_now)
         g_prev = _event_values(y_now, watch, rules)
 
         upper = (t_grid <= b + slack) if last else (t_grid < b - slack)
         inside = np.flatnonzero((t_grid > a + slack) & upper)
         stops = t_grid[inside]
-        record = inside
+        slots = inside
         if not last or stops.size == 0 or stops[-1] < b - slack:
             stops = np.append(stops, b)
-            record = np.append(record, -1)
+            slots = np.append(slots, -1)
         lengths = np.diff(np.concatenate([[a], stops]))
         phi_cur: dict = {}
         t_prev = a
-        for t_next, h, slot in zip(stops, lengths, record):
+        for t_next, h, slot in zip(stops, lengths, slots):
             h = float(h)
             if h not in phi_cur:
                 phi_cur[h] = _gather(stepper, timed_key, key_of, code, h)
@@ -276,30 +268,23 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             w = _matvec(phi_cur[h], w)
             y_now = _matvec(G_cur, w)
             if rules:
-                g_now = _event_values(y_now, watch, rules)
-                crossed = _crossings(g_prev, g_now, rules, code) & ok[:, None]
-                if crossed.any():
-                    w, y_now, code, G_cur, g_now = _handle_events(
-                        stepper, timed_key, key_of, code, crossed, w_prev, w, y_now, g_now,
-                        t_prev, h, tol, rules, watch, G_of, G_cur, event_times, event_rows)
-                    phi_cur = {}
+                g_now = (y_now[:, watch] - levels) * signs
+                turned = (g_prev < 0.0) & (g_now >= 0.0)
+                if turned.any() and (crossed := turned & _pending(code, len(rules)) & ok[:, None]).any():
+                    _handle_events(stepper, timed_key, key_of, code, crossed, w_prev, w, y_now,
+                                   g_now, t_prev, h, tol, rules, watch, G_cur, phi_cur,
+                                   event_times, record)
                 g_prev = g_now
             if slot >= 0:
-                Y[slot], filled[slot] = y_now, True
+                record.all(t_grid[slot], y_now)
             t_prev = float(t_next)
         x = w[:, :n]
         y_end_before = y_now
-    if not np.all(filled | covered):
-        raise CircuitodeError("internal: the batched engine left output instants unfilled")
-    t_grid, Y = t_grid[filled], Y[filled]
-    bad = ~np.all(np.isfinite(Y), axis=(0, 2))
+    t_all, y_all = record.finish()
+    bad = ~np.all(np.isfinite(y_all), axis=(1, 2))  # (N,)
     for i in np.flatnonzero(bad & ok):
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
-    for j in range(len(rules)):
-        extra_t += [event_times[:, j], event_times[:, j]]
-        extra_y += [event_rows[0][:, j], event_rows[1][:, j]]
-    t_all, y_all = _merge(t_grid, Y, extra_t, extra_y)
     y_out = _recipe_rows(y_all, recipe)
     return ChunkWaves(t_all, y_out, ok, problems, event_times)
 
@@ -348,28 +333,32 @@ def _gather(stepper, timed_key, key_of, code, h):
 
 
 def _event_values(y: np.ndarray, watch, rules) -> np.ndarray:
-    """(N, k) g = watched − level."""
+    """(N, k) signed distance to each threshold: (watched − level) for "above",
+    (level − watched) for "below", so the condition is met where it is ≥ 0."""
     if not rules:
         return np.zeros((y.shape[0], 0))
-    return y[:, watch] - np.array([r.level for r in rules])[None, :]
+    sign = np.array([1.0 if r.above else -1.0 for r in rules])
+    return (y[:, watch] - np.array([r.level for r in rules])[None, :]) * sign
 
 
-def _met(g: np.ndarray, rules) -> np.ndarray:
-    above = np.array([r.above for r in rules], dtype=bool)[None, :]
-    return np.where(above, g >= 0.0, g <= 0.0)
+def _pending(code: np.ndarray, k: int) -> np.ndarray:
+    """(N, k) True where threshold switch j has not acted yet."""
+    return ((code[:, None] >> np.arange(k)[None, :]) & 1) == 0
 
 
 def _crossings(g_prev, g_now, rules, code) -> np.ndarray:
     """(N, k) True where threshold j turned from unmet to met and has not acted yet."""
     pending = ((code[:, None] >> np.arange(len(rules))[None, :]) & 1) == 0
-    return pending & ~_met(g_prev, rules) & _met(g_now, rules)
+    return pending & (g_prev < 0.0) & (g_now >= 0.0)
 
 
 def _handle_events(stepper, timed_key, key_of, code, crossed, w_prev, w, y_now, g_now, t_prev, h,
-                   tol, rules, watch, G_of, G_cur, event_times, event_rows):
-    """Locate, switch and finish the step for every sample with a crossing (vectorised)."""
-    N = w.shape[0]
-    w, y_now, g_now, code = w.copy(), y_now.copy(), g_now.copy(), code.copy()
+                   tol, rules, watch, G_cur, phi_cur, event_times, record):
+    """Locate, switch and finish the step for every sample with a crossing (vectorised).
+
+    Updates ``w``, ``y_now``, ``g_now``, ``code``, ``G_cur`` and the per-sample step
+    matrices ``phi_cur`` in place, touching only the rows of the samples that switch.
+    """
     idx = np.flatnonzero(crossed.any(axis=1))
     start = np.zeros(idx.size)  # offset of the sub-interval start from t_prev
     w_start = w_prev[idx]
@@ -383,11 +372,13 @@ def _handle_events(stepper, timed_key, key_of, code, crossed, w_prev, w, y_now, 
         y_before = _matvec(G, w_e)
         code[idx] |= (1 << which)
         event_times[idx, which] = t_prev + tau
-        G_cur = G_of(code)
-        G_new = G_cur[idx]
+        G_new = _rows_G(stepper, timed_key, key_of, code, idx)
+        G_cur[idx] = G_new
+        for length, phi in phi_cur.items():
+            phi[idx] = _rows_phi(stepper, timed_key, key_of, code, idx, length)
         y_after = _matvec(G_new, w_e)
-        event_rows[0][idx, which] = y_before
-        event_rows[1][idx, which] = y_after
+        record.some(idx, t_prev + tau, y_before)
+        record.some(idx, t_prev + tau, y_after)
         M_new = _rows_M(stepper, timed_key, key_of, code, idx)
         w_end = _matvec(stepper.propagate(M_new, h - tau), w_e)
         y_end = _matvec(G_new, w_end)
@@ -398,7 +389,28 @@ def _handle_events(stepper, timed_key, key_of, code, crossed, w_prev, w, y_now, 
         again = _crossings(g_after, g_end, rules, code[idx])
         more = again.any(axis=1) & (tau < h)
         idx, start, w_start, remaining_cross = idx[more], tau[more], w_e[more], again[more]
-    return w, y_now, code, G_cur, g_now
+
+
+def _rows_G(stepper, timed_key, key_of, code, idx):
+    out = None
+    sub = code[idx]
+    for c in np.unique(sub):
+        _, G = stepper.matrices(key_of(timed_key, int(c)))
+        out = np.empty((idx.size,) + G.shape[1:]) if out is None else out
+        sel = sub == c
+        out[sel] = G[idx[sel]]
+    return out
+
+
+def _rows_phi(stepper, timed_key, key_of, code, idx, length):
+    out = None
+    sub = code[idx]
+    for c in np.unique(sub):
+        phi = stepper.step(key_of(timed_key, int(c)), length)
+        out = np.empty((idx.size,) + phi.shape[1:]) if out is None else out
+        sel = sub == c
+        out[sel] = phi[idx[sel]]
+    return out
 
 
 def _rows_M(stepper, timed_key, key_of, code, idx):
@@ -458,33 +470,63 @@ def _locate(stepper, M, G, w_start, start, h, crossed, rules, watch, tol):
     return best_tau, best_j
 
 
-def _merge(t_grid, Y, extra_t, extra_y):
-    """Per-sample time axes: the grid plus extra instants (NaN extras pushed to the end
-    as copies of the last point), sorted stably per sample."""
-    nt, N, p = Y.shape
-    t = np.broadcast_to(t_grid[None, :], (N, nt))
-    y = np.transpose(Y, (1, 2, 0))  # (N, p, nt)
-    if not extra_t:
-        return np.ascontiguousarray(t), np.ascontiguousarray(y)
-    et = np.stack(extra_t, axis=1)  # (N, e)
-    ey = np.stack(extra_y, axis=2)  # (N, p, e)
-    missing = np.isnan(et)
-    et = np.where(missing, t_grid[-1], et)
-    ey = np.where(missing[:, None, :], y[:, :, -1:], ey)
-    t_full = np.concatenate([t, et], axis=1)
-    y_full = np.concatenate([y, ey], axis=2)
-    # grid points first among equal instants, extras in insertion order
-    if np.all(et == et[:1]):  # the same instants for every sample: one order for all
-        order = np.broadcast_to(np.argsort(t_full[0], kind="stable"), t_full.shape)
-        return t_full[:, order[0]], y_full[:, :, order[0]]
-    order = np.argsort(t_full, axis=1, kind="stable")
-    t_sorted = np.take_along_axis(t_full, order, axis=1)
-    y_sorted = np.take_along_axis(y_full, order[:, None, :], axis=2)
-    return t_sorted, y_sorted
+class _Record:
+    """Each sample's recorded rows in time order, written as the run goes.
+
+    t : (N, capacity) s, y : (N, p, capacity) (time last, as the figures want it).  While every sample has written the
+    same number of rows, rows go to one shared column; once a threshold switch has
+    given some samples extra rows, each sample writes at its own cursor.
+    """
+
+    def __init__(self, N: int, capacity: int, p: int):
+        self.t = np.empty((N, capacity))
+        self.y = np.empty((N, p, capacity))
+        self.rows = np.arange(N)
+        self.cursor = np.zeros(N, dtype=np.int64)
+        self.common = 0
+        self.uniform = True
+
+    def all(self, t: float, y: np.ndarray) -> None:
+        """One row (N, p) at instant t for every sample."""
+        if self.uniform:
+            self.t[:, self.common] = t
+            self.y[:, :, self.common] = y
+            self.common += 1
+        else:
+            self.t[self.rows, self.cursor] = t
+            self.y[self.rows, :, self.cursor] = y
+            self.cursor += 1
+
+    def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray) -> None:
+        """Rows (len(idx), p) at instants t (len(idx),) for samples idx only."""
+        if self.uniform:
+            self.cursor[:] = self.common
+            self.uniform = False
+        self.t[idx, self.cursor[idx]] = t
+        self.y[idx, :, self.cursor[idx]] = y
+        self.cursor[idx] += 1
+
+    def finish(self) -> tuple[np.ndarray, np.ndarray]:
+        """t (N, L), y (N, p, L); a sample with fewer rows is padded with copies of its
+        last row (a zero-length stretch at the end, which changes no figure)."""
+        if self.uniform:
+            return self.t[:, : self.common], self.y[:, :, : self.common]
+        L = int(self.cursor.max())
+        last = self.cursor - 1
+        t_last, y_last = self.t[self.rows, last], self.y[self.rows, :, last]
+        for j in range(int(self.cursor.min()), L):  # at most a few columns
+            short = self.cursor <= j
+            self.t[short, j] = t_last[short]
+            self.y[short, :, j] = y_last[short]
+        return self.t[:, :L], self.y[:, :, :L]
 
 
 def _recipe_rows(y: np.ndarray, recipe) -> np.ndarray:
+    """(N, p_all, L) assembled rows → (N, P, L) recorded signals (products for power)."""
     out = np.empty((y.shape[0], len(recipe), y.shape[2]))
     for i, r in enumerate(recipe):
-        out[:, i] = y[:, r[1]] if r[0] == "row" else y[:, r[1]] * y[:, r[2]]
+        if r[0] == "row":
+            out[:, i] = y[:, r[1]]
+        else:
+            np.multiply(y[:, r[1]], y[:, r[2]], out=out[:, i])
     return out
