@@ -394,7 +394,7 @@ def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistE
         close = did_you_mean(word, keywords)
         if close.startswith("did you mean"):
             return NetlistError(f"unexpected '{word}'; expected {wanted}", where, close)
-    number = re.search(r"[\d.]+$", before)
+    number = re.search(r"(?<![\w.])[\d.]+$", before)
     if number and rest[:1] in ".0123456789":
         shown = number.group(0) + re.match(r"[\w.]*", rest).group(0)
         return NetlistError(f"'{shown}' is not a number", Where(file, line, number.start() + 1, text),
