@@ -327,9 +327,13 @@ def _describe(expected: set[str]) -> tuple[str, list[str]]:
     if "NAME" in names and {"dc", "pwl"} <= set(literals.values()):
         words.append("a waveform (dc, step, ramp, pulse, sine, exponential or pwl)")
         names -= {"NAME"} | {n for n, lit in literals.items() if lit in ("dc", "pwl")}
-    if {n for n, lit in literals.items() if lit in _OPERATORS} and "UNIT" in names:
+    operators = {n for n, lit in literals.items() if lit in _OPERATORS}
+    if operators and "UNIT" in names:
         words.append("a unit or an operator (+ - * / ^)")
-        names -= {"UNIT"} | {n for n, lit in literals.items() if lit in _OPERATORS}
+        names -= {"UNIT"} | operators
+    elif len(operators & names) >= 3:
+        words.append("an operator (+ - * / ^)")
+        names -= operators
     for name in sorted(names, key=lambda n: (n.startswith("_") or n.startswith("$"), n)):
         lit = literals.get(name)
         if lit == "--":
@@ -414,8 +418,9 @@ def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistE
         return NetlistError(f"unexpected character '{rest[0]}'", where,
                             "remove it; see docs/language.md for the characters a statement may use")
     shown = word or rest[:1]
-    if token_type is None and len(wanted.split(", ")) > 4:  # the lexer's list is too broad to help
-        return NetlistError(f"unexpected '{shown}'", where, "check the spelling and the order of the words")
+    if len(wanted.split(", ")) > 4:  # a list this long (merged parser states) would not help
+        return NetlistError(f"unexpected '{shown}' here", where,
+                            "check the spelling and the order of the words against docs/language.md")
     return NetlistError(f"unexpected '{shown}'; expected {wanted}", where)
 
 
