@@ -288,6 +288,27 @@ def _schedule_reason(sw: Switch) -> str:
     return f"{sw.name} follows its {kind} schedule"
 
 
+def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, atol):
+    """(integrator, name, reason); for rk4, the step is first checked against every
+    configuration the run may reach."""
+    rk4_step = s.step if s.step is not None else s.until / (s.points - 1)
+    if n == 0:
+        name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
+    elif s.method == "auto":
+        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until, start, schedule)]))
+        eigenvalues = [e for _, e in _eigenvalue_sets(cache, confs)]
+        name, reason = choose_method(eigenvalues, True, s.step)
+    else:
+        name, reason = s.method, f"{s.method}: chosen by the user"
+    integrator = get_integrator(name, step=rk4_step if name == "rk4" else None, rtol=rtol,
+                                atol=atol, event_tol=EVENT_TOL_FRACTION * s.until)
+    if integrator.fixed_step and n:
+        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until, start, schedule)]))
+        for conf, eig in _eigenvalue_sets(cache, confs):
+            check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
+    return integrator, name, reason
+
+
 def simulate(circuit: Circuit, *, method: str | None = None, step: float | None = None,
              until: float | None = None, points: int | None = None, initial: str | None = None,
              rtol: float = 1e-6, atol: float = 1e-9, probes: Sequence | None = None) -> Waveforms:
@@ -337,22 +358,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     ss0 = cache.get(start)
     n = ss0.n_states
 
-    # -- method ----------------------------------------------------------
-    rk4_step = s.step if s.step is not None else s.until / (s.points - 1)
-    if n == 0:
-        name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
-    elif s.method == "auto":
-        confs = _configurations_to_check(circuit, s.until, start, schedule)
-        name, reason = choose_method([e for _, e in _eigenvalue_sets(cache, list(dict.fromkeys([start, *confs])))],
-                                     True, s.step)
-    else:
-        name, reason = s.method, f"{s.method}: chosen by the user"
-    integrator = get_integrator(name, step=rk4_step if name == "rk4" else None, rtol=rtol,
-                                atol=atol, event_tol=EVENT_TOL_FRACTION * s.until)
-    if integrator.fixed_step and n:
-        confs = _configurations_to_check(circuit, s.until, start, schedule)
-        for conf, eig in _eigenvalue_sets(cache, list(dict.fromkeys([start, *confs]))):
-            check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
+    integrator, name, reason = _pick_integrator(circuit, cache, s, start, schedule, n, rtol, atol)
 
     # -- initial state ---------------------------------------------------
     u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)

@@ -14,8 +14,7 @@ from scipy.integrate import simpson
 
 from circuitode.circuit import (Analysis, Capacitor, Circuit, Coupling, CurrentSource,
                                 CurrentThrough, Inductor, NodeVoltage, PowerIn, Resistor,
-                                Switch, ThresholdRule, TimedSchedule, VoltageAcross,
-                                VoltageSource)
+                                Switch, ThresholdRule, TimedSchedule, VoltageSource)
 from circuitode.errors import CircuitodeError, UnstableStepError
 from circuitode.sources import Dc, Sine, Step
 from circuitode.transient import Waveforms, simulate

@@ -17,8 +17,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..errors import UnstableStepError
-from .base import (Integrator, LinearEvent, LinearSegment, SegmentResult, event_values,
-                   first_crossing)
+from .base import Integrator, LinearSegment, SegmentResult, event_values, first_crossing
 
 __all__ = ["RK4", "rk4_stability_limit", "check_rk4_step", "rk4_step_grid"]
 
