@@ -335,6 +335,20 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     CircuitodeError (exit code 2) for bad settings, TopologyError for a circuit
     that cannot be simulated, UnstableStepError (exit code 3) for an rk4 step
     outside the stability region of any reachable configuration.
+
+    Examples
+    --------
+    >>> from circuitode.circuit import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
+    >>> from circuitode.sources import Dc
+    >>> rc = Circuit("rc", "gnd", (VoltageSource("V1", "in", "gnd", Dc(10.0)),
+    ...                            Resistor("R1", "in", "out", 1e3),
+    ...                            Capacitor("C1", "out", "gnd", 1e-6)),
+    ...              records=(NodeVoltage("out"),))
+    >>> w = simulate(rc, until=1e-3, points=11, initial="rest")
+    >>> round(float(w["voltage at out"][-1]), 4)     # 10 V (1 − 1/e) after one RC
+    6.3212
+    >>> w.method
+    'exact'
     """
     s = _settings(circuit, method, step, until, points, initial)
     rtol, atol = _number(rtol, "rtol"), _number(atol, "atol")

@@ -384,3 +384,14 @@ def test_large_sparse_jacobian_is_handed_over_sparse():
         res = get_integrator(name, rtol=1e-8, atol=1e-12).solve(seg, [1e-2])
         ref = get_integrator("exact").solve(seg, [1e-2])
         assert np.max(np.abs(res.x_end - ref.x_end)) < 1e-5
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    import circuitode.solvers as package
+    from circuitode.solvers import auto, rk4
+
+    for module in (package, auto, rk4):
+        result = doctest.testmod(module)
+        assert result.failed == 0 and result.attempted > 0, module.__name__

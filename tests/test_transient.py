@@ -436,3 +436,12 @@ def test_default_records_and_csv_with_units(tmp_path):
     assert data.shape == (11, 6) and np.allclose(data[:, 0], w.t)
     with pytest.raises(CircuitodeError, match="recorded"):
         w["voltage at nowhere"]
+
+
+def test_docstring_examples_run():
+    import doctest
+
+    import circuitode.transient as module
+
+    result = doctest.testmod(module)
+    assert result.failed == 0 and result.attempted > 0

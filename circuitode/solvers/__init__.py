@@ -49,6 +49,15 @@ def get_integrator(name: str, *, step: float | None = None, rtol: float = 1e-6,
     ------
     CircuitodeError
         for an unknown name (listing the valid ones) or a fixed-step method without a step.
+
+    Examples
+    --------
+    >>> get_integrator("radau").stiff
+    True
+    >>> get_integrator("euler")
+    Traceback (most recent call last):
+    ...
+    circuitode.errors.CircuitodeError: unknown method 'euler'; choose one of: bdf, dop853, exact, radau, rk4, rk45 (or auto)
     """
     key = str(name).strip().lower()
     if key not in METHODS:

@@ -52,6 +52,13 @@ def choose_method(eigenvalue_sets: Iterable, inputs_generable: bool = True,
     Returns
     -------
     (name, reason) : a key of ``METHODS`` and one sentence naming the figures used.
+
+    Examples
+    --------
+    >>> choose_method([[-1e6, -10.0]], True)[0]
+    'exact'
+    >>> choose_method([[-1e6, -10.0]], False)[0]
+    'radau'
     """
     sets = [np.asarray(s, dtype=complex).reshape(-1) for s in eigenvalue_sets]
     n_max = max((s.size for s in sets), default=0)

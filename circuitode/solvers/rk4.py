@@ -46,6 +46,13 @@ def rk4_stability_limit(eigenvalues) -> float:
     Returns
     -------
     float, s; ``inf`` when nothing limits the step.
+
+    Examples
+    --------
+    >>> round(rk4_stability_limit([-1.0]), 6)        # reach on the negative real axis
+    2.785294
+    >>> round(rk4_stability_limit([1j, -1j]), 6)     # 2√2 on the imaginary axis
+    2.828427
     """
     lam = np.asarray(eigenvalues, dtype=complex).reshape(-1)
     mag = np.abs(lam)
