@@ -445,3 +445,51 @@ def test_docstring_examples_run():
 
     result = doctest.testmod(module)
     assert result.failed == 0 and result.attempted > 0
+
+
+def test_large_ladder_gets_a_stiff_method_that_agrees_with_exact():
+    # An RC ladder of 401 sections is past EXACT_MAX_STATES and stiff (its slowest and fastest
+    # modes differ by ~1e5, common practice for diffusion-like ladders), so auto picks bdf.
+    sections = 401
+    elements = [VoltageSource("V1", "n0", "gnd", Dc(1.0))]
+    for k in range(sections):
+        elements += [Resistor(f"R{k}", f"n{k}", f"n{k + 1}", 1.0),
+                     Capacitor(f"C{k}", f"n{k + 1}", "gnd", 1e-6)]
+    c = Circuit("ladder", "gnd", tuple(elements), records=(NodeVoltage("n10"), NodeVoltage("n401")))
+    auto = simulate(c, until=2e-2, points=11, initial="rest", rtol=1e-8, atol=1e-12)
+    exact = simulate(c, method="exact", until=2e-2, points=11, initial="rest")
+    assert auto.method == "bdf" and "more than 400 states" in auto.method_reason
+    for label in ("voltage at n10", "voltage at n401"):
+        assert np.max(np.abs(auto[label] - exact[label])) < 1e-6
+    # the far end of a diffusive ladder lags the near end (common practice)
+    assert 0 < exact["voltage at n401"][-1] < exact["voltage at n10"][-1] < 1
+
+
+@pytest.mark.parametrize("name", ["exact", "rk45", "radau"])
+def test_stored_energy_never_grows_without_a_source(name):
+    # A passive RLC network left to itself only loses energy to its resistors
+    # (Desoer & Kuh, Basic Circuit Theory, ch. 9 on passivity): ½CV² + ½LI² is non-increasing.
+    c = Circuit("free", "gnd", (
+        Capacitor("C1", "a", "gnd", 2e-6, initial_voltage=10.0),
+        Resistor("R1", "a", "b", 5.0),
+        Inductor("L1", "b", "gnd", 1e-3, initial_current=-0.5),
+        Resistor("R2", "a", "gnd", 200.0),
+    ))
+    w = simulate(c, method=name, until=3e-3, points=301, rtol=1e-10, atol=1e-13)
+    v, i = w.states.T
+    energy = 0.5 * 2e-6 * v**2 + 0.5 * 1e-3 * i**2
+    assert np.all(np.diff(energy) <= 1e-9 * energy[0])
+    assert energy[-1] < 0.01 * energy[0]
+
+
+def test_work_counters_stay_small_for_exact_with_a_threshold():
+    # Ceiling on work (diffrax-style structural check): one exponential per segment and step
+    # length, plus the root finder's evaluations for the one threshold instant.
+    R, C, V = 2.2e3, 4.7e-6, 48.0
+    rule = ThresholdRule(closes=True, probe=NodeVoltage("out"), above=True, level=43.0)
+    c = rc_circuit(R, C, V, Switch("K", "out", "x", rule), Resistor("R2", "x", "gnd", 100.0),
+                   records=(NodeVoltage("out"),))
+    w = simulate(c, method="exact", until=40e-3, step=1e-5, initial="rest")
+    assert w.counters["segments"] == 2
+    assert w.counters["expm_calls"] <= 4 + 60
+    assert w.t.size == 4001 + 2  # the grid plus the two rows at the switching instant
