@@ -54,6 +54,39 @@ record voltage at link, current through R1, current through K_main, power in R1
 """
 
 
+ALREADY_MET_AT_START = """
+circuit "bypass whose condition holds from the start"
+param R_pre  = 10 Ω ± 5 %
+param C_link = 1.5 mF ± 20 % uniform
+ground gnd
+voltage_source pack   pack -- gnd    dc 48 V
+resistor  R_int   pack -- a       25 mΩ
+resistor  R1      a -- link       R_pre
+switch    K_main  a -- link       closes when voltage at link > 3 V  on 2 mΩ
+capacitor C1      link -- gnd     C_link  initial 5 V
+resistor  R_load  link -- gnd     2.2 kΩ
+transient until 5 ms step 25 us method exact initial given
+record voltage at link, current through R1, current through K_main
+"""
+
+CASCADE = """
+circuit "two bypass stages, the second triggered by the first one's current"
+param R_pre  = 10 Ω ± 5 %
+param C_link = 1.5 mF ± 20 % uniform
+ground gnd
+voltage_source pack   pack -- gnd    dc 48 V
+resistor  R_int   pack -- a       25 mΩ
+resistor  R1      a -- link       R_pre
+switch    K_a     a -- m          closes when voltage at link > 30 V  on 1 Ω
+resistor  R_m     m -- link       1 Ω
+switch    K_b     a -- link       closes when current through K_a > 5 A  on 2 mΩ
+capacitor C1      link -- gnd     C_link  initial 0 V
+resistor  R_load  link -- gnd     2.2 kΩ
+transient until 40 ms step 25 us method exact initial given
+record voltage at link, current through R1, current through K_b
+"""
+
+
 def _batch_and_reference(text, n=50, seed=11):
     circuit = loads(text)
     table = draw_samples(spreads_with_overrides(circuit), n, "mc", seed)
@@ -97,6 +130,14 @@ def test_fifty_samples_equal_single_runs_with_a_threshold_switch():
     # every sample's bypass closed, at its own instant (later for a larger R·C)
     t_peak = res["figures"][:, keys.index(("time_of_peak", "current through K_main"))]
     assert np.ptp(t_peak) > 1e-3
+
+
+@pytest.mark.parametrize("text, window", [(ALREADY_MET_AT_START, 5e-3), (CASCADE, 40e-3)])
+def test_thresholds_met_at_once_act_at_once_as_in_the_single_run(text, window):
+    # a condition already strictly met when a stretch begins (or the instant another
+    # switch acts) makes the switch act at that instant, with two rows recorded
+    res, ref, keys, ptv = _batch_and_reference(text, n=12)
+    _assert_agree(res, ref, keys, ptv, window=window)
 
 
 def test_threshold_instants_equal_the_single_run_events():

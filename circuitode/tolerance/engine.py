@@ -246,8 +246,15 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         y_now = _matvec(G_cur, w)
         if due:
             record.all(a, y_now)  # a grid instant here is stood for by the two rows
-        elif np.any(np.abs(t_grid - a) <= slack):
-            record.all(a, y_now)
+        # a threshold already strictly met at the start of a stretch acts at once
+        # (as in the single run); those samples' two rows stand for a grid instant here
+        fired_now = _fire_at_start(a, w, y_now, code, ok, rules, watch, G_cur, record,
+                                   event_times, lambda idx: _rows_G(stepper, timed_key, key_of, code, idx))
+        if not due and np.any(np.abs(t_grid - a) <= slack):
+            if fired_now.any():
+                record.some(np.flatnonzero(~fired_now), a, y_now[~fired_now])
+            else:
+                record.all(a, y_now)
         g_prev = _event_values(y_now, watch, rules)
 
         upper = (t_grid <= b + slack) if last else (t_grid < b - slack)
@@ -341,6 +348,29 @@ def _event_values(y: np.ndarray, watch, rules) -> np.ndarray:
     return (y[:, watch] - np.array([r.level for r in rules])[None, :]) * sign
 
 
+def _fire_at_start(a, w, y_now, code, ok, rules, watch, G_cur, record, event_times, rows_G):
+    """Switch, at instant a, every sample whose pending threshold is already strictly met
+    (repeatedly, for a cascade).  Updates code, G_cur and y_now in place; records the rows
+    just before and after.  Returns (N,) bool: the samples that switched."""
+    fired = np.zeros(code.size, dtype=bool)
+    if not rules:
+        return fired
+    while True:
+        g = _event_values(y_now, watch, rules)
+        met = _pending(code, len(rules)) & (g > 0.0) & ok[:, None]
+        idx = np.flatnonzero(met.any(axis=1))
+        if idx.size == 0:
+            return fired
+        which = np.argmax(met[idx], axis=1)  # the first switch in file order acts first
+        record.some(idx, np.full(idx.size, a), y_now[idx])
+        code[idx] |= (1 << which)
+        event_times[idx, which] = a
+        G_cur[idx] = rows_G(idx)
+        y_now[idx] = _matvec(G_cur[idx], w[idx])
+        record.some(idx, np.full(idx.size, a), y_now[idx])
+        fired[idx] = True
+
+
 def _pending(code: np.ndarray, k: int) -> np.ndarray:
     """(N, k) True where threshold switch j has not acted yet."""
     return ((code[:, None] >> np.arange(k)[None, :]) & 1) == 0
@@ -373,12 +403,24 @@ def _handle_events(stepper, timed_key, key_of, code, crossed, w_prev, w, y_now, 
         code[idx] |= (1 << which)
         event_times[idx, which] = t_prev + tau
         G_new = _rows_G(stepper, timed_key, key_of, code, idx)
-        G_cur[idx] = G_new
-        for length, phi in phi_cur.items():
-            phi[idx] = _rows_phi(stepper, timed_key, key_of, code, idx, length)
         y_after = _matvec(G_new, w_e)
         record.some(idx, t_prev + tau, y_before)
         record.some(idx, t_prev + tau, y_after)
+        while True:  # another threshold already strictly met at this instant acts at once
+            imm = _pending(code[idx], len(rules)) & (_event_values(y_after, watch, rules) > 0.0)
+            r = np.flatnonzero(imm.any(axis=1))
+            if r.size == 0:
+                break
+            sub, wh = idx[r], np.argmax(imm[r], axis=1)
+            code[sub] |= (1 << wh)
+            event_times[sub, wh] = t_prev + tau[r]
+            G_new[r] = _rows_G(stepper, timed_key, key_of, code, sub)
+            record.some(sub, t_prev + tau[r], y_after[r])
+            y_after[r] = _matvec(G_new[r], w_e[r])
+            record.some(sub, t_prev + tau[r], y_after[r])
+        G_cur[idx] = G_new
+        for length, phi in phi_cur.items():
+            phi[idx] = _rows_phi(stepper, timed_key, key_of, code, idx, length)
         M_new = _rows_M(stepper, timed_key, key_of, code, idx)
         w_end = _matvec(stepper.propagate(M_new, h - tau), w_e)
         y_end = _matvec(G_new, w_end)
@@ -481,6 +523,9 @@ class _Record:
     def __init__(self, N: int, capacity: int, p: int):
         self.t = np.empty((N, capacity))
         self.y = np.empty((N, p, capacity))
+        self._flat_y = self.y.reshape(-1)
+        # flat offset of (sample, row, column 0); a row's element at column c is at + c
+        self._base = (np.arange(N)[:, None] * p + np.arange(p)[None, :]) * capacity
         self.rows = np.arange(N)
         self.cursor = np.zeros(N, dtype=np.int64)
         self.common = 0
@@ -494,7 +539,7 @@ class _Record:
             self.common += 1
         else:
             self.t[self.rows, self.cursor] = t
-            self.y[self.rows, :, self.cursor] = y
+            self._flat_y[self._base + self.cursor[:, None]] = y
             self.cursor += 1
 
     def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray) -> None:
