@@ -32,6 +32,8 @@ __all__ = ["Exact", "augmented_matrix", "MAX_CHECK_POINTS"]
 
 #: Cap on the check points used to look for event crossings in one segment.
 MAX_CHECK_POINTS = 100_000
+#: Steps propagated between looks for an event crossing (so a run stops soon after one).
+_BLOCK = 256
 
 
 def augmented_matrix(A: np.ndarray, B: np.ndarray, F: np.ndarray, H: np.ndarray) -> np.ndarray:
@@ -69,21 +71,32 @@ class Exact(Integrator):
         grid = np.unique(np.concatenate([[t0], t_out, [t1]]))
         if events:
             grid = self._refine(grid, M)
-        w, expm_calls = self._propagate(M, w0, grid, t1 - t0)
-        counters = {"steps": int(grid.size - 1), "expm_calls": expm_calls}
-
+        steps, which = self._step_matrices(M, grid, t1 - t0)
+        counters = {"steps": 0, "expm_calls": int(steps.shape[0])}
+        w = np.empty((grid.size, M.shape[0]))
+        w[0] = w0
         event_time = event_index = None
-        w_end = w[-1]
-        if events:
-            x_all, u_all = w[:, :n], w[:, n:] @ H.T
-            g = event_values(events, x_all, u_all)
-            hit = first_crossing(events, g)
+        done = 0  # rows of w filled beyond the first
+        while done < grid.size - 1:
+            stop = min(done + _BLOCK, grid.size - 1)
+            for k in range(done, stop):
+                w[k + 1] = steps[which[k]] @ w[k]
+            counters["steps"] += stop - done
+            hit = None
+            if events:  # rows done … stop, overlapping the previous block by one row
+                rows = w[done:stop + 1]
+                hit = first_crossing(events, event_values(events, rows[:, :n], rows[:, n:] @ H.T))
             if hit is not None:
-                k, first = hit
-                s, event_index, w_end, calls = self._locate(
-                    M, w[k], g[k], grid[k + 1] - grid[k], events, n, H, first)
+                k, first = done + hit[0], hit[1]
+                g_start = event_values(events, w[k:k + 1, :n], w[k:k + 1, n:] @ H.T)[0]
+                s_, event_index, w_end, calls = self._locate(
+                    M, w[k], g_start, grid[k + 1] - grid[k], events, n, H, first)
                 counters["expm_calls"] += calls
-                event_time = grid[k] + s
+                event_time = grid[k] + s_
+                break
+            done = stop
+        else:
+            w_end = w[-1]
         idx = np.searchsorted(grid, t_out)
         if event_time is not None:
             keep = t_out < event_time
@@ -92,19 +105,15 @@ class Exact(Integrator):
                              counters)
 
     @staticmethod
-    def _propagate(M, w0, grid, span):
-        """States at every grid time, one expm per distinct interval length."""
+    def _step_matrices(M, grid, span):
+        """(expm(M h) for each distinct interval length h (k, d, d), index of each interval's matrix)."""
         dt = np.diff(grid)
         key = np.round(dt / span * 1e15)
         lengths, which = np.unique(key, return_inverse=True)
         steps = np.empty((lengths.size, M.shape[0], M.shape[0]))
         for j in range(lengths.size):
             steps[j] = expm(M * float(np.mean(dt[which == j])))
-        w = np.empty((grid.size, M.shape[0]))
-        w[0] = w0
-        for k in range(dt.size):
-            w[k + 1] = steps[which[k]] @ w[k]
-        return w, int(lengths.size)
+        return steps, which
 
     @staticmethod
     def _refine(grid, M):
