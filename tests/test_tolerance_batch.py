@@ -136,3 +136,24 @@ def test_tolerance_on_a_source_value_is_refused_plainly(tmp_path):
     text = RC_WITH_LIMIT.replace("dc 12 V", "dc 12 V ± 5 %")
     with pytest.raises(CircuitodeError, match="source V1"):
         run_batch(loads(text), samples=10, out_dir=tmp_path, progress=False)
+
+
+def test_kept_waveforms_are_written_decimated(tmp_path):
+    r = _run(tmp_path, samples=30, chunk_size=8, plots=False, keep_waveforms=3)
+    files = sorted(k for k in r.files if k.startswith("waveform"))
+    assert files == ["waveform 0", "waveform 1", "waveform 2"]
+    rows = list(csv.reader(open(r.files["waveform 1"], encoding="utf-8")))
+    assert rows[0] == ["time [s]", "voltage at out [V]", "current through R1 [A]"]
+    data = np.array(rows[1:], dtype=float)
+    # the peak current of sample 1 is 12 V / R (capacitor empty when K1 closes, Ohm's law)
+    assert data[:, 2].max() == pytest.approx(12.0 / r.samples.values[1, 0], rel=1e-9)
+    assert len(data) <= 2100
+
+
+def test_a_circuit_that_cannot_run_is_reported_once_as_bad_input(tmp_path):
+    text = RC_WITH_LIMIT.replace("resistor R_bleed out -- gnd 10 kΩ", "").replace(
+        "capacitor C1 out -- gnd C_c initial 0 V", "inductor L9 out -- gnd 1 mH ± 5 %")
+    text = text.replace("switch K1 rail -- s closes at 0.1 ms", "switch K1 rail -- s opens at 0.1 ms")
+    with pytest.raises(CircuitodeError) as err:
+        run_batch(loads(text), samples=10, out_dir=tmp_path / "x", progress=False)
+    assert err.value.exit_code == 2 and "K1" in str(err.value)

@@ -30,6 +30,7 @@ from .store import ChunkStore, fingerprint_text
 __all__ = ["BatchResult", "run_batch", "run_chunk", "format_batch_summary", "batch_figure_keys"]
 
 _BYTES_PER_CHUNK = 384e6  # waveform memory a chunk may hold (bytes)
+_WAVEFORM_POINTS = 2000  # kept waveforms are decimated to at most about this many points
 
 
 @dataclass
@@ -57,6 +58,7 @@ class BatchResult:
     min_yield: float | None = None
     chunks_resumed: int = 0
     executor: str = ""
+    out_dir: Path | None = None
 
     @property
     def exit_code(self) -> int:
@@ -120,6 +122,7 @@ def run_chunk(task: dict) -> dict:
     size = block.shape[0]
     keys = task["keys"]
     figures = np.full((size, len(keys)), np.nan)
+    extra: dict = {}
     messages = np.full(size, "", dtype=object)
     ok = np.zeros(size, dtype=bool)
     try:
@@ -135,12 +138,34 @@ def run_chunk(task: dict) -> dict:
         for i, msg in waves.problems.items():
             messages[i] = msg
         figures[~ok] = np.nan
+        kept = np.flatnonzero(np.arange(start, start + size) < task.get("keep_waveforms", 0))
+        if kept.size:
+            stride = max(1, -(-waves.t.shape[1] // _WAVEFORM_POINTS))
+            extra = {"wave_index": kept + start, "wave_t": waves.t[kept, ::stride],
+                     "wave_y": waves.y[kept][:, :, ::stride]}
     except CircuitodeError as exc:
         messages[:] = str(exc).splitlines()[0]
     except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:
         messages[:] = f"numerical failure: {exc}"
-    return {"index": np.arange(start, start + size), "figures": figures, "ok": ok,
-            "message": messages.astype(str)}
+    out = {"index": np.arange(start, start + size), "figures": figures, "ok": ok,
+           "message": messages.astype(str)}
+    out.update(extra)
+    return out
+
+
+def _preflight(circuit: Circuit, table: SampleTable, probes, keys, method: str) -> None:
+    """Faults of the circuit itself are bad input, reported once before any chunk runs
+    (a batch records per-sample failures, but a circuit that fails at its nominal
+    values would fail every sample for the same reason)."""
+    from ..topology import verify
+    from .engine import output_grid
+
+    output_grid(circuit)
+    verify(circuit, circuit.analysis.until)
+    nominal = run_chunk({"circuit": circuit, "names": table.names, "values": table.nominal[None, :],
+                         "start": 0, "keys": keys, "probes": probes, "method": method})
+    if not nominal["ok"][0]:
+        raise CircuitodeError(f"the circuit cannot be simulated at its nominal values: {nominal['message'][0]}")
 
 
 class _Progress:
@@ -166,7 +191,7 @@ class _Progress:
 def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int = 0,
               workers: int | None = None, scheduler: Any = None, out_dir, chunk_size: int | None = None,
               tol_overrides=None, min_yield: float | None = None, progress: bool = True,
-              method: str = "exact", plots: bool = True) -> BatchResult:
+              method: str = "exact", plots: bool = True, keep_waveforms: int = 0) -> BatchResult:
     """Run a tolerance batch and write its results.
 
     Parameters
@@ -180,6 +205,8 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     tol_overrides : ["NAME=5%", …].  min_yield : fraction in [0, 1] for the exit code.
     progress : show a progress bar on stderr when it is a terminal.
     method : "exact" or "rk4".  plots : write histogram and scatter PNGs.
+    keep_waveforms : keep the recorded waveforms of the first this-many samples,
+        decimated to about 2,000 points, as ``waveforms/sample_<i>.csv``.
     """
     if isinstance(circuit_or_path, Circuit):
         circuit = circuit_or_path
@@ -210,6 +237,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     probes, keys = batch_figure_keys(circuit)
     if not keys:
         raise CircuitodeError("nothing to measure: add a 'record' or 'require' statement to the netlist")
+    _preflight(circuit, table, probes, keys, method)
     if chunk_size is None:
         from .engine import output_grid
 
@@ -223,6 +251,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     store = ChunkStore(out_dir, {
         "netlist_sha256": fingerprint_text(identity), "seed": int(seed), "sampler": sampler,
         "samples": N, "chunk_size": chunk_size, "overrides": overrides, "method": method,
+        "keep_waveforms": int(keep_waveforms),
     })
     done = store.finished()
     todo = [c for c in range(n_chunks) if c not in done]
@@ -232,7 +261,8 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     values = table.values
     tasks = [(c, {"circuit": circuit, "names": table.names, "start": c * chunk_size,
                   "values": values[c * chunk_size:(c + 1) * chunk_size], "keys": keys,
-                  "probes": probes, "method": method}) for c in todo]
+                  "probes": probes, "method": method, "keep_waveforms": int(keep_waveforms)})
+             for c in todo]
     try:
         for c, result in executor.map_unordered(run_chunk, tasks):
             store.write(c, result)
@@ -259,9 +289,29 @@ def _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, resumed, e
     params = table.values
     sens = {k: sensitivity_ranking(table.names, params, figures[:, j]) for j, k in enumerate(keys)}
     result = BatchResult(table, list(keys), units, figures, ok, messages, summaries, yld, sens, reqs,
-                         {}, min_yield, resumed, executor_name)
+                         {}, min_yield, resumed, executor_name, Path(store.folder))
     result.files = _write_outputs(result, Path(store.folder), plots)
+    result.files.update(_write_waveforms(parts, probes, Path(store.folder)))
     return result
+
+
+def _write_waveforms(parts, probes, folder: Path) -> dict:
+    """CSV of each kept (decimated) waveform: time and every recorded signal."""
+    import csv
+
+    files = {}
+    for part in parts:
+        if "wave_index" not in part:
+            continue
+        (folder / "waveforms").mkdir(exist_ok=True)
+        for k, index in enumerate(part["wave_index"]):
+            path = folder / "waveforms" / f"sample_{int(index)}.csv"
+            with open(path, "w", newline="", encoding="utf-8") as fh:
+                w = csv.writer(fh)
+                w.writerow(["time [s]"] + [f"{p.label} [{p.unit}]" for p in probes])
+                w.writerows(np.column_stack([part["wave_t"][k], part["wave_y"][k].T]).tolist())
+            files[f"waveform {int(index)}"] = path
+    return files
 
 
 def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
@@ -337,6 +387,11 @@ def format_batch_summary(result: BatchResult) -> str:
         if drivers and np.isfinite(drivers[0].rho):
             lines.append(f"  {key[0]} of {key[1]}"[:56].ljust(57)
                          + f"{drivers[0].parameter[:14]:<15}{drivers[0].rho:+.2f}")
+    if result.out_dir is not None:
+        plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
+        waves = sum(1 for k in result.files if k.startswith("waveform"))
+        extra = (f", {plots} plots" if plots else "") + (f", {waves} waveforms" if waves else "")
+        lines.append(f"Written to {result.out_dir}: samples.csv, batch_summary.json{extra}")
     if result.min_yield is not None:
         verdict = "meets" if result.exit_code == 0 else "is BELOW"
         lines.append(f"Yield {verdict} the minimum of {100 * result.min_yield:.1f} %")
