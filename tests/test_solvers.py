@@ -337,6 +337,7 @@ def test_exact_finds_a_crossing_between_sparse_output_times():
 def test_unknown_method_lists_the_valid_names():
     with pytest.raises(CircuitodeError) as info:
         get_integrator("euler")
+    assert isinstance(info.value, ValueError) and info.value.exit_code == 2
     for name in ALL:
         assert name in str(info.value)
 

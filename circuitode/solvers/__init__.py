@@ -16,6 +16,7 @@ from .scipy_ivp import BDF, DOP853, RK45, Radau
 
 __all__ = [
     "METHODS",
+    "MethodRequestError",
     "get_integrator",
     "Integrator",
     "LinearSegment",
@@ -35,6 +36,11 @@ __all__ = [
     "STIFF_RATIO",
 ]
 
+class MethodRequestError(CircuitodeError, ValueError):
+    """An integrator request that cannot be served: an unknown name, or a fixed-step
+    method without a step.  Exit code 2 (bad input)."""
+
+
 #: Integrator classes by the name a user writes ("auto" is resolved by the driver).
 METHODS: dict[str, type[Integrator]] = {
     cls.name: cls for cls in (RK4, RK45, DOP853, Radau, BDF, Exact)
@@ -47,7 +53,7 @@ def get_integrator(name: str, *, step: float | None = None, rtol: float = 1e-6,
 
     Raises
     ------
-    CircuitodeError
+    MethodRequestError (a CircuitodeError and a ValueError)
         for an unknown name (listing the valid ones) or a fixed-step method without a step.
 
     Examples
@@ -57,15 +63,15 @@ def get_integrator(name: str, *, step: float | None = None, rtol: float = 1e-6,
     >>> get_integrator("euler")
     Traceback (most recent call last):
     ...
-    circuitode.errors.CircuitodeError: unknown method 'euler'; choose one of: bdf, dop853, exact, radau, rk4, rk45 (or auto)
+    circuitode.solvers.MethodRequestError: unknown method 'euler'; choose one of: bdf, dop853, exact, radau, rk4, rk45 (or auto)
     """
     key = str(name).strip().lower()
     if key not in METHODS:
         valid = ", ".join(sorted(METHODS))
-        raise CircuitodeError(f"unknown method {name!r}; choose one of: {valid} (or auto)")
+        raise MethodRequestError(f"unknown method {name!r}; choose one of: {valid} (or auto)")
     cls = METHODS[key]
     if cls.fixed_step and step is None:
-        raise CircuitodeError(
+        raise MethodRequestError(
             f"method {key} takes fixed steps and needs a step; add `step …` to the "
             "transient statement (or pass --step), or use method exact"
         )
