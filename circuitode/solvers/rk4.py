@@ -54,13 +54,18 @@ def rk4_stability_limit(eigenvalues) -> float:
     >>> round(rk4_stability_limit([1j, -1j]), 6)     # 2√2 on the imaginary axis
     2.828427
     """
+    return float(np.min(_step_limits(eigenvalues), initial=np.inf))
+
+
+def _step_limits(eigenvalues) -> np.ndarray:
+    """Per-eigenvalue largest stable step (s), ``inf`` where none applies; shape (k,)."""
     lam = np.asarray(eigenvalues, dtype=complex).reshape(-1)
     mag = np.abs(lam)
+    limits = np.full(lam.shape, np.inf)
     keep = (mag > 0) & np.isfinite(mag) & (lam.real <= 1e-9 * mag)
-    lam, mag = lam[keep], mag[keep]
-    if lam.size == 0:
-        return float("inf")
-    direction = lam / mag
+    if not np.any(keep):
+        return limits
+    direction = lam[keep] / mag[keep]
     on_axis = np.abs(direction.real) <= 1e-9
     direction = np.where(on_axis, 1j * np.sign(direction.imag), direction)
     tol = 1e-12
@@ -74,7 +79,8 @@ def rk4_stability_limit(eigenvalues) -> float:
         ok = _rk4_gain(direction * mid) <= 1 + tol
         lo = np.where(ok, mid, lo)
         hi = np.where(ok, hi, mid)
-    return float(np.min(lo / mag))
+    limits[keep] = lo / mag[keep]
+    return limits
 
 
 def check_rk4_step(eigenvalues, step: float, where: str = "") -> None:
@@ -85,14 +91,15 @@ def check_rk4_step(eigenvalues, step: float, where: str = "") -> None:
     UnstableStepError
         naming the largest stable step and the methods that have no such limit.
     """
-    limit = rk4_stability_limit(eigenvalues)
+    limits = _step_limits(eigenvalues)
+    limit = float(np.min(limits, initial=np.inf))
     if step > limit:
         lam = np.asarray(eigenvalues, dtype=complex).reshape(-1)
-        fastest = lam[np.argmax(np.abs(lam))]
+        binding = lam[np.argmin(limits)]
         place = f" {where}" if where else ""
         raise UnstableStepError(
-            f"step {step:.6g} s is too large for method rk4{place}: its fastest mode "
-            f"(eigenvalue {fastest.real:.6g}{fastest.imag:+.6g}j 1/s) needs a step of at most "
+            f"step {step:.6g} s is too large for method rk4{place}: the mode with eigenvalue "
+            f"{binding.real:.6g}{binding.imag:+.6g}j 1/s needs a step of at most "
             f"{limit:.6g} s to stay stable; give a step ≤ {limit:.6g} s, "
             "or use method radau or bdf (stiff) or exact",
             largest_stable_step=limit,
