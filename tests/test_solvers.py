@@ -285,6 +285,9 @@ def test_rk4_guard_refuses_unstable_step_and_accepts_stable_one():
     assert info.value.largest_stable_step == pytest.approx(limit, rel=1e-8)
     assert info.value.exit_code == 3
     check_rk4_step(eig, 2.7e-6)  # must not raise
+    # a lightly damped pair binds before a faster real mode (2√2/30 ≈ 0.094 < 2.785/3 ≈ 0.93)
+    with pytest.raises(UnstableStepError, match=r"-1\+30j"):
+        check_rk4_step([-3.0, -1 + 30j, -1 - 30j], 0.5)
 
 
 @pytest.mark.parametrize("name", ALL)
