@@ -19,10 +19,9 @@ import numpy as np
 from ..circuit import Circuit, PowerIn
 from ..errors import CircuitodeError
 from ..limits import check_requirements_batch
-from ..measure import figure_unit
+from ..measure import figure_unit, measure
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
-from .figures import batch_figure
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import FigureSummary, YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .store import ChunkStore, fingerprint_text
@@ -131,9 +130,11 @@ def run_chunk(task: dict) -> dict:
             raise CircuitodeError("no element value depends on the sampled parameters")
         waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
         labels = [p.label for p in task["probes"]]
+        units = [p.unit for p in task["probes"]]
         for j, (fig, label) in enumerate(keys):
-            with np.errstate(all="ignore"):
-                figures[:, j] = batch_figure(fig, waves.t, waves.y[:, labels.index(label)])
+            row = labels.index(label)
+            # each sample has its own clock (its own switching instants): t is (N, L)
+            figures[:, j] = measure(fig, waves.t, waves.y[:, row], signal_unit=units[row])
         ok = waves.ok.copy()
         for i, msg in waves.problems.items():
             messages[i] = msg
