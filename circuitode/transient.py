@@ -474,7 +474,7 @@ class _Run:
     def _inputs_around(self, t):
         if not self.bank.m:
             return np.zeros(0), np.zeros(0)
-        eps = max(1e-12 * self.until, 4 * np.spacing(max(t, self.until)))
+        eps = 64 * np.finfo(float).eps * self.until  # past the sources' corner snapping
         u = self.bank.values(np.array([max(t - eps, -np.finfo(float).tiny), t + eps]))
         return u[0], u[1]
 
