@@ -14,7 +14,7 @@ import scipy.integrate as si
 import scipy.sparse as sp
 
 from ..errors import IntegrationError
-from .base import Integrator, SegmentResult
+from .base import Integrator, SegmentResult, generator_matrices
 
 __all__ = ["ScipyIntegrator", "RK45", "DOP853", "Radau", "BDF", "SPARSE_FROM"]
 
@@ -42,6 +42,24 @@ def jacobian_for(A: np.ndarray):
     return A
 
 
+def _constant_inputs(segment) -> np.ndarray | None:
+    """u (m,) when every input is constant on the segment (its generator has F = 0),
+    else None.  Inputs without generators are simply evaluated at each call."""
+    if segment.n_inputs == 0:
+        return np.zeros(0)
+    generators = getattr(segment.inputs, "generators", None)
+    if generators is None:
+        return None
+    try:
+        gen = generators(segment.t0, segment.t1)
+    except (ValueError, NotImplementedError):
+        return None
+    if gen is None:
+        return None
+    F, z0, H = generator_matrices(gen, segment.n_inputs)
+    return H @ z0 if not np.any(F) else None
+
+
 class ScipyIntegrator(Integrator):
     """Common driver for the solve_ivp methods; subclasses name the scipy class."""
 
@@ -50,10 +68,16 @@ class ScipyIntegrator(Integrator):
 
     def _solve_segment(self, segment, t_out, events):
         A, B = segment.A, segment.B
+        held = _constant_inputs(segment)
+        if held is not None:  # inputs constant on the segment: no source evaluation per call
+            b = B @ held
 
-        def rhs(t, x):
-            forced = B @ segment.input_values(np.array([t]))[0]
-            return A @ x + (forced[:, None] if x.ndim == 2 else forced)
+            def rhs(t, x):
+                return A @ x + (b[:, None] if x.ndim == 2 else b)
+        else:
+            def rhs(t, x):
+                forced = B @ segment.input_values(np.array([t]))[0]
+                return A @ x + (forced[:, None] if x.ndim == 2 else forced)
 
         tiny = np.finfo(float).tiny
 
