@@ -85,7 +85,8 @@ class ScipyIntegrator(Integrator):
             # solve_ivp fires on g = 0 → 0; nudging "not yet met" values off zero makes it
             # fire only when the quantity passes the level (LinearEvent.met), not on a touch.
             def g(t, x):
-                value = float(event.value(x, segment.input_values(np.array([t])))[0])
+                u = held[None, :] if held is not None else segment.input_values(np.array([t]))
+                value = float(event.value(x, u)[0])
                 if event.rising:
                     return value if value > 0 else min(value, -tiny)
                 return value if value < 0 else max(value, tiny)
