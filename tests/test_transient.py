@@ -13,10 +13,10 @@ import scipy.signal as signal
 from scipy.integrate import simpson
 
 from circuitode.circuit import (Analysis, Capacitor, Circuit, Coupling, CurrentSource,
-                                CurrentThrough, Inductor, NodeVoltage, PowerIn, Resistor,
-                                Switch, ThresholdRule, TimedSchedule, VoltageSource)
+                                CurrentThrough, Inductor, NodeVoltage, PeriodicSchedule, PowerIn,
+                                Resistor, Switch, ThresholdRule, TimedSchedule, VoltageSource)
 from circuitode.errors import CircuitodeError, UnstableStepError
-from circuitode.sources import Dc, Sine, Step
+from circuitode.sources import Dc, Ramp, Sine, Step
 from circuitode.transient import Waveforms, simulate
 
 ALL = ["bdf", "dop853", "exact", "radau", "rk4", "rk45"]
@@ -493,3 +493,42 @@ def test_work_counters_stay_small_for_exact_with_a_threshold():
     assert w.counters["segments"] == 2
     assert w.counters["expm_calls"] <= 4 + 60
     assert w.t.size == 4001 + 2  # the grid plus the two rows at the switching instant
+
+
+@pytest.mark.parametrize("name", ALL)
+def test_rc_driven_by_a_ramp(name):
+    # Ramp response of RC (Nilsson & Riedel, ch. 7; from the step response by integration):
+    # u = k (t − ts) on [ts, te] gives v = k[(t − ts) − τ(1 − e^{−(t − ts)/τ})]; after te the
+    # held value V is approached with the same τ.  The ramp corners are segment breakpoints.
+    R, C, V, ts, te = 1e3, 1e-6, 6.0, 0.5e-3, 2.5e-3
+    tau, k = R * C, V / (te - ts)
+    c = Circuit("ramp", "gnd", (VoltageSource("V1", "in", "gnd", Ramp(0.0, V, ts, te - ts)),
+                                Resistor("R1", "in", "out", R), Capacitor("C1", "out", "gnd", C)),
+                records=(NodeVoltage("out"),))
+    w = run(c, name, 6e-3, rk4_step=1e-6, points=61, initial="rest")
+    ramp = lambda t: k * ((t - ts) - tau * (1 - np.exp(-(t - ts) / tau)))  # noqa: E731
+    t = w.t
+    want = np.where(t <= ts, 0.0, np.where(t <= te, ramp(t), V + (ramp(te) - V) * np.exp(-(t - te) / tau)))
+    assert rel_err(w["voltage at out"], want) < TOL[name]
+    assert w.counters["segments"] == 3
+
+
+@pytest.mark.parametrize("name", ALL)
+def test_periodic_switch_piecewise_exponentials(name):
+    # A load switched in and out periodically: each interval relaxes exponentially towards its own
+    # Thévenin value (Nilsson & Riedel, ch. 7, sequential switching), chained interval by interval.
+    R1, R2, C, V, period = 1e3, 1e3, 1e-6, 10.0, 1e-3
+    c = rc_circuit(R1, C, V, Switch("K", "out", "x", PeriodicSchedule(period, 0.5, 0.0)),
+                   Resistor("R2", "x", "gnd", R2), records=(NodeVoltage("out"),))
+    w = run(c, name, 5e-3, rk4_step=1e-6, points=101, initial="rest")
+    closed = (V * R2 / (R1 + R2), R1 * R2 / (R1 + R2) * C)  # (target, τ) with K closed
+    opened = (V, R1 * C)
+    edges = np.arange(0.0, 5e-3 + 1e-12, period / 2)
+    want, v0 = np.empty_like(w.t), 0.0
+    for j, (a, b) in enumerate(zip(edges[:-1], edges[1:])):
+        target, tau = closed if j % 2 == 0 else opened
+        inside = (w.t >= a) & (w.t <= b)
+        want[inside] = target + (v0 - target) * np.exp(-(w.t[inside] - a) / tau)
+        v0 = target + (v0 - target) * np.exp(-(b - a) / tau)
+    assert rel_err(w["voltage at out"], want) < TOL[name]
+    assert len(w.events) == 9  # opens at 0.5 ms, closes at 1 ms, … , opens at 4.5 ms
