@@ -152,7 +152,8 @@ def _settings(circuit: Circuit, method, step, until, points, initial) -> _Settin
         raise CircuitodeError(
             f"step {step:g} s over {until:g} s would record {until / step:.3g} points; use a larger step")
     if initial not in INITIAL_STATES:
-        raise CircuitodeError(f"unknown initial state {initial!r}; choose one of: {', '.join(INITIAL_STATES)}")
+        raise CircuitodeError(
+            f"unknown initial state {initial!r}; choose one of: {', '.join(INITIAL_STATES)}")
     return _Settings(float(until), None if step is None else float(step), int(points),
                      str(method).strip().lower(), initial)
 

@@ -340,7 +340,8 @@ def test_steady_initial_state_then_opening_switch():
 
 
 def test_exact_sine_rc_from_rest_is_exact():
-    # v = A[sin ωt − ωτ cos ωt + ωτ e^{−t/τ}]/(1 + ω²τ²) (first-order ODE by integrating factor).
+    # v = A[sin ωt − ωτ cos ωt + ωτ e^{−t/τ}]/(1 + ω²τ²)
+    # (first-order linear ODE solved by an integrating factor; Nilsson & Riedel, ch. 9).
     R, C, A, f = 1e3, 1e-6, 2.0, 400.0
     wv, tau = 2 * np.pi * f, R * C
     c = Circuit("sine rc", "gnd", (VoltageSource("V1", "in", "gnd", Sine(amplitude=A, frequency=f)),

@@ -22,7 +22,9 @@ from .base import Integrator, LinearSegment, SegmentResult, event_values, first_
 __all__ = ["RK4", "rk4_stability_limit", "check_rk4_step", "rk4_step_grid"]
 
 _FACTORIALS = np.array([1.0, 1.0, 2.0, 6.0, 24.0])
-_RAY_REACH = 3.2  # the RK4 stability region lies inside |z| < 3 (from memory: ≈ 2.79 on the real axis, 2√2 on the imaginary)
+# The RK4 stability region lies inside |z| < 3 (from memory: it reaches about 2.79 on the
+# negative real axis and 2√2 on the imaginary axis), so every ray leaves it before 3.2.
+_RAY_REACH = 3.2
 
 
 def _rk4_gain(z: np.ndarray) -> np.ndarray:
