@@ -533,3 +533,14 @@ def test_periodic_switch_piecewise_exponentials(name):
         v0 = target + (v0 - target) * np.exp(-(b - a) / tau)
     assert rel_err(w["voltage at out"], want) < TOL[name]
     assert len(w.events) == 9  # opens at 0.5 ms, closes at 1 ms, … , opens at 4.5 ms
+
+
+def test_exact_reuses_exponentials_when_configurations_recur():
+    # Work ceiling: 100 segments of two alternating configurations on one uniform grid need
+    # only a handful of distinct exponentials (step lengths differ only where grid and
+    # switching instants interleave), not one or more per segment.
+    c = rc_circuit(1e3, 1e-6, 10.0, Switch("K", "out", "x", PeriodicSchedule(1e-3, 0.5, 0.0)),
+                   Resistor("R2", "x", "gnd", 1e3), records=(NodeVoltage("out"),))
+    w = simulate(c, method="exact", until=50e-3, points=1001, initial="rest")
+    assert w.counters["segments"] == 100
+    assert w.counters["expm_calls"] <= 20

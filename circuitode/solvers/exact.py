@@ -12,7 +12,8 @@ whose solution is ``w(t + h) = expm(M h) w(t)`` exactly (Moler & Van Loan,
 "Nineteen dubious ways to compute the exponential of a matrix", SIAM Review
 2003, the augmented-matrix method; scipy.linalg.expm is a Padé
 scaling-and-squaring).  One exponential is computed per distinct interval
-length, so a uniform output grid costs one ``expm`` per segment.
+length, so a uniform output grid costs one ``expm`` per segment, and a
+configuration that recurs with the same step (periodic switching) none.
 
 Events are detected by a sign change of g between consecutive check points
 (the output times, each interval split equally so that no part exceeds a
@@ -34,6 +35,9 @@ __all__ = ["Exact", "augmented_matrix", "MAX_CHECK_POINTS"]
 MAX_CHECK_POINTS = 100_000
 #: Steps propagated between looks for an event crossing (so a run stops soon after one).
 _BLOCK = 256
+#: Step exponentials remembered per integrator (oldest dropped first), and their memory cap.
+_CACHE_SIZE = 64
+_CACHE_BYTES = 32_000_000
 
 
 def augmented_matrix(A: np.ndarray, B: np.ndarray, F: np.ndarray, H: np.ndarray) -> np.ndarray:
@@ -71,8 +75,8 @@ class Exact(Integrator):
         grid = np.unique(np.concatenate([[t0], t_out, [t1]]))
         if events:
             grid = self._refine(grid, M)
-        steps, which = self._step_matrices(M, grid, t1 - t0)
-        counters = {"steps": 0, "expm_calls": int(steps.shape[0])}
+        steps, which, computed = self._step_matrices(M, grid, t1 - t0)
+        counters = {"steps": 0, "expm_calls": computed}
         w = np.empty((grid.size, M.shape[0]))
         w[0] = w0
         event_time = event_index = None
@@ -104,16 +108,29 @@ class Exact(Integrator):
         return SegmentResult(t_out.copy(), w[idx, :n], event_time, event_index, w_end[:n].copy(),
                              counters)
 
-    @staticmethod
-    def _step_matrices(M, grid, span):
-        """(expm(M h) for each distinct interval length h (k, d, d), index of each interval's matrix)."""
+    def _step_matrices(self, M, grid, span):
+        """(expm(M h) for each distinct interval length h (k, d, d), index of each interval's
+        matrix).  Exponentials are remembered per (M, h) for the life of this integrator, so
+        a configuration that recurs (periodic switching) reuses them; returns also how many
+        were newly computed."""
         dt = np.diff(grid)
         key = np.round(dt / span * 1e15)
         lengths, which = np.unique(key, return_inverse=True)
         steps = np.empty((lengths.size, M.shape[0], M.shape[0]))
+        cache = self.__dict__.setdefault("_expm_cache", {})
+        fingerprint = (M.shape, M.tobytes())  # exact match, not merely equal hashes
+        room = min(_CACHE_SIZE, max(4, _CACHE_BYTES // max(M.nbytes, 1)))
+        computed = 0
         for j in range(lengths.size):
-            steps[j] = expm(M * float(np.mean(dt[which == j])))
-        return steps, which
+            h = float(np.mean(dt[which == j]))
+            entry = (fingerprint, h)
+            if entry not in cache:
+                if len(cache) >= room:
+                    cache.pop(next(iter(cache)))
+                cache[entry] = expm(M * h)
+                computed += 1
+            steps[j] = cache[entry]
+        return steps, which, computed
 
     @staticmethod
     def _refine(grid, M):
