@@ -132,14 +132,19 @@ class Exact(Integrator):
             steps[j] = cache[entry]
         return steps, which, computed
 
-    @staticmethod
-    def _refine(grid, M):
+    def _refine(self, grid, M):
         """Split each interval of ``grid`` into equal parts no longer than a quarter period
         of the fastest oscillation of M, so no crossing hides between check points.
         Equal parts keep a uniform grid uniform (one exponential still serves)."""
         if M.shape[0] == 0:
             return grid
-        omega = float(np.max(np.abs(np.linalg.eigvals(M).imag)))
+        known = self.__dict__.setdefault("_omega_cache", {})
+        fingerprint = (M.shape, M.tobytes())
+        if fingerprint not in known:
+            if len(known) >= _CACHE_SIZE:
+                known.pop(next(iter(known)))
+            known[fingerprint] = float(np.max(np.abs(np.linalg.eigvals(M).imag)))
+        omega = known[fingerprint]
         if omega == 0.0:
             return grid
         gaps = np.diff(grid)
