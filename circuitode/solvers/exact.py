@@ -8,17 +8,18 @@ an autonomous system ``w' = M w`` with
     M = [[A, B H],
          [0,  F ]],      w = [x; z],
 
-whose solution is ``w(t + h) = expm(M h) w(t)`` exactly (Moler & Van Loan,
-"Nineteen dubious ways to compute the exponential of a matrix", SIAM Review
-2003, the augmented-matrix method; scipy.linalg.expm is a Padé
-scaling-and-squaring).  One exponential is computed per distinct interval
-length, so a uniform output grid costs one ``expm`` per segment, and a
-configuration that recurs with the same step (periodic switching) none.
+whose solution is ``w(t + h) = expm(M h) w(t)`` exactly.  (Block-triangular
+augmentation for forced linear systems: Van Loan, "Computing integrals
+involving the matrix exponential", IEEE Trans. Automatic Control, 1978 — cited
+from memory; scipy.linalg.expm is a Padé scaling-and-squaring.)  One
+exponential is computed per distinct interval length, so a uniform output grid
+costs one ``expm`` per segment, and a configuration that recurs with the same
+step (periodic switching) none.
 
 Events are detected by a sign change of g between consecutive check points
 (the output times, each interval split equally so that no part exceeds a
-quarter period of the fastest oscillation of M) and located by Brent's method on the exact propagation from
-the last check point.
+quarter period of the fastest oscillation of M) and located by Brent's method
+on the exact propagation from the last check point.
 """
 from __future__ import annotations
 
@@ -27,7 +28,7 @@ from scipy.linalg import expm
 from scipy.optimize import brentq
 
 from ..errors import IntegrationError
-from .base import Integrator, event_values, first_crossing, generator_matrices, SegmentResult
+from .base import Integrator, SegmentResult, event_values, first_crossing, generator_matrices
 
 __all__ = ["Exact", "augmented_matrix", "MAX_CHECK_POINTS"]
 
