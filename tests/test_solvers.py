@@ -1,6 +1,8 @@
 """Integrators on bare x' = A x + B u(t) systems, checked against closed forms.
 
-Each check names its source.  Circuits here are written directly as state-space
+Each check names its source.  Book chapter numbers are cited from memory
+(they shift between editions); the closed forms themselves are re-derived in the
+comments or are standard results.  Circuits here are written directly as state-space
 models (states: capacitor voltages, inductor currents) so the numerical core is
 tested with no netlist and no assembly.
 """

@@ -1,6 +1,8 @@
 """The transient driver on Circuits built directly from circuit.py dataclasses.
 
-Every physics check names its source.  The same circuits run with every method;
+Every physics check names its source.  Book chapter numbers are cited from memory
+(they shift between editions); the closed forms themselves are re-derived in the
+comments or are standard results.  The same circuits run with every method;
 rk4 runs at a stable fixed step, the adaptive and implicit methods at tight
 tolerances, exact must agree to 1e-9 relative.
 """
