@@ -1,0 +1,178 @@
+"""The command line end to end, as a user meets it: every example netlist runs,
+bad input is answered with a located message and exit 2, a missed limit gives
+exit 1, a numerical refusal gives exit 3, and no traceback ever reaches the user.
+
+Physics is checked in the module tests; here the expected values are the tool's
+own contract (exit codes, files, headers), plus one closed-form spot check.
+"""
+import csv
+import json
+import math
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from circuitode.cli import main
+
+ROOT = Path(__file__).resolve().parents[1]
+EXAMPLES = sorted((ROOT / "netlists").glob("*.cnet"))
+
+
+def test_there_are_example_netlists():
+    assert len(EXAMPLES) >= 4
+
+
+@pytest.mark.parametrize("netlist", EXAMPLES, ids=lambda p: p.stem)
+def test_check_accepts_every_example(netlist, capsys):
+    assert main(["check", str(netlist)]) == 0
+    out = capsys.readouterr().out
+    assert "nodes" in out and "states" in out and "diagnostics: none" in out
+
+
+@pytest.mark.parametrize("netlist", EXAMPLES, ids=lambda p: p.stem)
+def test_run_writes_csv_json_and_meets_its_limits(netlist, tmp_path, capsys):
+    code = main(["run", str(netlist), "--out", str(tmp_path), "--no-plots"])
+    out = capsys.readouterr().out
+    assert code == 0, out
+    assert all(len(line) <= 80 for line in out.splitlines()), "summary wider than 80 columns"
+    assert "Caution" in out and "local codes" in out
+    with open(tmp_path / "waveforms.csv", newline="", encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    assert rows[0][0] == "time [s]"
+    assert all(h.endswith("]") for h in rows[0])  # every column names its unit
+    assert len(rows) > 100
+    summary = json.loads((tmp_path / "summary.json").read_text(encoding="utf-8"))
+    assert summary["all_limits_met"] is True
+    assert summary["limits"] and summary["figures"] and summary["solver"]["method"]
+    assert "local electrical codes" in summary["safety"].lower()
+
+
+def test_run_draws_a_png(tmp_path, capsys):
+    assert main(["run", str(ROOT / "netlists" / "lc_filter.cnet"), "--out", str(tmp_path)]) == 0
+    png = tmp_path / "waveforms.png"
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+RC_TEXT = """\
+circuit "RC check"
+ground gnd
+voltage_source V1 in -- gnd  step from 0 V to 10 V at 0 s
+resistor  R1 in -- out  1 kΩ
+capacitor C1 out -- gnd  1 uF  initial 0 V
+transient until 5 ms step 10 us method exact
+record voltage at out, current through R1
+require final voltage at out > 9.9 V
+"""
+
+
+def test_run_rc_energy_in_resistor_is_half_cv2(tmp_path, capsys):
+    # Charging C from a step V through R dissipates ½CV² in R whatever R
+    # (classic textbook result, e.g. Alexander & Sadiku ch. 7). After 5 τ the
+    # capacitor holds (1 − e⁻⁵)² of its final energy, so the loss is within 1 %.
+    netlist = tmp_path / "rc.cnet"
+    netlist.write_text(RC_TEXT + "record power in R1\n", encoding="utf-8")
+    assert main(["run", str(netlist), "--out", str(tmp_path / "o"), "--no-plots"]) == 0
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text(encoding="utf-8"))
+    energy = summary["figures"]["power in R1"]["energy"]["value"]
+    expected = 0.5 * 1e-6 * 10.0**2 * (1 - math.exp(-10))
+    # The samples are exact; the integral is the trapezoidal rule over them, whose
+    # relative error on e^(-2t/τ) is about (2h/τ)²/12 = 3.3e-5 at h = 10 µs, τ = 1 ms.
+    assert energy == pytest.approx(expected, rel=1e-4)
+    assert energy >= expected  # the trapezoidal rule overestimates a convex integrand
+
+
+def test_failed_limit_exits_1(tmp_path, capsys):
+    netlist = tmp_path / "rc.cnet"
+    netlist.write_text(RC_TEXT + "require peak current through R1 < 5 mA\n", encoding="utf-8")
+    # the peak charging current is V/R = 10 mA (closed form), above the 5 mA limit
+    code = main(["run", str(netlist), "--out", str(tmp_path / "o"), "--no-plots"])
+    out = capsys.readouterr().out
+    assert code == 1
+    assert "FAIL" in out and "10 mA" in out
+
+
+def test_set_overrides_a_param_and_can_fail_a_limit(tmp_path, capsys):
+    # 1 Ω of pre-charge resistance lets ~48 A flow, far above the 6 A limit
+    code = main(["run", str(ROOT / "netlists" / "precharge.cnet"), "--set", "R_pre=1 Ω",
+                 "--out", str(tmp_path), "--no-plots"])
+    assert code == 1
+    assert "FAIL" in capsys.readouterr().out
+
+
+BROKEN = {
+    "misspelt keyword": ("resistr R1 in -- out 1 kΩ\n", 3, "resistor"),
+    "wrong unit": ("capacitor C1 out -- gnd 1 uH\n", 3, "farad"),
+    "unknown param": ("resistor R1 in -- out R_missing\n", 3, "R_missing"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(BROKEN))
+def test_broken_netlist_exits_2_with_location(case, tmp_path, capsys):
+    line, lineno, gist = BROKEN[case]
+    netlist = tmp_path / "broken.cnet"
+    netlist.write_text('circuit "broken"\nground gnd\n' + line, encoding="utf-8")
+    assert main(["run", str(netlist), "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert f"broken.cnet:{lineno}:" in err
+    assert gist in err
+    assert "^" in err and "Traceback" not in err
+
+
+def test_missing_file_exits_2(capsys):
+    assert main(["check", "no/such/file.cnet"]) == 2
+    assert "no netlist file" in capsys.readouterr().err
+
+
+def test_capacitor_loop_after_a_switch_is_refused_before_the_run(tmp_path, capsys):
+    # Closing an ideal switch between two capacitors makes a loop of capacitors
+    # only: their voltages would have to jump (a fact of circuit theory, e.g.
+    # Chua, Desoer & Kuh, state equations — from memory).
+    netlist = tmp_path / "loop.cnet"
+    netlist.write_text(
+        'circuit "loop"\nground gnd\n'
+        "capacitor C1 a -- gnd 1 uF initial 10 V\n"
+        "capacitor C2 b -- gnd 1 uF initial 0 V\n"
+        "switch K a -- b closes at 2 ms\n"
+        "resistor R1 a -- gnd 1 MΩ\nresistor R2 b -- gnd 1 MΩ\n"
+        "transient until 5 ms step 10 us\n",
+        encoding="utf-8",
+    )
+    assert main(["run", str(netlist), "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "C1" in err and "C2" in err and "K" in err and "2 ms" in err
+    assert not (tmp_path / "o" / "waveforms.csv").exists()
+
+
+def test_unstable_rk4_step_exits_3_with_the_largest_stable_step(tmp_path, capsys):
+    code = main(["run", str(ROOT / "netlists" / "lc_filter.cnet"), "--method", "rk4", "--step", "100us",
+                 "--out", str(tmp_path), "--no-plots"])
+    assert code == 3
+    err = capsys.readouterr().err
+    assert "stable" in err and ("radau" in err or "exact" in err)
+
+
+def test_modes_prints_damping_table(capsys):
+    assert main(["modes", str(ROOT / "netlists" / "lc_filter.cnet")]) == 0
+    out = capsys.readouterr().out
+    assert "ζ" in out and "underdamped" in out
+
+
+def test_version_and_help(capsys):
+    with pytest.raises(SystemExit) as exc:
+        main(["--version"])
+    assert exc.value.code == 0
+    assert "circuitode" in capsys.readouterr().out
+    with pytest.raises(SystemExit):
+        main(["run", "--help"])
+    assert "examples:" in capsys.readouterr().out
+
+
+def test_python_dash_m_reports_bad_input_without_traceback(tmp_path):
+    netlist = tmp_path / "bad.cnet"
+    netlist.write_text('circuit "bad"\nground gnd\nresistor R1 a -- gnd 10 kΩ ±\n', encoding="utf-8")
+    proc = subprocess.run([sys.executable, "-m", "circuitode", "check", str(netlist)],
+                          capture_output=True, text=True, cwd=ROOT, timeout=120)
+    assert proc.returncode == 2
+    assert "bad.cnet:3:" in proc.stderr and "Traceback" not in proc.stderr
