@@ -41,6 +41,7 @@ __all__ = [
     "modes_text",
     "limits_text",
     "requirement_words",
+    "event_words",
     "write_summary_json",
     "describe_control",
     "describe_waveform",
@@ -313,6 +314,14 @@ def requirement_words(requirement: Any, unit: str) -> str:
     return f"{figure} of {probe.label} {limit}"
 
 
+def event_words(event: Any) -> str:
+    """E.g. "K_main closes when voltage at link > 43 V" or "K_pre closes (timed schedule)"."""
+    head = f"{event.switch} {'closes' if event.closed else 'opens'}"
+    if event.reason.startswith(head + " "):
+        return event.reason
+    return f"{head} ({event.reason})"
+
+
 def run_text(
     circuit: Circuit,
     waveforms: Any,
@@ -323,14 +332,16 @@ def run_text(
 ) -> str:
     """The printed summary of ``circuitode run``, at most 80 columns wide."""
     out = [_fit(f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else ""), WIDTH)]
-    out.extend(_wrap(f"solver: {waveforms.method} — {waveforms.method_reason}", indent=""))
+    reason = waveforms.method_reason
+    if reason.startswith(f"{waveforms.method}: "):
+        reason = reason[len(waveforms.method) + 2:]
+    out.extend(_wrap(f"solver: {waveforms.method} — {reason}", indent=""))
     window = format_si(float(waveforms.t[-1]), "s")
     out.append(f"window: 0 s to {window}, {len(waveforms.t)} output points")
     if waveforms.events:
         out.append(f"events ({len(waveforms.events)}):")
         for ev in waveforms.events[:12]:
-            out.extend(_wrap(f"{format_si(ev.time, 's'):>10}  {ev.switch} "
-                             f"{'closes' if ev.closed else 'opens'} ({ev.reason})", indent="  "))
+            out.extend(_wrap(f"{format_si(ev.time, 's'):>10}  {event_words(ev)}", indent="  "))
         if len(waveforms.events) > 12:
             out.append(f"  … and {len(waveforms.events) - 12} more (see summary.json)")
     out.append("")
