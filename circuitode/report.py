@@ -344,6 +344,8 @@ def run_text(
             out.extend(_wrap(f"{format_si(ev.time, 's'):>10}  {event_words(ev)}", indent="  "))
         if len(waveforms.events) > 12:
             out.append(f"  … and {len(waveforms.events) - 12} more (see summary.json)")
+    for warning in getattr(waveforms, "warnings", ()):
+        out.extend(_wrap(f"warning: {warning}", indent=""))
     out.append("")
     header = f"{'quantity':<27}" + "".join(f"{word:>12}" for _, word in _COLUMNS)
     out.append(header)
