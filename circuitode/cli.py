@@ -199,6 +199,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     except CircuitodeError as exc:
         print(str(exc), file=sys.stderr)
         return exc.exit_code
+    except BrokenPipeError:  # output piped into e.g. `head`: the reader left, not an error of ours
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
     except KeyboardInterrupt:
         print("interrupted; files already written are kept.", file=sys.stderr)
         return 130
