@@ -28,7 +28,7 @@ from .store import ChunkStore, fingerprint_text
 
 __all__ = ["BatchResult", "run_batch", "run_chunk", "format_batch_summary", "batch_figure_keys"]
 
-_BYTES_PER_CHUNK = 384e6  # waveform memory a chunk may hold (bytes)
+_BYTES_PER_CHUNK = 400e6  # waveform memory a chunk may hold (bytes)
 _WAVEFORM_POINTS = 2000  # kept waveforms are decimated to at most about this many points
 
 
@@ -134,7 +134,7 @@ def run_chunk(task: dict) -> dict:
         for j, (fig, label) in enumerate(keys):
             row = labels.index(label)
             # each sample has its own clock (its own switching instants): t is (N, L)
-            figures[:, j] = measure(fig, waves.t, waves.y[:, row], signal_unit=units[row])
+            figures[:, j] = measure(fig, waves.t, waves.signals[row], signal_unit=units[row])
         ok = waves.ok.copy()
         for i, msg in waves.problems.items():
             messages[i] = msg
@@ -143,7 +143,7 @@ def run_chunk(task: dict) -> dict:
         if kept.size:
             stride = max(1, -(-waves.t.shape[1] // _WAVEFORM_POINTS))
             extra = {"wave_index": kept + start, "wave_t": waves.t[kept, ::stride],
-                     "wave_y": waves.y[kept][:, :, ::stride]}
+                     "wave_y": np.stack([sig[kept, ::stride] for sig in waves.signals], axis=1)}
     except CircuitodeError as exc:
         messages[:] = str(exc).splitlines()[0]
     except (ArithmeticError, ValueError, np.linalg.LinAlgError) as exc:

@@ -48,17 +48,22 @@ class ChunkWaves:
     """What a chunk's run produced.
 
     t : (N, nt) s, each sample's time axis (a switching instant appears twice).
-    y : (N, p, nt) recorded signals, in the order of the probes asked for.
+    signals : one (N, nt) array per probe asked for, in that order.
     ok : (N,) bool, False where the sample failed.
     problems : sample index (within the chunk) → message, for failed samples.
     event_times : (N, k) s, instant each threshold switch acted, NaN if it never did.
     """
 
     t: np.ndarray
-    y: np.ndarray
+    signals: list
     ok: np.ndarray
     problems: dict[int, str] = field(default_factory=dict)
     event_times: np.ndarray | None = None
+
+    @property
+    def y(self) -> np.ndarray:
+        """(N, p, nt): the signals stacked (a copy)."""
+        return np.stack(self.signals, axis=1)
 
 
 def output_grid(circuit: Circuit) -> np.ndarray:
@@ -164,8 +169,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     thr = [i for i, s in enumerate(switches) if isinstance(s.control, ThresholdRule)]
     rules = [switches[i].control for i in thr]
     rows, recipe = linear_probes(tuple(probes))
-    watch = [len(rows) + j for j in range(len(rules))]
-    all_rows = rows + [r.probe for r in rules]
+    all_rows = list(rows)
+    for r in rules:  # watched quantities, sharing a recorded row where they can
+        if r.probe not in all_rows:
+            all_rows.append(r.probe)
+    watch = [all_rows.index(r.probe) for r in rules]
     cache = StateSpaceCache(circuit, all_rows, values)
     bank = SourceBank.of(circuit)
     m = bank.m
@@ -203,7 +211,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     p_all = len(all_rows)
     nt = t_grid.size
     # each switching instant adds two rows (and replaces a grid instant it falls on)
-    record = _Record(N, nt + 2 * len(changes) + 2 * len(rules), p_all)
+    record = _Record(N, nt + 2 * len(changes), 2 * len(rules), p_all)
     y_end_before = None
     event_times = np.full((N, len(rules)), np.nan)
     tol = EVENT_TOL_FRACTION * until
@@ -248,13 +256,12 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             record.all(a, y_now)  # a grid instant here is stood for by the two rows
         # a threshold already strictly met at the start of a stretch acts at once
         # (as in the single run); those samples' two rows stand for a grid instant here
-        fired_now = _fire_at_start(a, w, y_now, code, ok, rules, watch, G_cur, record,
-                                   event_times, lambda idx: _rows_G(stepper, timed_key, key_of, code, idx))
+        _fire_at_start(a, w, y_now, code, ok, rules, watch, G_cur, record, event_times,
+                       lambda idx: _rows_G(stepper, timed_key, key_of, code, idx))
         if not due and np.any(np.abs(t_grid - a) <= slack):
-            if fired_now.any():
-                record.some(np.flatnonzero(~fired_now), a, y_now[~fired_now])
-            else:
-                record.all(a, y_now)
+            # (a sample that switched just now repeats its "after" row here: an interval
+            # of zero length that changes no figure)
+            record.all(a, y_now)
         g_prev = _event_values(y_now, watch, rules)
 
         upper = (t_grid <= b + slack) if last else (t_grid < b - slack)
@@ -292,8 +299,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for i in np.flatnonzero(bad & ok):
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
-    y_out = _recipe_rows(y_all, recipe)
-    return ChunkWaves(t_all, y_out, ok, problems, event_times)
+    signals = _recipe_rows(y_all, recipe)
+    return ChunkWaves(t_all, signals, ok, problems, event_times)
 
 
 # --------------------------------------------------------------------------
@@ -397,7 +404,8 @@ def _handle_events(stepper, timed_key, key_of, code, crossed, w_prev, w, y_now, 
         M = _rows_M(stepper, timed_key, key_of, code, idx)
         G = G_cur[idx]
         # locate each crossing sample's earliest crossing in (start, h]
-        tau, which = _locate(stepper, M, G, w_start, start, h, remaining_cross, rules, watch, tol)
+        tau, which = _locate(stepper, M, G, w_start, start, h, remaining_cross, rules, watch, tol,
+                             g_end=g_now[idx])
         w_e = _matvec(stepper.propagate(M, tau - start), w_start)
         y_before = _matvec(G, w_e)
         code[idx] |= (1 << which)
@@ -466,11 +474,12 @@ def _rows_M(stepper, timed_key, key_of, code, idx):
     return out
 
 
-def _locate(stepper, M, G, w_start, start, h, crossed, rules, watch, tol):
+def _locate(stepper, M, G, w_start, start, h, crossed, rules, watch, tol, g_end=None):
     """Earliest crossing offset τ in (start, h] per row, and which rule crossed.
 
-    Bracketed Newton iterations on g(τ) = c·Φ(τ − start) w_start − level, falling back
-    to bisection whenever a Newton step leaves the bracket.
+    Bracketed Newton iterations on g(τ) = c·Φ(τ − start) w_start − level from the
+    secant guess (g_end: signed values at the end of the step, when known), falling
+    back to bisection whenever a Newton step leaves the bracket.
     """
     K, k = crossed.shape
     levels = np.array([r.level for r in rules])
@@ -487,6 +496,11 @@ def _locate(stepper, M, G, w_start, start, h, crossed, rules, watch, tol):
         g_lo = np.einsum("ni,ni->n", c, wr) - levels[j]
         sign = np.sign(g_lo)
         tau = lo + 0.5 * (hi - lo)
+        if g_end is not None:
+            g_hi = g_end[rows, j] * (1.0 if rules[j].above else -1.0)  # back to watched − level
+            with np.errstate(divide="ignore", invalid="ignore"):
+                secant = lo + (hi - lo) * g_lo / (g_lo - g_hi)
+            tau = np.where(np.isfinite(secant) & (secant > lo) & (secant < hi), secant, tau)
         active = np.ones(rows.size, dtype=bool)
         for _ in range(200):
             if not active.any():
@@ -513,65 +527,73 @@ def _locate(stepper, M, G, w_start, start, h, crossed, rules, watch, tol):
 
 
 class _Record:
-    """Each sample's recorded rows in time order, written as the run goes.
+    """Each sample's recorded rows, assembled in time order at the end.
 
-    t : (N, capacity) s, y : (N, p, capacity) (time last, as the figures want it).  While every sample has written the
-    same number of rows, rows go to one shared column; once a threshold switch has
-    given some samples extra rows, each sample writes at its own cursor.
+    Rows every sample records at the same instant (grid instants, timed switching)
+    go to shared columns; the few rows a sample records at its own instants (a
+    threshold switch acting: just before and just after) go to a side buffer with
+    the shared column they precede.  ``finish`` interleaves them with one masked
+    copy per possible number of preceding extra rows.
     """
 
-    def __init__(self, N: int, capacity: int, p: int):
-        self.t = np.empty((N, capacity))
+    def __init__(self, N: int, capacity: int, extra_capacity: int, p: int):
+        self.t_common = np.empty(capacity)
         self.y = np.empty((N, p, capacity))
-        self._flat_y = self.y.reshape(-1)
-        # flat offset of (sample, row, column 0); a row's element at column c is at + c
-        self._base = (np.arange(N)[:, None] * p + np.arange(p)[None, :]) * capacity
-        self.rows = np.arange(N)
-        self.cursor = np.zeros(N, dtype=np.int64)
         self.common = 0
-        self.uniform = True
+        self.ext_t = np.empty((N, extra_capacity))
+        self.ext_y = np.empty((N, p, extra_capacity))
+        self.ext_pos = np.empty((N, extra_capacity), dtype=np.int64)
+        self.ext_count = np.zeros(N, dtype=np.int64)
 
     def all(self, t: float, y: np.ndarray) -> None:
-        """One row (N, p) at instant t for every sample."""
-        if self.uniform:
-            self.t[:, self.common] = t
-            self.y[:, :, self.common] = y
-            self.common += 1
-        else:
-            self.t[self.rows, self.cursor] = t
-            self._flat_y[self._base + self.cursor[:, None]] = y
-            self.cursor += 1
+        """One row y (N, p) at instant t for every sample."""
+        self.t_common[self.common] = t
+        self.y[:, :, self.common] = y
+        self.common += 1
 
     def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray) -> None:
-        """Rows (len(idx), p) at instants t (len(idx),) for samples idx only."""
-        if self.uniform:
-            self.cursor[:] = self.common
-            self.uniform = False
-        self.t[idx, self.cursor[idx]] = t
-        self.y[idx, :, self.cursor[idx]] = y
-        self.cursor[idx] += 1
+        """Rows y (len(idx), p) at instants t (len(idx),) for samples idx only."""
+        k = self.ext_count[idx]
+        self.ext_t[idx, k] = t
+        self.ext_y[idx, :, k] = y
+        self.ext_pos[idx, k] = self.common
+        self.ext_count[idx] += 1
 
     def finish(self) -> tuple[np.ndarray, np.ndarray]:
-        """t (N, L), y (N, p, L); a sample with fewer rows is padded with copies of its
-        last row (a zero-length stretch at the end, which changes no figure)."""
-        if self.uniform:
-            return self.t[:, : self.common], self.y[:, :, : self.common]
-        L = int(self.cursor.max())
-        last = self.cursor - 1
-        t_last, y_last = self.t[self.rows, last], self.y[self.rows, :, last]
-        for j in range(int(self.cursor.min()), L):  # at most a few columns
-            short = self.cursor <= j
-            self.t[short, j] = t_last[short]
-            self.y[short, :, j] = y_last[short]
-        return self.t[:, :L], self.y[:, :, :L]
+        """t (N, L) s and y (N, p, L).  A sample with fewer extra rows than another is
+        padded at the end with copies of its last row (zero-length, changes no figure)."""
+        C = self.common
+        N, p = self.y.shape[:2]
+        E = int(self.ext_count.max(initial=0))
+        y_common = self.y[:, :, :C]
+        if E == 0:
+            return np.broadcast_to(self.t_common[:C], (N, C)), y_common
+        rows = np.arange(N)
+        unused = np.arange(E)[None, :] >= self.ext_count[:, None]
+        pos = np.where(unused, C, self.ext_pos[:, :E])
+        ext_t = np.where(unused, self.t_common[C - 1], self.ext_t[:, :E])
+        ext_y = np.where(unused[:, None, :], y_common[:, :, C - 1:C], self.ext_y[:, :, :E])
+        L = C + E
+        dest = pos + np.arange(E)[None, :]  # final column of each extra row
+        q = np.arange(L)
+        before = np.zeros((N, L), dtype=np.int64)  # extra rows placed before column q
+        is_extra = np.zeros((N, L), dtype=bool)
+        for k in range(E):  # E is small: two per threshold switch
+            before += dest[:, k:k + 1] < q[None, :]
+            is_extra[rows, dest[:, k]] = True
+        t = np.empty((N, L))
+        y = np.empty((N, p, L))
+        for r in range(E + 1):
+            mask = (before[:, r:C + r] == r) & ~is_extra[:, r:C + r]
+            np.copyto(t[:, r:C + r], np.broadcast_to(self.t_common[:C], (N, C)), where=mask)
+            np.copyto(y[:, :, r:C + r], y_common, where=mask[:, None, :])
+        for k in range(E):
+            t[rows, dest[:, k]] = ext_t[:, k]
+            y[rows, :, dest[:, k]] = ext_y[:, :, k]
+        return t, y
 
 
-def _recipe_rows(y: np.ndarray, recipe) -> np.ndarray:
-    """(N, p_all, L) assembled rows → (N, P, L) recorded signals (products for power)."""
-    out = np.empty((y.shape[0], len(recipe), y.shape[2]))
-    for i, r in enumerate(recipe):
-        if r[0] == "row":
-            out[:, i] = y[:, r[1]]
-        else:
-            np.multiply(y[:, r[1]], y[:, r[2]], out=out[:, i])
-    return out
+def _recipe_rows(y: np.ndarray, recipe) -> list:
+    """(N, p_all, L) assembled rows → one (N, L) array per recorded probe: a view of
+    its row, or the product v·i for a power probe."""
+    return [y[:, r[1]] if r[0] == "row" else y[:, r[1]] * y[:, r[2]] for r in recipe]
