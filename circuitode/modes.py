@@ -383,7 +383,7 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
     list of :class:`ConfigurationModes`, in order of first occurrence.
     """
     from .statespace import assemble, describe_configuration
-    from .topology import reachable_configurations
+    from .configurations import reachable_configurations
 
     out = []
     for configuration in reachable_configurations(circuit, until):

@@ -1,4 +1,4 @@
-"""Graph diagnostics on a built :class:`~circuitode.circuit.Circuit`, before any solve.
+"""Topology checks: graph diagnostics on a built :class:`~circuitode.circuit.Circuit`, before any solve.
 
 Each check is one function that returns a list of
 :class:`~circuitode.errors.Diagnostic` and raises nothing; :func:`diagnose` runs
@@ -6,7 +6,8 @@ them all and :func:`verify` raises the :class:`~circuitode.errors.TopologyError`
 subclass named by the first error.
 
 Switches make the graph change with time, so the loop and cut-set checks run
-on every switch configuration the run can reach (:func:`reachable_configurations`).
+on every switch configuration the run can reach
+(:func:`circuitode.configurations.reachable_configurations`, re-exported here).
 An ideal switch (no on-resistance) is a short when closed; one with no
 off-resistance is an open when open.  A switch with a resistance in that state
 is simply a resistor.
@@ -38,9 +39,7 @@ Decisions
 """
 from __future__ import annotations
 
-import itertools
 import math
-from dataclasses import dataclass
 from typing import Iterable, Sequence
 
 import networkx as nx
@@ -58,6 +57,15 @@ from .circuit import (
     TimedSchedule,
     VoltageSource,
 )
+from .configurations import (  # the configurations are re-exported: older imports take them from here
+    MAX_CONFIGURATIONS,
+    Configuration,
+    _list,
+    _seconds,
+    _si,
+    enumerate_configurations,
+    reachable_configurations,
+)
 from .errors import (
     BadCouplingError,
     BadValueError,
@@ -71,6 +79,18 @@ from .errors import (
     ShortedSourceError,
     TopologyError,
     UnconnectedNodeError,
+)
+from .graphs import (
+    conducting_graph,
+    floating_nodes,
+    fundamental_loops,
+    has_ground,
+    is_open,
+    is_short,
+    isolated_groups,
+    node_users,
+    switch_indices,
+    switch_states,
 )
 
 __all__ = [
@@ -91,11 +111,6 @@ __all__ = [
     "explain_singular_dc",
 ]
 
-#: Most switch configurations enumerated; beyond it the checks cover a subset (with a warning).
-MAX_CONFIGURATIONS = 4096
-#: Periodic switches are followed for this many of their longest period after the last timed change.
-PERIODS_FOLLOWED = 64
-
 _ERROR_CLASSES: dict[str, type[TopologyError]] = {
     cls.code: cls
     for cls in (
@@ -113,181 +128,8 @@ _ERROR_CLASSES: dict[str, type[TopologyError]] = {
 
 
 # --------------------------------------------------------------------------
-# Switch configurations
+# Helpers: configurations to examine, element names in messages
 # --------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class Configuration:
-    """One reachable assignment of switch states.
-
-    closed : one bool per switch, in ``circuit.switches`` order, True = closed.
-    first_time : s, when the run first reaches it; 0 for the start, nan when it
-        depends on a threshold switch acting.
-    cause : what brings it about, e.g. ``"K_main closes when voltage at link > 43 V"``.
-    """
-
-    closed: tuple[bool, ...]
-    first_time: float
-    cause: str
-
-    def when(self) -> str:
-        """Words for when this configuration occurs, to append to a message."""
-        if math.isnan(self.first_time):
-            return f"if {self.cause}"
-        if self.first_time == 0.0 and self.cause == "initial state":
-            return "from the start"
-        return f"from t = {_seconds(self.first_time)} ({self.cause})"
-
-
-def _si(value: float, unit: str) -> str:
-    """SI value with a prefix, printed by the one module that prints quantities."""
-    from .netlist.quantities import format_si  # late: the netlist package may import this module
-
-    return format_si(value, unit)
-
-
-def _seconds(t: float) -> str:
-    return _si(t, "s")
-
-
-def _is_free(switch: Switch) -> bool:
-    """True when the switch may be in either state at an unknown time (threshold or broken schedule)."""
-    c = switch.control
-    if isinstance(c, ThresholdRule):
-        return True
-    if isinstance(c, PeriodicSchedule):
-        return not (math.isfinite(c.period) and c.period > 0 and 0 < c.duty < 1 and math.isfinite(c.start))
-    return not all(math.isfinite(t) for t, _ in c.changes)
-
-
-def _threshold_words(switch: Switch, closes: bool) -> str:
-    c = switch.control
-    verb = "closes" if closes else "opens"
-    if isinstance(c, ThresholdRule):
-        label = getattr(c.probe, "label", str(c.probe))
-        unit = getattr(c.probe, "unit", "")
-        return f"{switch.name} {verb} when {label} {'>' if c.above else '<'} {_si(c.level, unit)}"
-    return f"{switch.name} {verb} (its schedule is invalid, so either state is assumed)"
-
-
-def _horizon(circuit: Circuit, until: float | None, switches: Sequence[Switch]) -> float:
-    if until is None and circuit.analysis is not None:
-        until = circuit.analysis.until
-    horizon = math.inf if until is None or not math.isfinite(until) else float(until)
-    periodic = [s.control for s in switches if isinstance(s.control, PeriodicSchedule) and not _is_free(s)]
-    if periodic:
-        timed = [t for s in switches if isinstance(s.control, TimedSchedule) and not _is_free(s) for t, _ in s.control.changes]
-        last = max([0.0, *(t for t in timed if t < horizon), *(p.start for p in periodic)])
-        horizon = min(horizon, last + PERIODS_FOLLOWED * max(p.period for p in periodic))
-    return horizon
-
-
-#: Switching instants closer than this (relative) count as one instant: 1 ms + 9 × 1 ms
-#: computed in floating point must meet a change written at 10 ms.
-SIMULTANEOUS = 1e-12
-
-
-def _simultaneous(events: list[tuple[float, int, bool]]) -> list[list[tuple[float, int, bool]]]:
-    """Sorted events grouped into instants, joining times equal to a relative ``SIMULTANEOUS``."""
-    groups: list[list[tuple[float, int, bool]]] = []
-    for e in events:
-        if groups and math.isclose(e[0], groups[-1][0][0], rel_tol=SIMULTANEOUS, abs_tol=0.0):
-            groups[-1].append(e)
-        else:
-            groups.append([e])
-    return groups
-
-
-def _enumerate(circuit: Circuit, until: float | None) -> tuple[list[Configuration], list[str]]:
-    """Configurations in order of first occurrence, plus notes on any cap applied."""
-    switches = circuit.switches
-    notes: list[str] = []
-    state = [s.initially_closed for s in switches]
-    scheduled = [Configuration(tuple(state), 0.0, "initial state")]
-    seen = {tuple(state)}
-    horizon = _horizon(circuit, until, switches)
-    events = sorted(
-        (t, i, closed)
-        for i, s in enumerate(switches)
-        if not _is_free(s)
-        for t, closed in s.scheduled_changes(-math.ulp(0.0), horizon)
-    )
-    for group in _simultaneous(events):
-        t = group[0][0]
-        words = []
-        for _, i, closed in group:
-            if state[i] != closed:
-                state[i] = closed
-                words.append(f"{switches[i].name} {'closes' if closed else 'opens'} at {_seconds(t)}")
-        key = tuple(state)
-        if words and key not in seen:
-            seen.add(key)
-            scheduled.append(Configuration(key, float(t), _list(words)))
-
-    free = [i for i, s in enumerate(switches) if _is_free(s)]
-    if 2 ** len(free) <= MAX_CONFIGURATIONS:
-        flips = [c for r in range(len(free) + 1) for c in itertools.combinations(free, r)]
-    else:
-        flips = [()] + [(i,) for i in free] + [tuple(free)]
-        notes.append(
-            f"{len(free)} threshold-controlled switches give {2 ** len(free)} combinations; "
-            f"only each one acting alone and all acting together were checked"
-        )
-    out: list[Configuration] = []
-    seen = set()
-    for flip in flips:
-        for base in scheduled:
-            closed = list(base.closed)
-            for i in flip:
-                closed[i] = not switches[i].initially_closed
-            key = tuple(closed)
-            if key in seen:
-                continue
-            if len(out) == MAX_CONFIGURATIONS:
-                notes.append(f"only the first {MAX_CONFIGURATIONS} switch configurations were checked")
-                return out, notes
-            seen.add(key)
-            if flip:
-                words = [_threshold_words(switches[i], closed[i]) for i in flip]
-                if base.cause != "initial state":
-                    words.insert(0, base.cause)
-                words = _list(words)
-                out.append(Configuration(key, math.nan, words))
-            else:
-                out.append(base)
-    return out, notes
-
-
-def reachable_configurations(circuit: Circuit, until: float | None = None) -> list[Configuration]:
-    """Every switch configuration the run can reach, in order of first occurrence.
-
-    Timed and periodic switches follow their schedules over [0, until]
-    (``until`` defaults to the circuit's analysis window, else no end);
-    periodic switches are followed for at most ``PERIODS_FOLLOWED`` of the longest
-    period after the last timed change.  Threshold switches (and switches whose
-    schedule is invalid) may be in either state, combined with every scheduled
-    configuration; with more than 12 of them only each acting alone and all
-    together are taken.  At most ``MAX_CONFIGURATIONS`` are returned.
-
-    Parameters
-    ----------
-    circuit : the built circuit.
-    until : end of the run, s, or None.
-
-    Returns
-    -------
-    list of Configuration; the first is the state at t = 0.
-
-    Examples
-    --------
-    >>> from circuitode.circuit import Circuit, Resistor, Switch, TimedSchedule
-    >>> k = Switch("K", "a", "b", TimedSchedule(False, ((1e-3, True),)))
-    >>> c = Circuit("demo", "b", (Resistor("R", "a", "b", 1.0), k))
-    >>> [(x.closed, x.first_time) for x in reachable_configurations(c)]
-    [((False,), 0.0), ((True,), 0.001)]
-    """
-    return _enumerate(circuit, until)[0]
 
 
 def _configurations(circuit: Circuit, configurations: Sequence[Configuration] | None) -> Sequence[Configuration]:
@@ -306,109 +148,12 @@ def _distinct(configurations: Iterable[Configuration], relevant: Sequence[int]) 
     return out
 
 
-# --------------------------------------------------------------------------
-# Graph helpers (edges carry the element's index in circuit.elements)
-# --------------------------------------------------------------------------
-
-
-def _is_short(e, closed: bool) -> bool:
-    return isinstance(e, Switch) and closed and e.on_resistance is None
-
-
-def _is_open(e, closed: bool) -> bool:
-    return isinstance(e, Switch) and not closed and e.off_resistance is None
-
-
-def _switch_states(circuit: Circuit, closed: Sequence[bool]) -> list[bool | None]:
-    """Per element: the switch's state, or None for an element that is not a switch."""
-    states: list[bool | None] = []
-    it = iter(closed)
-    for e in circuit.elements:
-        states.append(next(it) if isinstance(e, Switch) else None)
-    return states
-
-
-def _fundamental_loops(circuit: Circuit, ranked: Sequence[tuple[int, int]]) -> list[list[int]]:
-    """Fundamental loops of the graph of the given edges.
-
-    ranked : (rank, element index); edges enter a spanning forest in rank order,
-    so the loop closed by an edge passes only through edges of equal or lower rank.
-    Each loop starts with the edge that closes it.  Parallel edges and self-loops count.
-    """
-    forest = nx.Graph()
-    joined = nx.utils.UnionFind()
-    loops = []
-    for _, i in sorted(ranked):
-        e = circuit.elements[i]
-        if joined[e.first] == joined[e.second]:
-            if e.first == e.second:
-                loops.append([i])
-            else:
-                path = nx.shortest_path(forest, e.first, e.second)
-                loops.append([i] + [forest.edges[a, b]["index"] for a, b in zip(path, path[1:])])
-        else:
-            joined.union(e.first, e.second)
-            forest.add_edge(e.first, e.second, index=i)
-    return loops
-
-
-def _isolated_groups(circuit: Circuit, conducting: Sequence[int], cut: Sequence[int]) -> list[tuple[list[str], list[int]]]:
-    """Node groups joined to the rest of their part only through ``cut`` edges.
-
-    conducting, cut : element indices; other elements are treated as absent.
-    Returns (nodes of the group, indices of the cut edges around it); the group
-    holding ground (else the largest) in each part is the reference and is not listed.
-    """
-    order = {n: k for k, n in enumerate(circuit.nodes)}
-    inner = nx.Graph()
-    inner.add_nodes_from(circuit.nodes)
-    inner.add_edges_from((circuit.elements[i].first, circuit.elements[i].second) for i in conducting)
-    group_of = {}
-    groups = []
-    for g, comp in enumerate(nx.connected_components(inner)):
-        groups.append(sorted(comp, key=order.__getitem__))
-        for n in comp:
-            group_of[n] = g
-    outer = nx.Graph()
-    outer.add_nodes_from(range(len(groups)))
-    around: dict[int, list[int]] = {g: [] for g in range(len(groups))}
-    for i in cut:
-        a, b = group_of[circuit.elements[i].first], group_of[circuit.elements[i].second]
-        if a != b:
-            outer.add_edge(a, b)
-            around[a].append(i)
-            around[b].append(i)
-    found = []
-    for part in nx.connected_components(outer):
-        if len(part) < 2:
-            continue
-        ref = next((g for g in part if circuit.ground in groups[g]), None)
-        if ref is None:
-            ref = max(sorted(part), key=lambda g: len(groups[g]))
-        for g in sorted(part, key=lambda g: order[groups[g][0]]):
-            if g != ref:
-                found.append((groups[g], around[g]))
-    return found
-
-
 def _names(circuit: Circuit, indices: Iterable[int]) -> tuple[str, ...]:
     return tuple(circuit.elements[i].name for i in indices)
 
 
 def _where(circuit: Circuit, indices: Sequence[int]):
     return circuit.elements[indices[0]].where if indices else None
-
-
-def _list(words: Sequence[str]) -> str:
-    words = list(words)
-    if not words:
-        return "nothing"
-    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
-
-
-def _node_users(circuit: Circuit, nodes: Sequence[str]) -> list[int]:
-    wanted = set(nodes)
-    return [i for i, e in enumerate(circuit.elements) if e.first in wanted or e.second in wanted]
 
 
 def _kind(e) -> str:
@@ -424,11 +169,6 @@ def _kind(e) -> str:
 
 def _switches_in(circuit: Circuit, indices: Iterable[int]) -> list[str]:
     return [circuit.elements[i].name for i in indices if isinstance(circuit.elements[i], Switch)]
-
-
-def _switch_indices(circuit: Circuit, pick) -> list[int]:
-    """Positions, within circuit.switches, of the switches for which ``pick(switch)`` is true."""
-    return [k for k, s in enumerate(circuit.switches) if pick(s)]
 
 
 # --------------------------------------------------------------------------
@@ -534,10 +274,6 @@ def check_values(circuit: Circuit) -> list[Diagnostic]:
 # --------------------------------------------------------------------------
 
 
-def _has_ground(circuit: Circuit) -> bool:
-    return circuit.ground is not None and any(circuit.ground in (e.first, e.second) for e in circuit.elements)
-
-
 def check_ground(circuit: Circuit) -> list[Diagnostic]:
     """``no-ground``: no ground declared, or the ground node is on no element."""
     fix = "add `ground NAME` naming the reference node"
@@ -547,7 +283,7 @@ def check_ground(circuit: Circuit) -> list[Diagnostic]:
     hint = f" (for example one of {', '.join(others[:5])})" if others else ""
     if circuit.ground is None:
         return [Diagnostic("no-ground", "no ground (reference) node is declared", (), fix + hint)]
-    if not _has_ground(circuit):
+    if not has_ground(circuit):
         return [Diagnostic("no-ground", f"the ground node {circuit.ground} is not a terminal of any element",
                            (circuit.ground,), fix + hint)]
     return []
@@ -598,10 +334,10 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
     holds: its node voltages are undetermined, so the nodal equations are singular.
     Nothing is reported when there is no usable ground (``check_ground`` covers it).
     """
-    if not _has_ground(circuit):
+    if not has_ground(circuit):
         return []
     configurations = _configurations(circuit, configurations)
-    relevant = _switch_indices(circuit, lambda s: s.off_resistance is None)
+    relevant = switch_indices(circuit, lambda s: s.off_resistance is None)
     always = nx.Graph()
     always.add_nodes_from(circuit.nodes)
     always.add_edges_from((e.first, e.second) for e in circuit.elements)
@@ -612,7 +348,7 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
             continue
         islands |= part
         nodes = [n for n in circuit.nodes if n in part]
-        inside = _node_users(circuit, nodes)
+        inside = node_users(circuit, nodes)
         out.append(Diagnostic(
             "floating-part",
             f"{_nodes_label(nodes)} (with {_list(_names(circuit, inside))}) "
@@ -624,18 +360,15 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
         ))
     seen: set[frozenset] = set()
     for cfg in _distinct(configurations, relevant):
-        states = _switch_states(circuit, cfg.closed)
-        g = nx.Graph()
-        g.add_nodes_from(circuit.nodes)
-        g.add_edges_from((e.first, e.second) for e, s in zip(circuit.elements, states) if not _is_open(e, s))
-        for part in nx.connected_components(g):
+        states = switch_states(circuit, cfg.closed)
+        for part in nx.connected_components(conducting_graph(circuit, states)):
             if circuit.ground in part or part & islands or frozenset(part) in seen:
                 continue
             seen.add(frozenset(part))
             nodes = [n for n in circuit.nodes if n in part]
-            users = _node_users(circuit, nodes)
-            inside = [i for i in users if not _is_open(circuit.elements[i], states[i])]
-            cut_off = [i for i in users if _is_open(circuit.elements[i], states[i])]
+            users = node_users(circuit, nodes)
+            inside = [i for i in users if not is_open(circuit.elements[i], states[i])]
+            cut_off = [i for i in users if is_open(circuit.elements[i], states[i])]
             switches = _list(_names(circuit, cut_off))
             with_ = f" (with {_list(_names(circuit, inside))})" if inside else ""
             msg = (f"{_nodes_label(nodes)}{with_} {'loses' if len(nodes) == 1 else 'lose'} every path to ground "
@@ -661,19 +394,19 @@ def _stiff_loops(circuit: Circuit, configurations: Sequence[Configuration], stat
     Yields (loop element indices, configuration) once per distinct loop, in the
     configuration where it first appears.
     """
-    relevant = _switch_indices(circuit, lambda s: s.on_resistance is None)
+    relevant = switch_indices(circuit, lambda s: s.on_resistance is None)
     seen = set()
     for cfg in _distinct(configurations, relevant):
-        states = _switch_states(circuit, cfg.closed)
+        states = switch_states(circuit, cfg.closed)
         ranked = []
         for i, (e, s) in enumerate(zip(circuit.elements, states)):
-            if _is_short(e, s):
+            if is_short(e, s):
                 ranked.append((0, i))
             elif isinstance(e, VoltageSource):
                 ranked.append((1, i))
             elif isinstance(e, state_kind):
                 ranked.append((2, i))
-        for loop in _fundamental_loops(circuit, ranked):
+        for loop in fundamental_loops(circuit, ranked):
             key = frozenset(loop)
             if key not in seen:
                 seen.add(key)
@@ -777,24 +510,24 @@ def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configurat
     for e in circuit.elements:
         terminals[e.first] = terminals.get(e.first, 0) + 1
         terminals[e.second] = terminals.get(e.second, 0) + 1
-    relevant = _switch_indices(circuit, lambda s: s.off_resistance is None)
+    relevant = switch_indices(circuit, lambda s: s.off_resistance is None)
     out, seen = [], set()
     for cfg in _distinct(configurations, relevant):
-        states = _switch_states(circuit, cfg.closed)
+        states = switch_states(circuit, cfg.closed)
         conducting, cut = [], []
         for i, (e, s) in enumerate(zip(circuit.elements, states)):
             if isinstance(e, (Inductor, CurrentSource)):
                 cut.append(i)
-            elif not _is_open(e, s):
+            elif not is_open(e, s):
                 conducting.append(i)
-        for nodes, around in _isolated_groups(circuit, conducting, cut):
+        for nodes, around in isolated_groups(circuit, conducting, cut):
             if len(nodes) == 1 and terminals.get(nodes[0], 0) == 1:
                 continue
             key = (frozenset(nodes), frozenset(around))
             if key in seen:
                 continue
             seen.add(key)
-            opened = [i for i in _node_users(circuit, nodes) if _is_open(circuit.elements[i], states[i])]
+            opened = [i for i in node_users(circuit, nodes) if is_open(circuit.elements[i], states[i])]
             label = _nodes_label(nodes)
             inductors = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], Inductor)]
             sources = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], CurrentSource)]
@@ -919,7 +652,7 @@ def diagnose(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
     >>> [(d.code, d.elements) for d in diagnose(c)]
     [('capacitor-loop', ('V1', 'C1'))]
     """
-    configurations, notes = _enumerate(circuit, until)
+    configurations, notes = enumerate_configurations(circuit, until)
     out = check_duplicate_names(circuit) + check_values(circuit) + check_ground(circuit)
     out += check_unconnected_nodes(circuit)
     out += check_floating_parts(circuit, configurations)
@@ -981,11 +714,11 @@ def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
     if len(closed) != len(circuit.switches):
         raise CircuitodeError(
             f"explain_singular_dc needs one switch state per switch ({len(circuit.switches)}), got {len(closed)}")
-    states = _switch_states(circuit, closed)
+    states = switch_states(circuit, closed)
     ranked = []
     conducting, cut = [], []
     for i, (e, s) in enumerate(zip(circuit.elements, states)):
-        if _is_short(e, s):
+        if is_short(e, s):
             ranked.append((0, i))
         elif isinstance(e, VoltageSource):
             ranked.append((1, i))
@@ -993,35 +726,26 @@ def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
             ranked.append((2, i))
         if isinstance(e, (Capacitor, CurrentSource)):
             cut.append(i)
-        elif not _is_open(e, s):
+        elif not is_open(e, s):
             conducting.append(i)
     lines = []
-    for loop in _fundamental_loops(circuit, ranked):
+    for loop in fundamental_loops(circuit, ranked):
         if all(isinstance(circuit.elements[i], Switch) for i in loop):
             continue
         names = _names(circuit, loop)
         lines.append(
             f"{_list(names)} form a loop with no resistance: at DC the current around it is not fixed "
             f"(add a series resistance, e.g. the winding resistance of {names[0]})")
-    for nodes, around in _isolated_groups(circuit, conducting, cut):
+    for nodes, around in isolated_groups(circuit, conducting, cut):
         names = _names(circuit, around)
         label = _nodes_label(nodes)
         through = f" only through {_list(names)}" if names else " by nothing"
         lines.append(
             f"{label} {'is' if len(nodes) == 1 else 'are'} reached{through}, which carry no direct current: "
             f"{'its' if len(nodes) == 1 else 'their'} DC voltage is not fixed (add a resistor from {nodes[0]} to ground, e.g. a bleeder)")
-    for part in _floating_nodes(circuit, states):
+    for part in floating_nodes(circuit, states):
         lines.append(f"node{'s' if len(part) > 1 else ''} {_list(part)} have no path to ground")
     if not lines:
         return ""
     return "the DC steady state is not unique: " + "; ".join(lines) + \
         ". Alternatively start from given initial values instead of the steady state."
-
-
-def _floating_nodes(circuit: Circuit, states: Sequence[bool | None]) -> list[list[str]]:
-    if not _has_ground(circuit):
-        return []
-    g = nx.Graph()
-    g.add_nodes_from(circuit.nodes)
-    g.add_edges_from((e.first, e.second) for e, s in zip(circuit.elements, states) if not _is_open(e, s))
-    return [[n for n in circuit.nodes if n in part] for part in nx.connected_components(g) if circuit.ground not in part]

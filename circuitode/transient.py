@@ -223,8 +223,8 @@ def _configurations_to_check(circuit: Circuit, until: float, start: tuple[bool, 
     offers one, else the schedule followed from ``start`` with each threshold switch
     in either state."""
     try:
-        from . import topology
-        reach = getattr(topology, "reachable_configurations", None)
+        from . import configurations
+        reach = getattr(configurations, "reachable_configurations", None)
     except ImportError:
         reach = None
     if reach is not None:
