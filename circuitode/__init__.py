@@ -69,7 +69,7 @@ _LAZY = {
     "summarise": ("measure", "summarise"),
     "check_requirements": ("limits", "check_requirements"),
     "check_requirements_batch": ("limits", "check_requirements_batch"),
-    "reachable_configurations": ("topology", "reachable_configurations"),
+    "reachable_configurations": ("configurations", "reachable_configurations"),
     "StateSpaceCache": ("statespace", "StateSpaceCache"),
     "SourceBank": ("sources", "SourceBank"),
     "figure_unit": ("measure", "figure_unit"),

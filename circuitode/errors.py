@@ -6,7 +6,7 @@ has to inspect classes.  Messages say what is wrong *and* what to change.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 __all__ = [
     "Where",

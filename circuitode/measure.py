@@ -26,7 +26,7 @@ A signal containing NaN (a failed sample of a batch) gets NaN for every figure.
 from __future__ import annotations
 
 import inspect
-from typing import Any, Callable, Mapping
+from typing import Any, Callable
 
 import numpy as np
 

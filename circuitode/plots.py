@@ -7,7 +7,7 @@ notation (ms, kA …) through :func:`circuitode.netlist.quantities.si_scale`.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any, Mapping, Sequence
+from typing import Any, Sequence
 
 import numpy as np
 

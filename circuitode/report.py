@@ -19,7 +19,6 @@ from . import __version__
 from .circuit import (
     Capacitor,
     Circuit,
-    Coupling,
     CurrentSource,
     Inductor,
     PeriodicSchedule,

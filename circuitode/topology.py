@@ -193,7 +193,7 @@ def check_duplicate_names(circuit: Circuit) -> list[Diagnostic]:
                     "duplicate-name",
                     f"the name {name} is given to {len(items)} elements ({kinds})",
                     (name,),
-                    f"rename all but one of them; every element needs its own name",
+                    "rename all but one of them; every element needs its own name",
                     where=items[1].where,
                 )
             )

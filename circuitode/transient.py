@@ -22,10 +22,12 @@ import numpy as np
 
 from .circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
+from .configurations import reachable_configurations
 from .errors import CircuitodeError
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from .sources import SourceBank
 from .statespace import StateSpaceCache, describe_configuration, initial_state
+from .topology import verify
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
@@ -217,43 +219,14 @@ def _schedule(circuit: Circuit, until: float) -> list[tuple[float, int, bool]]:
     return sorted(changes, key=lambda c: (c[0], c[1]))
 
 
-def _configurations_to_check(circuit: Circuit, until: float, start: tuple[bool, ...],
-                             schedule) -> list[tuple[bool, ...]]:
-    """Every configuration the run may reach: the topology module's enumeration when it
-    offers one, else the schedule followed from ``start`` with each threshold switch
-    in either state."""
-    try:
-        from . import configurations
-        reach = getattr(configurations, "reachable_configurations", None)
-    except ImportError:
-        reach = None
-    if reach is not None:
-        return [tuple(c.closed) for c in reach(circuit, until)]
-    seen = {start: None}
-    state = list(start)
-    for _, k, closed in schedule:
-        state[k] = closed
-        seen.setdefault(tuple(state), None)
-    thresholds = [k for k, s in enumerate(circuit.switches) if isinstance(s.control, ThresholdRule)]
-    for k in thresholds:
-        for conf in list(seen):
-            flipped = list(conf)
-            flipped[k] = not flipped[k]
-            seen.setdefault(tuple(flipped), None)
-    return list(seen)
+def _configurations_to_check(circuit: Circuit, until: float) -> list[tuple[bool, ...]]:
+    """Every switch configuration the run may reach (see :mod:`circuitode.configurations`)."""
+    return [tuple(c.closed) for c in reachable_configurations(circuit, until)]
 
 
 def _verify(circuit: Circuit, until: float) -> tuple[str, ...]:
-    """Run the topology checks when that module offers them; return warnings as text."""
-    try:
-        from . import topology
-    except ImportError:
-        return ()
-    verify = getattr(topology, "verify", None)
-    if verify is None:
-        return ()
-    found = verify(circuit, until) or ()
-    return tuple(str(d) for d in found if getattr(d, "severity", "warning") != "error")
+    """Run the topology checks (raising on errors); return the warnings as text."""
+    return tuple(str(d) for d in verify(circuit, until) if d.severity != "error")
 
 
 def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple[bool, ...], np.ndarray]]:
@@ -296,7 +269,7 @@ def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, ato
     if n == 0:
         name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
     elif s.method == "auto":
-        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until, start, schedule)]))
+        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until)]))
         eigenvalues = [e for _, e in _eigenvalue_sets(cache, confs)]
         name, reason = choose_method(eigenvalues, True, s.step)
     else:
@@ -304,7 +277,7 @@ def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, ato
     integrator = get_integrator(name, step=rk4_step if name == "rk4" else None, rtol=rtol,
                                 atol=atol, event_tol=EVENT_TOL_FRACTION * s.until)
     if integrator.fixed_step and n:
-        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until, start, schedule)]))
+        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until)]))
         for conf, eig in _eigenvalue_sets(cache, confs):
             check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
     return integrator, name, reason

@@ -449,7 +449,7 @@ def parse_text(text: str, file: str = "<text>") -> Netlist:
         tree = _parser().parse(text)
     except UnexpectedInput as err:
         raise _syntax_error(err, file, lines) from None
-    except LarkError as err:  # any other lark failure, still reported in our words
+    except LarkError:  # any other lark failure, still reported in our words
         raise NetlistError("the text could not be read as a netlist", Where(file, 1, 1, lines[0] if lines else ""),
                            "check the statement words against docs/language.md") from None
     try:
