@@ -157,3 +157,36 @@ def test_a_circuit_that_cannot_run_is_reported_once_as_bad_input(tmp_path):
     with pytest.raises(CircuitodeError) as err:
         run_batch(loads(text), samples=10, out_dir=tmp_path / "x", progress=False)
     assert err.value.exit_code == 2 and "K1" in str(err.value)
+
+
+def test_summary_names_the_sample_closest_to_each_limit(tmp_path):
+    r = _run(tmp_path, plots=False)
+    k, value = r.worst["peak of current through R1 < 1.2"]
+    peaks = r.figures[:, r.figure_keys.index(("peak", "current through R1"))]
+    assert k == int(np.argmax(peaks)) and value == peaks.max()
+    assert f"at sample {k}" in format_batch_summary(r)
+
+
+class _FakeTerminal:
+    def __init__(self):
+        self.text = ""
+
+    def isatty(self):
+        return True
+
+    def write(self, s):
+        self.text += s
+
+    def flush(self):
+        pass
+
+
+def test_progress_bar_only_on_a_terminal(tmp_path, monkeypatch, capsys):
+    from circuitode.tolerance import batch
+
+    _run(tmp_path / "quiet", samples=20, plots=False, progress=True)
+    assert capsys.readouterr().err == ""  # pytest's stderr is not a terminal
+    fake = _FakeTerminal()
+    monkeypatch.setattr(batch.sys, "stderr", fake)
+    _run(tmp_path / "tty", samples=20, plots=False, progress=True, chunk_size=10)
+    assert "20/20" in fake.text and "10/20" in fake.text

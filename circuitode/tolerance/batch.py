@@ -18,7 +18,7 @@ import numpy as np
 
 from ..circuit import Circuit, PowerIn
 from ..errors import CircuitodeError
-from ..limits import check_requirements_batch
+from ..limits import check_requirements_batch, requirement_margins_batch
 from ..measure import figure_unit, measure
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
@@ -58,6 +58,7 @@ class BatchResult:
     chunks_resumed: int = 0
     executor: str = ""
     out_dir: Path | None = None
+    worst: dict = field(default_factory=dict)
 
     @property
     def exit_code(self) -> int:
@@ -286,11 +287,19 @@ def _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, resumed, e
     reqs = tuple(circuit.requirements)
     passes = check_requirements_batch(reqs, fig_map) if reqs else np.zeros((ok.size, 0), dtype=bool)
     limit_passes = {r.label: passes[:, i] for i, r in enumerate(reqs)}
+    worst = {}
+    if reqs:
+        margins = requirement_margins_batch(reqs, fig_map)
+        for i, r in enumerate(reqs):
+            m = np.where(np.isfinite(margins[:, i]), margins[:, i], np.inf)
+            if np.isfinite(m).any():
+                k = int(np.argmin(m))
+                worst[r.label] = (k, float(fig_map[(r.figure, r.probe.label)][k]))
     yld = estimate_yield(limit_passes, ok)
     params = table.values
     sens = {k: sensitivity_ranking(table.names, params, figures[:, j]) for j, k in enumerate(keys)}
     result = BatchResult(table, list(keys), units, figures, ok, messages, summaries, yld, sens, reqs,
-                         {}, min_yield, resumed, executor_name, Path(store.folder))
+                         {}, min_yield, resumed, executor_name, Path(store.folder), worst)
     result.files = _write_outputs(result, Path(store.folder), plots)
     result.files.update(_write_waveforms(parts, probes, Path(store.folder)))
     return result
@@ -381,6 +390,10 @@ def format_batch_summary(result: BatchResult) -> str:
                      f"(95 % Wilson interval {100 * y.low:.2f}–{100 * y.high:.2f} %)")
         for label, count in y.per_limit.items():
             lines.append(f"  {label[:60]}: {count} pass")
+            if label in result.worst:
+                k, value = result.worst[label]
+                params = ", ".join(f"{n}={v:.4g}" for n, v in zip(t.names, t.values[k]))
+                lines.append(f"    closest to the limit: {value:.4g} at sample {k} ({params})")
     else:
         lines.append("Yield: no 'require' limits in the netlist")
     lines.append("Strongest driver (Spearman rank correlation):")
