@@ -23,7 +23,7 @@ from ..measure import figure_unit, measure
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
-from .statistics import FigureSummary, YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
+from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .store import ChunkStore, fingerprint_text
 
 __all__ = ["BatchResult", "run_batch", "run_chunk", "format_batch_summary", "batch_figure_keys"]
