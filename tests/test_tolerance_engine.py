@@ -54,6 +54,22 @@ record voltage at link, current through R1, current through K_main, power in R1
 """
 
 
+SPREAD_PACK_VOLTAGE = """
+circuit "pre-charge from a pack whose voltage is spread"
+param V_pack = 48 V ± 10 %
+param R_pre  = 10 Ω ± 5 %
+param C_link = 1.5 mF ± 20 % uniform
+ground gnd
+voltage_source pack   pack -- gnd    step from 0 V to V_pack at 0.5 ms
+resistor  R_int   pack -- a       25 mΩ
+resistor  R1      a -- link       R_pre
+switch    K_main  a -- link       closes when voltage at link > 40 V  on 2 mΩ
+capacitor C1      link -- gnd     C_link  initial 0 V
+resistor  R_load  link -- gnd     2.2 kΩ
+transient until 60 ms step 25 us method exact initial given
+record voltage at link, current through R1, current through K_main
+"""
+
 ALREADY_MET_AT_START = """
 circuit "bypass whose condition holds from the start"
 param R_pre  = 10 Ω ± 5 %
@@ -130,6 +146,12 @@ def test_fifty_samples_equal_single_runs_with_a_threshold_switch():
     # every sample's bypass closed, at its own instant (later for a larger R·C)
     t_peak = res["figures"][:, keys.index(("time_of_peak", "current through K_main"))]
     assert np.ptp(t_peak) > 1e-3
+
+
+def test_spread_source_levels_equal_single_runs():
+    # the pack voltage varies per sample (SourceBatch: waveforms are linear in their levels)
+    res, ref, keys, ptv = _batch_and_reference(SPREAD_PACK_VOLTAGE, n=20)
+    _assert_agree(res, ref, keys, ptv, window=0.06)
 
 
 @pytest.mark.parametrize("text, window", [(ALREADY_MET_AT_START, 5e-3), (CASCADE, 40e-3)])

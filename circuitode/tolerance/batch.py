@@ -105,12 +105,22 @@ def _element_values(circuit: Circuit, names: Sequence[str], block: np.ndarray) -
 
 
 def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
+    """Source fields may vary per sample only where the waveform is linear in them
+    (its levels); timing fields are shared by a batch."""
+    from ..source_batch import LEVEL_FIELDS
+
     for (element, field_), recipe in circuit.recipes.items():
-        if "." in field_ and set(getattr(recipe, "names", ())) & set(names):
+        if "." not in field_ or not set(getattr(recipe, "names", ())) & set(names):
+            continue
+        source = circuit.by_name.get(element)
+        level = field_.split(".", 1)[1]
+        allowed = LEVEL_FIELDS.get(type(getattr(source, "waveform", None)), ())
+        if not field_.startswith("waveform.") or level not in allowed:
             raise CircuitodeError(
-                f"the tolerance on {field_.split('.', 1)[1]} of source {element} is not supported in "
-                "batches yet; only resistances, capacitances, inductances, switch resistances and "
-                "couplings may vary — remove that tolerance or fix the source value"
+                f"the tolerance on {level} of source {element} is not supported in batches: "
+                f"switching instants and other timing stay common to every sample; only a "
+                f"source's levels ({', '.join(allowed) or 'none for this waveform'}) may vary — "
+                "remove that tolerance or fix the value"
             )
 
 

@@ -31,7 +31,9 @@ import numpy as np
 
 from ..circuit import Circuit, CurrentThrough, PowerIn, ThresholdRule, VoltageAcross
 from ..errors import CircuitodeError
+from ..source_batch import SourceBatch
 from ..sources import SourceBank
+from ..statespace import VARIABLE_FIELDS
 from ..statespace import StateSpaceCache, initial_state
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from .stepping import Record, Stretch, matvec
@@ -113,7 +115,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     Parameters
     ----------
     circuit : the built circuit (its analysis gives window, step, initial state).
-    values : {(element, field): (N,) array} per-sample element values.
+    values : {(element, field): (N,) array} per-sample element values; a source's
+        level fields are given as (source, "waveform.<field>") (see source_batch).
     probes : what to record (PowerIn allowed).
     method : "exact" (batched matrix exponential) or "rk4" (batched classic RK4).
     """
@@ -129,9 +132,12 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for r in rules:  # watched quantities, sharing a recorded row where they can
         if r.probe not in all_rows:
             all_rows.append(r.probe)
-    cache = StateSpaceCache(circuit, all_rows, values)
-    bank = SourceBank.of(circuit)
-    m = bank.m
+    element_values = {k: v for k, v in values.items() if not k[1].startswith("waveform.")}
+    source_values = {k: v for k, v in values.items() if k[1].startswith("waveform.")}
+    cache = StateSpaceCache(circuit, all_rows, _with_batch_axis(circuit, element_values, N))
+    nominal_bank = SourceBank.of(circuit)
+    bank = SourceBatch(nominal_bank, source_values, size=N) if source_values else nominal_bank
+    m = nominal_bank.m
     until = float(t_grid[-1])
     slack = 1e-12 * until
     watch = Watch(rules, [all_rows.index(r.probe) for r in rules], EVENT_TOL_FRACTION * until,
@@ -164,7 +170,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     ss0 = cache.get(key_for(tuple(timed))(0))
     note(ss0)
     mode = circuit.analysis.initial if circuit.analysis is not None else "given"
-    u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if m else np.zeros(0)
+    u_before = bank.values(-np.finfo(float).tiny) if m else np.zeros(0)  # (m,) or (N, m)
     x = np.asarray(initial_state(circuit, mode, ss0, np.broadcast_to(u_before, (N, m))), dtype=float)
     x = np.where(ok[:, None], x, 0.0)
     n = x.shape[1]
@@ -179,11 +185,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         if m:
             gen = bank.generators(a, b)
             F = np.atleast_2d(np.asarray(gen.F, dtype=float))
-            z0 = np.asarray(gen.z0, dtype=float).reshape(-1)
-            H = np.asarray(gen.H, dtype=float).reshape(m, z0.size)
+            z0 = np.asarray(gen.z0, dtype=float)  # (q,), or (N, q) when source levels vary
+            H = np.asarray(gen.H, dtype=float).reshape(m, z0.shape[-1])
         else:
             F, z0, H = np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0))
-        w = np.concatenate([x, np.broadcast_to(z0, (N, z0.size))], axis=1)
+        w = np.concatenate([x, np.broadcast_to(z0, (N, z0.shape[-1]))], axis=1)
         # scheduled changes due now: rows just before (old configuration) and after
         due = []
         while queue and queue[0][0] <= a + slack:
@@ -246,6 +252,18 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
+
+
+def _with_batch_axis(circuit: Circuit, values: dict, N: int) -> dict:
+    """Element values for assembly, always with the batch axis N: when only source
+    levels vary, one element value is given per sample at its nominal value."""
+    if values:
+        return values
+    for e in circuit.elements:
+        for field_ in VARIABLE_FIELDS.get(type(e), ()):
+            if getattr(e, field_) is not None:
+                return {(e.name, field_): np.full(N, float(getattr(e, field_)))}
+    raise CircuitodeError("a batch needs at least one resistor, capacitor, inductor or switch resistance")
 
 
 def _batch_size(values: dict) -> int:
