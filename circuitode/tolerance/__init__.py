@@ -3,9 +3,10 @@
 Public entry: :func:`run_batch` (and :func:`format_batch_summary` for the text
 the command line prints).  See DESIGN "Batches over tolerances".
 """
-from .batch import BatchResult, format_batch_summary, run_batch, run_chunk
+from .batch import BatchResult, run_batch, run_chunk
 from .engine import ChunkWaves, simulate_chunk
 from .sampling import SAMPLERS, SampleTable, draw_samples, spreads_with_overrides
+from .summary import format_batch_summary
 from .statistics import estimate_yield, sensitivity_ranking, summarise_figure, wilson_interval
 
 __all__ = [

@@ -1,7 +1,7 @@
 """A whole tolerance batch: sample, run chunks (anywhere), store, reduce, report.
 
-:func:`run_batch` is the public entry; :func:`format_batch_summary` the text the
-command line prints.  Each chunk is an independent task (:func:`run_chunk`,
+:func:`run_batch` is the public entry (the text the command line prints is in
+:mod:`.summary`).  Each chunk is an independent task (:func:`run_chunk`,
 picklable) returning figures per sample; a chunk whose run raises records the
 message for each of its samples instead of stopping the batch.
 """
@@ -26,7 +26,7 @@ from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .store import ChunkStore, fingerprint_text
 
-__all__ = ["BatchResult", "run_batch", "run_chunk", "format_batch_summary", "batch_figure_keys"]
+__all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys"]
 
 _BYTES_PER_CHUNK = 400e6  # waveform memory a chunk may hold (bytes)
 _WAVEFORM_POINTS = 2000  # kept waveforms are decimated to at most about this many points
@@ -373,51 +373,3 @@ def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
 
         files.update(write_plots(result, folder))
     return files
-
-
-def _fmt(v: float) -> str:
-    return "-" if not np.isfinite(v) else f"{v:.3g}"
-
-
-def format_batch_summary(result: BatchResult) -> str:
-    """A short plain-text summary (≤ 80 columns): statistics, yield, strongest drivers."""
-    t = result.samples
-    lines = [f"Tolerance batch: {t.count} samples ({t.sampler}, seed {t.seed}), "
-             f"{int((~result.ok).sum())} failed"]
-    if t.note:
-        lines.append(f"  note: {t.note}")
-    if result.chunks_resumed:
-        lines.append(f"  resumed: {result.chunks_resumed} chunk(s) were already on disk")
-    lines.append(f"{'figure':<29}" + "".join(f"{h:>10}" for h in ("mean", "sigma", "P1", "P99", "max")))
-    for (key, s), unit in zip(result.summaries.items(), result.figure_units):
-        name = f"{key[0]} {key[1].replace('current through ', 'I ').replace('voltage at ', 'V ')}"
-        name = f"{name} [{unit}]" if unit else name
-        cells = (s.mean, s.std, s.percentiles[0], s.percentiles[-1], s.maximum)
-        lines.append(f"{name[:28]:<29}" + "".join(f"{_fmt(v):>10}" for v in cells))
-    y = result.yield_estimate
-    if result.requirements:
-        lines.append(f"Yield: {y.passed}/{y.total} = {100 * y.fraction:.2f} % "
-                     f"(95 % Wilson interval {100 * y.low:.2f}–{100 * y.high:.2f} %)")
-        for label, count in y.per_limit.items():
-            lines.append(f"  {label[:60]}: {count} pass")
-            if label in result.worst:
-                k, value = result.worst[label]
-                params = ", ".join(f"{n}={v:.4g}" for n, v in zip(t.names, t.values[k]))
-                lines.append(f"    closest to the limit: {value:.4g} at sample {k} ({params})")
-    else:
-        lines.append("Yield: no 'require' limits in the netlist")
-    lines.append("Strongest driver (Spearman rank correlation):")
-    for key, drivers in result.sensitivity.items():
-        if drivers and np.isfinite(drivers[0].rho):
-            lines.append(f"  {key[0]} of {key[1]}"[:56].ljust(57)
-                         + f"{drivers[0].parameter[:14]:<15}{drivers[0].rho:+.2f}")
-    if result.out_dir is not None:
-        plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
-        waves = sum(1 for k in result.files if k.startswith("waveform"))
-        extra = (f", {plots} plots" if plots else "") + (f", {waves} waveforms" if waves else "")
-        lines.append(f"Written to {result.out_dir}: samples.csv, batch_summary.json{extra}")
-    if result.min_yield is not None:
-        verdict = "meets" if result.exit_code == 0 else "is BELOW"
-        lines.append(f"Yield {verdict} the minimum of {100 * result.min_yield:.1f} %")
-    lines.append("Simulation results do not replace measurement and qualified review.")
-    return "\n".join(line[:80] for line in lines)

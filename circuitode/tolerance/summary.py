@@ -1,0 +1,97 @@
+"""The printed summary of a tolerance batch (≤ 80 columns); formatting only, no numerics.
+
+Values go through :func:`circuitode.netlist.quantities.format_si`, limits are
+worded as in a single run's report, and a figure that does not vary over the
+batch (relative spread below 1e-9) gets no "strongest driver": a rank
+correlation of rounding noise would name a part that does not matter.
+"""
+from __future__ import annotations
+
+import math
+import textwrap
+
+import numpy as np
+
+from ..netlist.quantities import format_si
+from ..report import SAFETY_LINE, WIDTH, requirement_words
+
+__all__ = ["format_batch_summary", "NO_SPREAD"]
+
+#: Relative spread (σ / max(|mean|, |max|)) below which a figure counts as not varying.
+NO_SPREAD = 1e-9
+
+_FIGURE_WORDS = {"time_of_peak": "time of peak", "i2t": "I²t", "settling_time": "settling",
+                 "rise_time": "rise time", "final": "final value"}
+
+
+def _si(value: float, unit: str, digits: int = 4) -> str:
+    return "—" if not math.isfinite(value) else format_si(value, unit, digits)
+
+
+def _figure_label(key: tuple[str, str]) -> str:
+    figure, probe = key
+    if figure == "energy" and probe.startswith("power in "):
+        return f"energy in {probe[len('power in '):]}"
+    return f"{_FIGURE_WORDS.get(figure, figure.replace('_', ' '))}, {probe}"
+
+
+def _varies(summary) -> bool:
+    scale = max(abs(summary.mean), abs(summary.maximum), abs(summary.minimum))
+    return math.isfinite(summary.std) and summary.std > NO_SPREAD * scale
+
+
+def format_batch_summary(result) -> str:
+    """Statistics per figure, yield with its Wilson interval, closest samples, drivers."""
+    t = result.samples
+    failed = int((~result.ok).sum())
+    lines = [f"tolerance batch: {t.count} samples ({t.sampler}, seed {t.seed}), "
+             f"{failed} failed to run" if failed else
+             f"tolerance batch: {t.count} samples ({t.sampler}, seed {t.seed}), all ran"]
+    if t.note:
+        lines.append(f"  note: {t.note}")
+    if result.chunks_resumed:
+        lines.append(f"  resumed: {result.chunks_resumed} chunk(s) were already on disk")
+    lines.append("")
+    head = f"{'figure':<34}" + "".join(f"{h:>11}" for h in ("mean", "σ", "P1", "P99"))
+    lines += [head, "─" * len(head)]
+    for (key, s), unit in zip(result.summaries.items(), result.figure_units):
+        cells = (s.mean, s.std, s.percentiles[0], s.percentiles[-1])
+        label = _figure_label(key)
+        label = label if len(label) <= 33 else label[:32] + "…"
+        lines.append(f"{label:<34}" + "".join(f" {_si(v, unit, 3):>10}" for v in cells))
+    lines.append("")
+    y = result.yield_estimate
+    if result.requirements:
+        lines.append(f"yield: {y.passed} of {y.total} = {100 * y.fraction:.2f} % "
+                     f"(95 % Wilson interval {100 * y.low:.2f} to {100 * y.high:.2f} %)")
+        units = dict(zip(result.figure_keys, result.figure_units))
+        for r in result.requirements:
+            unit = units.get((r.figure, r.probe.label), "")
+            count = y.per_limit.get(r.label, 0)
+            lines.append(f"  {count:>{len(str(y.total))}} pass  {requirement_words(r, unit)}")
+            if r.label in result.worst:
+                k, value = result.worst[r.label]
+                params = ", ".join(f"{n} {v:.4g}" for n, v in zip(t.names, t.values[k]))
+                lines.append(f"      closest: {_si(value, unit)} at sample {k} ({params})"[:WIDTH])
+    else:
+        lines.append("yield: no 'require' limits in the netlist")
+    lines.append("")
+    lines.append("strongest driver of each figure (Spearman rank correlation):")
+    for (key, drivers), s in zip(result.sensitivity.items(), result.summaries.values()):
+        label = _figure_label(key)
+        label = label if len(label) <= 45 else label[:44] + "…"
+        if not _varies(s):
+            lines.append(f"  {label:<46}does not vary")
+        elif drivers and np.isfinite(drivers[0].rho):
+            lines.append(f"  {label:<46}{drivers[0].parameter[:20]:<21}{drivers[0].rho:+.2f}")
+    if result.out_dir is not None:
+        plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
+        waves = sum(1 for k in result.files if k.startswith("waveform"))
+        extra = (f", {plots} plots" if plots else "") + (f", {waves} waveforms" if waves else "")
+        lines.append("")
+        lines.append(f"written to {result.out_dir}: samples.csv, batch_summary.json{extra}"[:WIDTH])
+    if result.min_yield is not None:
+        verdict = "meets" if result.exit_code == 0 else "is BELOW"
+        lines.append(f"yield {verdict} the minimum of {100 * result.min_yield:.1f} %")
+    lines.extend(textwrap.wrap(SAFETY_LINE, WIDTH))
+    return "\n".join(lines)
