@@ -41,6 +41,7 @@ __all__ = [
     "limits_text",
     "requirement_words",
     "event_words",
+    "unit_of_parameter",
     "write_summary_json",
     "describe_control",
     "describe_waveform",
@@ -230,7 +231,7 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
         out.append("")
         out.append("tolerances:")
         for s in circuit.spreads.values():
-            unit = _unit_of_parameter(circuit, s.name)
+            unit = unit_of_parameter(circuit, s.name)
             out.append(
                 f"  {_fit(s.name, 20):<21}{format_si(s.nominal, unit):>12}  ± {s.relative * 100:g} % "
                 f"{s.distribution}"
@@ -258,7 +259,7 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
     return "\n".join(out)
 
 
-def _unit_of_parameter(circuit: Circuit, name: str) -> str:
+def unit_of_parameter(circuit: Circuit, name: str) -> str:
     """The unit of a toleranced parameter, from the first element field it feeds."""
     fields = {"resistance": "Ω", "on_resistance": "Ω", "off_resistance": "Ω", "capacitance": "F",
               "inductance": "H", "initial_voltage": "V", "initial_current": "A", "k": ""}

@@ -20,6 +20,7 @@ from ..circuit import Circuit, PowerIn
 from ..errors import CircuitodeError
 from ..limits import check_requirements_batch, requirement_margins_batch
 from ..measure import figure_unit, measure
+from ..report import unit_of_parameter
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
@@ -41,6 +42,7 @@ class BatchResult:
     ("" where the run succeeded).  summaries : key → FigureSummary.  yield_estimate :
     against the netlist's requirements.  sensitivity : key → [Driver] strongest first.
     files : name → path written.  min_yield : the threshold asked for, or None.
+    parameter_units : parameter name → unit of the values it feeds ("" if unknown).
     """
 
     samples: SampleTable
@@ -59,6 +61,7 @@ class BatchResult:
     executor: str = ""
     out_dir: Path | None = None
     worst: dict = field(default_factory=dict)
+    parameter_units: dict = field(default_factory=dict)
 
     @property
     def exit_code(self) -> int:
@@ -309,7 +312,8 @@ def _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, resumed, e
     params = table.values
     sens = {k: sensitivity_ranking(table.names, params, figures[:, j]) for j, k in enumerate(keys)}
     result = BatchResult(table, list(keys), units, figures, ok, messages, summaries, yld, sens, reqs,
-                         {}, min_yield, resumed, executor_name, Path(store.folder), worst)
+                         {}, min_yield, resumed, executor_name, Path(store.folder), worst,
+                         {name: unit_of_parameter(circuit, name) for name in table.names})
     result.files = _write_outputs(result, Path(store.folder), plots)
     result.files.update(_write_waveforms(parts, probes, Path(store.folder)))
     return result

@@ -15,7 +15,7 @@ import numpy as np
 from ..netlist.quantities import format_si
 from ..report import SAFETY_LINE, WIDTH, requirement_words
 
-__all__ = ["format_batch_summary", "NO_SPREAD"]
+__all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
 
 #: Relative spread (σ / max(|mean|, |max|)) below which a figure counts as not varying.
 NO_SPREAD = 1e-9
@@ -28,14 +28,16 @@ def _si(value: float, unit: str, digits: int = 4) -> str:
     return "—" if not math.isfinite(value) else format_si(value, unit, digits)
 
 
-def _figure_label(key: tuple[str, str]) -> str:
+def figure_label(key: tuple[str, str]) -> str:
+    """E.g. ("peak", "current through R1") → "peak, current through R1"."""
     figure, probe = key
     if figure == "energy" and probe.startswith("power in "):
         return f"energy in {probe[len('power in '):]}"
     return f"{_FIGURE_WORDS.get(figure, figure.replace('_', ' '))}, {probe}"
 
 
-def _varies(summary) -> bool:
+def varies(summary) -> bool:
+    """True when the figure's spread is more than rounding noise (see NO_SPREAD)."""
     scale = max(abs(summary.mean), abs(summary.maximum), abs(summary.minimum))
     return math.isfinite(summary.std) and summary.std > NO_SPREAD * scale
 
@@ -56,7 +58,7 @@ def format_batch_summary(result) -> str:
     lines += [head, "─" * len(head)]
     for (key, s), unit in zip(result.summaries.items(), result.figure_units):
         cells = (s.mean, s.std, s.percentiles[0], s.percentiles[-1])
-        label = _figure_label(key)
+        label = figure_label(key)
         label = label if len(label) <= 33 else label[:32] + "…"
         lines.append(f"{label:<34}" + "".join(f" {_si(v, unit, 3):>10}" for v in cells))
     lines.append("")
@@ -78,9 +80,9 @@ def format_batch_summary(result) -> str:
     lines.append("")
     lines.append("strongest driver of each figure (Spearman rank correlation):")
     for (key, drivers), s in zip(result.sensitivity.items(), result.summaries.values()):
-        label = _figure_label(key)
+        label = figure_label(key)
         label = label if len(label) <= 45 else label[:44] + "…"
-        if not _varies(s):
+        if not varies(s):
             lines.append(f"  {label:<46}does not vary")
         elif drivers and np.isfinite(drivers[0].rho):
             lines.append(f"  {label:<46}{drivers[0].parameter[:20]:<21}{drivers[0].rho:+.2f}")
