@@ -73,8 +73,12 @@ def format_batch_summary(result) -> str:
             lines.append(f"  {count:>{len(str(y.total))}} pass  {requirement_words(r, unit)}")
             if r.label in result.worst:
                 k, value = result.worst[r.label]
-                params = ", ".join(f"{n} {v:.4g}" for n, v in zip(t.names, t.values[k]))
-                lines.append(f"      closest: {_si(value, unit)} at sample {k} ({params})"[:WIDTH])
+                units_of = getattr(result, "parameter_units", {}) or {}
+                # no-break spaces keep each "name value unit" on one line when wrapped
+                params = ", ".join(f"{n} {format_si(v, units_of.get(n, ''), 4)}".replace(" ", "\u00a0")
+                                   for n, v in zip(t.names, t.values[k]))
+                lines.extend(textwrap.wrap(f"closest: {_si(value, unit)} at sample {k} ({params})", WIDTH,
+                                           initial_indent=" " * 6, subsequent_indent=" " * 8))
     else:
         lines.append("yield: no 'require' limits in the netlist")
     lines.append("")
