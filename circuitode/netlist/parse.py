@@ -226,10 +226,7 @@ class _ToTree(Transformer):
         unit = next((str(t) for t in items[2:] if t.type == "UNIT"), "")
         distribution = next((str(t) for t in items[2:] if t.type == "DISTRIBUTION"), "normal")
         where = self.at(number)
-        try:
-            q = read_quantity(str(number), unit)
-        except NetlistError as err:
-            raise NetlistError(err.message, where, err.hint) from None
+        q = self._read(number, unit, where)
         if q.unit != "%":
             raise NetlistError("a tolerance is written in percent", where, f"write '± {number} %'")
         if not 0.0 < q.value < 1.0:
@@ -242,11 +239,16 @@ class _ToTree(Transformer):
         number = items[0]
         unit = str(items[1]) if len(items) > 1 else ""
         where = self.at(number)
+        q = self._read(number, unit, where)
+        return ex.Number(q.value, q.unit, where)
+
+    @staticmethod
+    def _read(number, unit: str, where):
+        """The quantity of a number token and its unit, errors located at ``where``."""
         try:
-            q = read_quantity(str(number), unit)
+            return read_quantity(str(number), unit)
         except NetlistError as err:
             raise NetlistError(err.message, where, err.hint) from None
-        return ex.Number(q.value, q.unit, where)
 
     def name(self, items):
         return ex.Name(str(items[0]), self.at(items[0]))
