@@ -9,6 +9,11 @@ generator ``u = H z``, ``z' = F z``, appended to the state, so that
 each of shape (N, ·, ·) for the N samples of a chunk.  Samples differ in
 configuration only through threshold switches; a configuration *code* per
 sample (bit j set once threshold switch j has acted) picks each sample's rows.
+
+Runs of equal steps are taken a block at a time: with the powers
+``Φ, Φ², …, Φ^K`` of a step matrix tabulated once per configuration and
+stretch, the states at the next K grid instants are ``Φ^j w`` for j = 1…K,
+one stacked product instead of K Python-level steps.
 """
 from __future__ import annotations
 
@@ -44,6 +49,7 @@ class Stretch:
         self.on_assembled = on_assembled
         self._MG: dict = {}
         self._phi: dict = {}
+        self._powers: dict = {}
 
     def _matrices(self, code: int):
         if code not in self._MG:
@@ -68,6 +74,20 @@ class Stretch:
         if (code, h) not in self._phi:
             self._phi[code, h] = self.propagate(self._matrices(code)[0], h)
         return self._phi[code, h]
+
+    def _power_table(self, code: int, h: float, K: int) -> np.ndarray:
+        """(N, K, s, s): Φ(h)^(j+1) in column j, by repeated doubling (log2 K products)."""
+        if (code, h, K) not in self._powers:
+            phi = self._step(code, h)
+            P = np.empty((phi.shape[0], K) + phi.shape[1:])
+            P[:, 0] = phi
+            m = 1
+            while m < K:  # Φ^m · Φ^(j+1) = Φ^(m+j+1) for the first r columns
+                r = min(m, K - m)
+                P[:, m:m + r] = P[:, m - 1:m] @ P[:, :r]
+                m += r
+            self._powers[code, h, K] = P
+        return self._powers[code, h, K]
 
     @staticmethod
     def _rows(fetch: Callable[[int], np.ndarray], code: np.ndarray, idx: np.ndarray | None):
@@ -94,6 +114,10 @@ class Stretch:
         """(K, s, s) step matrices Φ(h) of samples idx in their configurations."""
         return self._rows(lambda c: self._step(c, h), code, idx)
 
+    def powers(self, code: np.ndarray, h: float, K: int, idx: np.ndarray | None = None) -> np.ndarray:
+        """(K_idx, K, s, s) powers Φ(h)^1 … Φ(h)^K of samples idx in their configurations."""
+        return self._rows(lambda c: self._power_table(c, h, K), code, idx)
+
     def propagate(self, M: np.ndarray, h) -> np.ndarray:
         """Φ for matrices M (K, s, s) and step lengths h (s, scalar or (K,))."""
         Mh = M * np.reshape(h, (-1, 1, 1))
@@ -101,67 +125,80 @@ class Stretch:
 
 
 class Record:
-    """Each sample's recorded rows, assembled in time order at the end.
+    """Each sample's recorded rows, written straight to their place in time order.
 
     Rows every sample records at the same instant (grid instants, timed switching)
-    go to shared columns; the few rows a sample records at its own instants (a
-    threshold switch acting: just before and just after) go to a side buffer with
-    the shared column they precede.  ``finish`` interleaves them with one masked
-    copy per possible number of preceding extra rows.
+    are *common columns*; the few rows a sample records at its own instants (a
+    threshold switch acting: just before and just after) are *extra rows*, each
+    placed before the common column ``pos`` it precedes.  A sample's common column
+    c therefore lands at c plus the number of its extra rows with ``pos ≤ c``; most
+    samples share that offset, so columns are copied in slices per offset.
     """
 
     def __init__(self, N: int, capacity: int, extra_capacity: int, p: int):
         self.t_common = np.empty(capacity)
-        self.y = np.empty((N, p, capacity))
+        self.y = np.empty((N, p, capacity + extra_capacity))
+        self.t = np.empty((N, capacity + extra_capacity)) if extra_capacity else None
         self.common = 0
-        self.ext_t = np.empty((N, extra_capacity))
-        self.ext_y = np.empty((N, p, extra_capacity))
-        self.ext_pos = np.empty((N, extra_capacity), dtype=np.int64)
+        self.ext_pos = np.empty((N, max(extra_capacity, 1)), dtype=np.int64)
         self.ext_count = np.zeros(N, dtype=np.int64)
 
     def all(self, t: float, y: np.ndarray) -> None:
         """One row y (N, p) at instant t for every sample."""
-        self.t_common[self.common] = t
-        self.y[:, :, self.common] = y
-        self.common += 1
+        self.columns(np.array([t], dtype=float), y[:, :, None])
 
-    def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray) -> None:
-        """Rows y (len(idx), p) at instants t (len(idx),) for samples idx only."""
+    def columns(self, ts: np.ndarray, Y: np.ndarray) -> None:
+        """The next K common columns: instants ts (K,) s and rows Y (N, p, K), every sample."""
+        c0, K = self.common, ts.size
+        self.t_common[c0:c0 + K] = ts
+        self.common += K
+        if self.t is None:
+            self.y[:, :, c0:c0 + K] = Y
+            return
+        count = self.ext_count
+        last = np.where(count > 0, self.ext_pos[np.arange(count.size), np.maximum(count - 1, 0)], -1)
+        moving = last >= c0  # extra rows placed among these columns
+        steady = ~moving
+        for o in np.unique(count[steady]):
+            sel = steady & (count == o)
+            if sel.all():
+                self.y[:, :, c0 + o:c0 + o + K] = Y
+                self.t[:, c0 + o:c0 + o + K] = ts
+            else:
+                self.y[sel, :, c0 + o:c0 + o + K] = Y[sel]
+                self.t[sel, c0 + o:c0 + o + K] = ts
+        r = np.flatnonzero(moving)
+        if r.size:
+            cols = c0 + np.arange(K)
+            used = np.arange(self.ext_pos.shape[1])[None, :] < count[r, None]  # (R, E)
+            before = ((self.ext_pos[r, :, None] <= cols[None, None, :]) & used[:, :, None]).sum(axis=1)
+            dest = cols[None, :] + before  # (R, K)
+            self.y[r[:, None], :, dest] = np.swapaxes(Y[r], 1, 2)
+            self.t[r[:, None], dest] = ts[None, :]
+
+    def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray, pos=None) -> None:
+        """Rows y (len(idx), p) at instants t (len(idx),) for samples idx only (each once),
+        placed before common column pos (scalar or (len(idx),); the next one by default)."""
         k = self.ext_count[idx]
-        self.ext_t[idx, k] = t
-        self.ext_y[idx, :, k] = y
-        self.ext_pos[idx, k] = self.common
+        pos = np.broadcast_to(self.common if pos is None else np.asarray(pos, dtype=np.int64), idx.shape)
+        dest = pos + k
+        self.t[idx, dest] = t
+        self.y[idx, :, dest] = y
+        self.ext_pos[idx, k] = pos
         self.ext_count[idx] += 1
 
     def finish(self) -> tuple[np.ndarray, np.ndarray]:
         """t (N, L) s and y (N, p, L).  A sample with fewer extra rows than another is
         padded at the end with copies of its last row (zero-length, changes no figure)."""
         C = self.common
-        N, p = self.y.shape[:2]
+        N = self.y.shape[0]
         E = int(self.ext_count.max(initial=0))
-        y_common = self.y[:, :, :C]
         if E == 0:
-            return np.broadcast_to(self.t_common[:C], (N, C)), y_common
-        rows = np.arange(N)
-        unused = np.arange(E)[None, :] >= self.ext_count[:, None]
-        pos = np.where(unused, C, self.ext_pos[:, :E])
-        ext_t = np.where(unused, self.t_common[C - 1], self.ext_t[:, :E])
-        ext_y = np.where(unused[:, None, :], y_common[:, :, C - 1:C], self.ext_y[:, :, :E])
+            return np.broadcast_to(self.t_common[:C], (N, C)), self.y[:, :, :C]
         L = C + E
-        dest = pos + np.arange(E)[None, :]  # final column of each extra row
-        q = np.arange(L)
-        before = np.zeros((N, L), dtype=np.int64)  # extra rows placed before column q
-        is_extra = np.zeros((N, L), dtype=bool)
-        for k in range(E):  # E is small: two per threshold switch
-            before += dest[:, k:k + 1] < q[None, :]
-            is_extra[rows, dest[:, k]] = True
-        t = np.empty((N, L))
-        y = np.empty((N, p, L))
-        for r in range(E + 1):
-            mask = (before[:, r:C + r] == r) & ~is_extra[:, r:C + r]
-            np.copyto(t[:, r:C + r], np.broadcast_to(self.t_common[:C], (N, C)), where=mask)
-            np.copyto(y[:, :, r:C + r], y_common, where=mask[:, None, :])
-        for k in range(E):
-            t[rows, dest[:, k]] = ext_t[:, k]
-            y[rows, :, dest[:, k]] = ext_y[:, :, k]
-        return t, y
+        for o in np.unique(self.ext_count):
+            if o < E:
+                sel = self.ext_count == o
+                self.y[sel, :, C + o:L] = self.y[sel, :, C + o - 1:C + o]
+                self.t[sel, C + o:L] = self.t[sel, C + o - 1:C + o]
+        return self.t[:, :L], self.y[:, :, :L]

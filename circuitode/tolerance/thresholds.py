@@ -43,7 +43,10 @@ class Watch:
         return len(self.rules)
 
     def values(self, y: np.ndarray) -> np.ndarray:
-        """(N, k) signed distance to each threshold from outputs y (N, p): met where ≥ 0."""
+        """(N, k) signed distance to each threshold from outputs y (N, p): met where ≥ 0;
+        (N, k, K) from y (N, p, K), K instants each."""
+        if y.ndim == 3:
+            return (y[:, self.rows] - self.levels[:, None]) * self.signs[:, None]
         return (y[:, self.rows] - self.levels) * self.signs
 
     def pending(self, code: np.ndarray) -> np.ndarray:
@@ -71,52 +74,64 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
         record.some(idx, np.full(idx.size, a), y_now[idx])
 
 
-def handle_crossings(watch: Watch, stretch: Stretch, crossed, code, w_prev, w, y_now, g_now,
-                     t_prev: float, h: float, G_cur, phi_cur: dict, record: Record) -> None:
-    """Locate, switch and finish the step for every sample with a crossing.
+def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: np.ndarray, code,
+                     w_prev: np.ndarray, g_end: np.ndarray, t_prev, h: float, record: Record, pos=None):
+    """Locate, switch and finish one step for the samples idx, each with a crossing in it.
 
-    crossed : (N, k) bool.  w_prev : states at t_prev; w, y_now, g_now : at t_prev + h
-    in the old configurations — updated in place, as are code, G_cur and the per-sample
-    step matrices phi_cur, touching only the rows of the samples that switch.
+    idx : (K,) samples.  crossed : (K, k) bool, which pending thresholds turned.
+    w_prev : (K, s) states at the step's start t_prev (s, scalar or (K,)); g_end : (K, k)
+    signed values at its end t_prev + h in the old configurations.  pos : the record's
+    common column the step ends on (scalar or (K,); the next one by default).
+    Updates code, the event times and the record; returns (w_end, y_end, g_end) of the
+    K samples at the step's end in their new configurations.  The caller refreshes any
+    per-sample matrices it holds for the samples idx.
     """
-    idx = np.flatnonzero(crossed.any(axis=1))
-    start = np.zeros(idx.size)  # offset of each sub-interval's start from t_prev
-    w_start = w_prev[idx]
-    remaining = crossed[idx]
-    while idx.size:
-        M, G = stretch.M(code, idx), G_cur[idx]
-        tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[idx])
+    K = idx.size
+    t_prev = np.broadcast_to(np.asarray(t_prev, dtype=float), (K,))
+    pos = np.broadcast_to(record.common if pos is None else np.asarray(pos), (K,))
+    out_w = np.empty_like(w_prev)
+    out_y = None
+    g_now = np.array(g_end, dtype=float)
+    rows = np.arange(K)  # the rows still being worked on
+    start = np.zeros(K)  # offset of each sub-interval's start from t_prev
+    w_start = w_prev
+    remaining = crossed
+    while rows.size:
+        sub = idx[rows]
+        M, G = stretch.M(code, sub), stretch.G(code, sub)
+        tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[rows])
         w_e = matvec(stretch.propagate(M, tau - start), w_start)
         y_before = matvec(G, w_e)
-        code[idx] |= (1 << which)
-        watch.event_times[idx, which] = t_prev + tau
-        G_new = stretch.G(code, idx)
+        t_event, at = t_prev[rows] + tau, pos[rows]
+        code[sub] |= (1 << which)
+        watch.event_times[sub, which] = t_event
+        G_new = stretch.G(code, sub)
         y_after = matvec(G_new, w_e)
-        record.some(idx, t_prev + tau, y_before)
-        record.some(idx, t_prev + tau, y_after)
+        record.some(sub, t_event, y_before, at)
+        record.some(sub, t_event, y_after, at)
         while True:  # another threshold already strictly met at this instant acts at once
-            imm = watch.pending(code[idx]) & (watch.values(y_after) > 0.0)
+            imm = watch.pending(code[sub]) & (watch.values(y_after) > 0.0)
             r = np.flatnonzero(imm.any(axis=1))
             if r.size == 0:
                 break
-            sub, wh = idx[r], np.argmax(imm[r], axis=1)
-            code[sub] |= (1 << wh)
-            watch.event_times[sub, wh] = t_prev + tau[r]
-            G_new[r] = stretch.G(code, sub)
-            record.some(sub, t_prev + tau[r], y_after[r])
+            wh = np.argmax(imm[r], axis=1)
+            code[sub[r]] |= (1 << wh)
+            watch.event_times[sub[r], wh] = t_event[r]
+            G_new[r] = stretch.G(code, sub[r])
+            record.some(sub[r], t_event[r], y_after[r], at[r])
             y_after[r] = matvec(G_new[r], w_e[r])
-            record.some(sub, t_prev + tau[r], y_after[r])
-        G_cur[idx] = G_new
-        for length, phi in phi_cur.items():
-            phi[idx] = stretch.phi(code, length, idx)
-        w_end = matvec(stretch.propagate(stretch.M(code, idx), h - tau), w_e)
+            record.some(sub[r], t_event[r], y_after[r], at[r])
+        w_end = matvec(stretch.propagate(stretch.M(code, sub), h - tau), w_e)
         y_end = matvec(G_new, w_end)
-        w[idx], y_now[idx] = w_end, y_end
-        g_after, g_end = watch.values(y_after), watch.values(y_end)
-        g_now[idx] = g_end
-        again = watch.pending(code[idx]) & (g_after < 0.0) & (g_end >= 0.0)
+        if out_y is None:
+            out_y = np.empty((K, y_end.shape[1]))
+        out_w[rows], out_y[rows] = w_end, y_end
+        g_after, g_e = watch.values(y_after), watch.values(y_end)
+        g_now[rows] = g_e
+        again = watch.pending(code[sub]) & (g_after < 0.0) & (g_e >= 0.0)
         more = again.any(axis=1) & (tau < h)
-        idx, start, w_start, remaining = idx[more], tau[more], w_e[more], again[more]
+        rows, start, w_start, remaining = rows[more], tau[more], w_e[more], again[more]
+    return out_w, out_y, g_now
 
 
 def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_end):
