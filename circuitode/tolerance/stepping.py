@@ -173,7 +173,9 @@ class Record:
             used = np.arange(self.ext_pos.shape[1])[None, :] < count[r, None]  # (R, E)
             before = ((self.ext_pos[r, :, None] <= cols[None, None, :]) & used[:, :, None]).sum(axis=1)
             dest = cols[None, :] + before  # (R, K)
-            self.y[r[:, None], :, dest] = np.swapaxes(Y[r], 1, 2)
+            N, p, width = self.y.shape
+            rows = (r[:, None] * p + np.arange(p)[None, :]).reshape(-1, 1)  # (R·p, 1)
+            self.y.reshape(N * p, width)[rows, np.repeat(dest, p, axis=0)] = Y[r].reshape(-1, K)
             self.t[r[:, None], dest] = ts[None, :]
 
     def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray, pos=None) -> None:
