@@ -20,6 +20,12 @@ the window like the single run; every switching instant is recorded twice
 the breakpoints and the initial state follow :mod:`circuitode.transient`, so
 each sample's figures equal a single run's.
 
+Runs of equal grid steps are taken in blocks of up to :data:`MAX_BLOCK` steps
+(``w_j = Φ^j w_0`` with the powers of Φ tabulated once per stretch and
+configuration), so the Python work is per block, not per step; crossings are
+found from a whole block's outputs at once and located for all the samples
+that cross in it together.
+
 Samples whose values are unusable, or whose run goes non-finite, are marked
 failed with a message; the others carry on.
 """
