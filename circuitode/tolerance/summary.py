@@ -95,7 +95,8 @@ def format_batch_summary(result) -> str:
         waves = sum(1 for k in result.files if k.startswith("waveform"))
         extra = (f", {plots} plots" if plots else "") + (f", {waves} waveforms" if waves else "")
         lines.append("")
-        lines.append(f"written to {result.out_dir}: samples.csv, batch_summary.json{extra}"[:WIDTH])
+        lines.extend(textwrap.wrap(f"written to {result.out_dir}: samples.csv, batch_summary.json{extra}",
+                                   WIDTH, subsequent_indent="  "))
     if result.min_yield is not None:
         verdict = "meets" if result.exit_code == 0 else "is BELOW"
         lines.append(f"yield {verdict} the minimum of {100 * result.min_yield:.1f} %")
