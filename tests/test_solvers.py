@@ -283,7 +283,9 @@ def test_rk4_guard_refuses_unstable_step_and_accepts_stable_one():
     with pytest.raises(UnstableStepError) as info:
         check_rk4_step(eig, 1e-5)
     message = str(info.value)
-    assert "2.78529e-06" in message and "radau" in message and "exact" in message
+    # the limit in engineering notation, and a suggested step rounded down (still stable)
+    assert "2.78529 µs" in message and "2.78 µs or less" in message
+    assert "radau" in message and "exact" in message
     assert info.value.largest_stable_step == pytest.approx(limit, rel=1e-8)
     assert info.value.exit_code == 3
     check_rk4_step(eig, 2.7e-6)  # must not raise

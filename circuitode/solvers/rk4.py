@@ -13,6 +13,8 @@ matrices are built once per distinct step length.
 """
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy.optimize import brentq
 
@@ -99,11 +101,16 @@ def check_rk4_step(eigenvalues, step: float, where: str = "") -> None:
         lam = np.asarray(eigenvalues, dtype=complex).reshape(-1)
         binding = lam[np.argmin(limits)]
         place = f" {where}" if where else ""
+        from ..netlist.quantities import format_si
+
+        # the suggestion is rounded down to 3 significant digits, so it is itself stable
+        scale = 10.0 ** (math.floor(math.log10(limit)) - 2)
+        suggestion = math.floor(limit / scale) * scale
         raise UnstableStepError(
-            f"step {step:.6g} s is too large for method rk4{place}: the mode with eigenvalue "
-            f"{binding.real:.6g}{binding.imag:+.6g}j 1/s needs a step of at most "
-            f"{limit:.6g} s to stay stable; give a step ≤ {limit:.6g} s, "
-            "or use method radau or bdf (stiff) or exact",
+            f"step {format_si(step, 's')} is too large for method rk4{place}: the mode with "
+            f"eigenvalue {binding.real:.4g}{binding.imag:+.4g}j 1/s needs a step of at most "
+            f"{format_si(limit, 's', 6)} to stay stable; give a step of {format_si(suggestion, 's', 3)} "
+            "or less, or use method radau or bdf (stiff) or exact",
             largest_stable_step=limit,
         )
 
