@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from circuitode.errors import CircuitodeError
+from circuitode.errors import CircuitodeError, NetlistError
 from circuitode.netlist import loads
 from circuitode.tolerance import format_batch_summary, run_batch, wilson_interval
 
@@ -203,3 +203,14 @@ def test_progress_bar_only_on_a_terminal(tmp_path, monkeypatch, capsys):
     monkeypatch.setattr(batch.sys, "stderr", fake)
     _run(tmp_path / "tty", samples=20, plots=False, progress=True, chunk_size=10)
     assert "20/20" in fake.text and "10/20" in fake.text
+
+
+def test_a_spread_on_an_initial_value_is_refused_at_its_line(tmp_path):
+    # Batches share initial states; a tolerance reaching one is named at the
+    # netlist line that carries it, with what to change (not a nominal-run failure).
+    text = RC_WITH_LIMIT.replace("initial 0 V", "initial V0").replace(
+        "ground gnd", "param V0 = 1 V ± 10 %\nground gnd")
+    with pytest.raises(NetlistError) as info:
+        run_batch(loads(text), samples=10, out_dir=tmp_path, progress=False)
+    assert info.value.where is not None and info.value.where.line == 5
+    assert "initial voltage of C1" in info.value.message and "V0" in info.value.hint

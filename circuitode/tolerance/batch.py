@@ -16,8 +16,8 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..circuit import Circuit, PowerIn
-from ..errors import CircuitodeError
+from ..circuit import Circuit, Coupling, PowerIn
+from ..errors import CircuitodeError, NetlistError
 from ..limits import check_requirements_batch, requirement_margins_batch
 from ..measure import figure_unit, measure
 from ..report import unit_of_parameter
@@ -110,10 +110,25 @@ def _element_values(circuit: Circuit, names: Sequence[str], block: np.ndarray) -
 def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
     """Source fields may vary per sample only where the waveform is linear in them
     (its levels); timing fields are shared by a batch."""
+    from ..mna import VARIABLE_FIELDS
     from ..source_batch import LEVEL_FIELDS
 
     for (element, field_), recipe in circuit.recipes.items():
-        if "." not in field_ or not set(getattr(recipe, "names", ())) & set(names):
+        varied = sorted(set(getattr(recipe, "names", ())) & set(names))
+        if not varied:
+            continue
+        if "." not in field_:
+            owner = circuit.by_name.get(element)
+            allowed = ("k",) if isinstance(owner, Coupling) else VARIABLE_FIELDS.get(type(owner), ())
+            if field_ not in allowed:
+                spread = circuit.spreads.get(varied[0])
+                raise NetlistError(
+                    f"the tolerance on {varied[0]} reaches the {field_.replace('_', ' ')} of {element}, "
+                    "which a batch keeps common to every sample",
+                    getattr(spread, "where", None),
+                    f"remove the tolerance from {varied[0]}, or give {element} its "
+                    f"{field_.replace('_', ' ')} as a fixed value",
+                )
             continue
         source = circuit.by_name.get(element)
         level = field_.split(".", 1)[1]
