@@ -121,6 +121,7 @@ def describe_waveform(waveform: Any, unit: str) -> str:
         case "Sine":
             return (
                 f"sine {f(waveform.amplitude)} at {f(waveform.frequency, 'Hz')}"
+                + (f", phase {math.degrees(waveform.phase):.4g}°" if waveform.phase else "")
                 + (f", offset {f(waveform.offset)}" if waveform.offset else "")
                 + (f", from {f(waveform.delay, 's')}" if waveform.delay else "")
             )
