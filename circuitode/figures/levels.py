@@ -1,0 +1,44 @@
+"""Level figures: the largest and smallest sample, when the largest occurs, and the final level.
+
+Inputs and outputs follow :mod:`circuitode.figures`: ``t`` in s, ``y`` of shape
+``(..., nt)``, one value per signal in the signal's unit (s for the instant).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ._common import MeasurementError, _at, _checked, _ends, _integral
+
+__all__ = ["peak", "time_of_peak", "minimum", "final"]
+
+
+def peak(t, y) -> np.ndarray:
+    """Largest sample of ``y`` (signal unit), shape ``y.shape[:-1]``."""
+    t, y = _checked(t, y)
+    return np.max(y, axis=-1)
+
+
+def time_of_peak(t, y) -> np.ndarray:
+    """Instant (s, on the run's own clock) of the largest sample; the first one if repeated."""
+    t, y = _checked(t, y)
+    k = np.argmax(y, axis=-1)  # the first NaN where there is one, so one pass tells both
+    return np.where(np.isnan(np.take_along_axis(y, k[..., None], axis=-1)[..., 0]), np.nan, _at(t, k))
+
+
+def minimum(t, y) -> np.ndarray:
+    """Smallest sample of ``y`` (signal unit)."""
+    t, y = _checked(t, y)
+    return np.min(y, axis=-1)
+
+
+def final(t, y, *, window: float | None = None) -> np.ndarray:
+    """Final state level (signal unit): the last sample, or with ``window`` (s) the
+    time-average over the last ``window`` seconds (useful when ripple remains)."""
+    t, y = _checked(t, y)
+    if window is None:
+        return y[..., -1].copy()
+    if not window > 0:
+        raise MeasurementError(f"final-value window must be a positive duration, got {window!r} s")
+    first, last = _ends(t, y)
+    total, length = _integral(t, y, np.maximum(last - float(window), first), None)
+    return total / length
