@@ -34,11 +34,16 @@ def _axis(values: np.ndarray, unit: str) -> tuple[float, str]:
     return factor, prefix + unit
 
 
-def _tidy(ax) -> None:
+def _save(plt, fig, ax, path: Path) -> Path:
+    """Tidy the axes (light grid, no top/right frame), write the PNG, free the figure."""
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
     ax.grid(True, color="#e3e3e3", lw=0.7)
     ax.set_axisbelow(True)
+    fig.tight_layout()
+    fig.savefig(path)
+    plt.close(fig)
+    return path
 
 
 def write_plots(result, folder: Path) -> dict:
@@ -78,20 +83,14 @@ def write_plots(result, folder: Path) -> dict:
                     ha="center", va="top", fontsize=9)
         if key in limited:
             r = limited[key]
-            passed = int(np.sum(result.figures[:, j][good] < r.limit)) if r.comparison.startswith("<") \
-                else int(np.sum(result.figures[:, j][good] > r.limit))
+            passed = result.yield_estimate.per_limit.get(r.label, 0)
             ax.axvline(r.limit * vf, color=_LIMIT, lw=2,
-                       label=f"limit {r.comparison} {format_si(r.limit, unit)} ({passed} of {good.sum()} inside)")
-            ax.legend(frameon=False, fontsize=8, loc="upper left")
+                       label=f"limit {r.comparison} {format_si(r.limit, unit)} ({passed} of {n} meet it)")
+            ax.legend(frameon=True, framealpha=0.9, fontsize=8, loc="best")
         ax.set_xlabel(vlabel)
         ax.set_ylabel("samples")
         ax.set_title(f"{title}: {n} samples ({result.samples.sampler})", fontsize=10, loc="left")
-        _tidy(ax)
-        fig.tight_layout()
-        path = out_dir / f"hist_{_safe(title)}.png"
-        fig.savefig(path)
-        plt.close(fig)
-        files[f"hist {title}"] = path
+        files[f"hist {title}"] = _save(plt, fig, ax, out_dir / f"hist_{_safe(title)}.png")
 
         drivers = result.sensitivity.get(key) or []
         if drivers and np.isfinite(drivers[0].rho) and varies(result.summaries[key]):
@@ -106,10 +105,5 @@ def write_plots(result, folder: Path) -> dict:
             ax.set_xlabel(f"{xname}   (rank correlation {drivers[0].rho:+.2f})")
             ax.set_ylabel(vlabel)
             ax.set_title(f"{title} against its strongest driver", fontsize=10, loc="left")
-            _tidy(ax)
-            fig.tight_layout()
-            path = out_dir / f"scatter_{_safe(title)}.png"
-            fig.savefig(path)
-            plt.close(fig)
-            files[f"scatter {title}"] = path
+            files[f"scatter {title}"] = _save(plt, fig, ax, out_dir / f"scatter_{_safe(title)}.png")
     return files
