@@ -125,6 +125,7 @@ def run_job(
 def summary_of(result: JobResult) -> dict[str, Any]:
     """The JSON summary body of a run (numbers in SI, units beside them)."""
     from .modes import mode_rows
+    from .report import requirement_words
 
     w = result.waveforms
     return {
@@ -141,7 +142,7 @@ def summary_of(result: JobResult) -> dict[str, Any]:
         },
         "limits": [
             {
-                "requirement": r.requirement.label,
+                "requirement": requirement_words(r.requirement, r.unit),
                 "figure": r.requirement.figure,
                 "quantity": r.requirement.probe.label,
                 "comparison": r.requirement.comparison,
