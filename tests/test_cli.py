@@ -83,6 +83,20 @@ def test_run_rc_energy_in_resistor_is_half_cv2(tmp_path, capsys):
     assert energy >= expected  # the trapezoidal rule overestimates a convex integrand
 
 
+def test_peak_current_through_a_source_is_its_magnitude(tmp_path, capsys):
+    # The source delivers the charging current, so under the reference directions
+    # (first node → through the element → second) its current is -V/R at t = 0;
+    # a peak limit must see 10 mA (V/R, closed form), not the signed maximum ~0.
+    netlist = tmp_path / "rc.cnet"
+    netlist.write_text(RC_TEXT + "record current through V1\nrequire peak current through V1 < 5 mA\n",
+                       encoding="utf-8")
+    assert main(["run", str(netlist), "--out", str(tmp_path / "o"), "--no-plots"]) == 1
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text(encoding="utf-8"))
+    limit = next(item for item in summary["limits"] if item["quantity"] == "current through V1")
+    assert limit["value"] == pytest.approx(10e-3, rel=1e-9) and limit["passed"] is False
+    assert summary["figures"]["current through V1"]["minimum"]["value"] == pytest.approx(-10e-3, rel=1e-9)
+
+
 def test_failed_limit_exits_1(tmp_path, capsys):
     netlist = tmp_path / "rc.cnet"
     netlist.write_text(RC_TEXT + "require peak current through R1 < 5 mA\n", encoding="utf-8")

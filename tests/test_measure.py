@@ -323,6 +323,23 @@ def test_rms_bounds_mean_and_peak(values):
     assert m.rms(t, y) <= np.max(np.abs(y)) * (1 + 1e-12) + 1e-12
 
 
+def test_peak_is_the_largest_magnitude_and_keeps_its_instant():
+    # Surge ratings are magnitudes (common practice): a discharge current that is
+    # negative under the reference directions must not slip under a "peak <" limit.
+    # A damped cosine e^(-t) cos(2πt): the first extreme is +1 at t = 0, but on a
+    # signal shifted by -1.5 the trough near t = 0.5 (-1.5 - e^(-0.5)) dominates.
+    t = np.linspace(0.0, 3.0, 3001)
+    y = np.exp(-t) * np.cos(2 * np.pi * t) - 1.5
+    k = np.argmax(np.abs(y))
+    assert m.peak(t, y) == pytest.approx(abs(y[k])) and m.peak(t, y) > 0
+    assert m.peak(t, y) == pytest.approx(1.5 + np.exp(-t[k]) * abs(np.cos(2 * np.pi * t[k])))
+    assert m.time_of_peak(t, y) == pytest.approx(t[k])
+    assert m.minimum(t, y) == pytest.approx(y[k])  # the signed extreme stays available
+    # batched rows agree with single rows, including a positive one
+    both = np.stack([y, -y])
+    assert np.allclose(m.peak(t, both), [m.peak(t, y), m.peak(t, -y)])
+
+
 def test_figure_units():
     assert m.figure_unit("i2t", "A") == "A²s"
     assert m.figure_unit("max_slope", "V") == "V/s"

@@ -1,4 +1,11 @@
-"""Level figures: the largest and smallest sample, when the largest occurs, and the final level.
+"""Level figures: the peak (largest magnitude) and its instant, the minimum, the final level.
+
+The peak is the largest |y|, not the largest y: surge ratings of fuses,
+resistors, contacts and insulation are magnitudes, and under the reference
+directions a current delivered by a source is negative, so a signed maximum
+would let "peak current through V1 < 20 A" pass on the wrong number.  The
+signed extremes remain available as ``minimum`` and through the sign of the
+waveform itself.
 
 Inputs and outputs follow :mod:`circuitode.figures`: ``t`` in s, ``y`` of shape
 ``(..., nt)``, one value per signal in the signal's unit (s for the instant).
@@ -13,15 +20,15 @@ __all__ = ["peak", "time_of_peak", "minimum", "final"]
 
 
 def peak(t, y) -> np.ndarray:
-    """Largest sample of ``y`` (signal unit), shape ``y.shape[:-1]``."""
+    """Largest magnitude max |y| (signal unit, ≥ 0), shape ``y.shape[:-1]``."""
     t, y = _checked(t, y)
-    return np.max(y, axis=-1)
+    return np.max(np.abs(y), axis=-1)
 
 
 def time_of_peak(t, y) -> np.ndarray:
-    """Instant (s, on the run's own clock) of the largest sample; the first one if repeated."""
+    """Instant (s, on the run's own clock) of the largest |y|; the first one if repeated."""
     t, y = _checked(t, y)
-    k = np.argmax(y, axis=-1)  # the first NaN where there is one, so one pass tells both
+    k = np.argmax(np.abs(y), axis=-1)  # the first NaN where there is one, so one pass tells both
     return np.where(np.isnan(np.take_along_axis(y, k[..., None], axis=-1)[..., 0]), np.nan, _at(t, k))
 
 
