@@ -104,6 +104,10 @@ def build_parser() -> argparse.ArgumentParser:
     where = p.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, help="local worker processes (default: in this process)")
     where.add_argument("--scheduler", metavar="ADDRESS", help="Dask scheduler address, e.g. tcp://host:8786")
+    p.add_argument("--method", choices=("exact", "rk4"), default="exact",
+                   help="batched integrator: exact (matrix exponential, default) or rk4")
+    p.add_argument("--keep-waveforms", type=int, default=0, metavar="K",
+                   help="also write the (decimated) waveforms of the first K samples")
     p.add_argument("--chunk", type=int, help="samples per chunk")
     p.add_argument("--min-yield", type=_percent, help="exit 1 when the yield is below this, e.g. 99%%")
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-tolerance next to the netlist)")
@@ -179,6 +183,8 @@ def _tolerance(args: argparse.Namespace) -> int:
         min_yield=args.min_yield,
         progress=sys.stderr.isatty(),
         plots=not args.no_plots,
+        method=args.method,
+        keep_waveforms=args.keep_waveforms,
     )
     print(format_batch_summary(result))
     return int(result.exit_code)

@@ -190,3 +190,51 @@ def test_python_dash_m_reports_bad_input_without_traceback(tmp_path):
                           capture_output=True, text=True, cwd=ROOT, timeout=120)
     assert proc.returncode == 2
     assert "bad.cnet:3:" in proc.stderr and "Traceback" not in proc.stderr
+
+
+def test_tolerance_command_end_to_end(tmp_path, capsys):
+    # 64 Latin-hypercube samples of the LC filter: statistics, yield and drivers
+    # printed within 80 columns, files written, and rk4 agreeing with exact on the
+    # peak output voltage (both integrate the same matrices; rk4's error at
+    # h = 0.5 µs, |hλ| ≈ 0.02, is far below 1e-6 relative — Butcher, ch. 3).
+    netlist = str(ROOT / "netlists" / "lc_filter.cnet")
+    out_exact, out_rk4 = tmp_path / "exact", tmp_path / "rk4"
+    assert main(["tolerance", netlist, "--samples", "64", "--seed", "3", "--out", str(out_exact),
+                 "--no-plots", "--keep-waveforms", "2"]) == 0
+    text = capsys.readouterr().out
+    assert "yield: 64 of 64" in text and "Wilson" in text and "Spearman" in text
+    assert all(len(line) <= 80 for line in text.splitlines())
+    assert (out_exact / "samples.csv").is_file() and (out_exact / "batch_summary.json").is_file()
+    assert len(list((out_exact / "waveforms").glob("*.csv"))) == 2
+    assert main(["tolerance", netlist, "--samples", "64", "--seed", "3", "--out", str(out_rk4),
+                 "--no-plots", "--method", "rk4"]) == 0
+    capsys.readouterr()
+
+    def peaks(folder):
+        with open(folder / "samples.csv", newline="", encoding="utf-8") as fh:
+            rows = list(csv.DictReader(fh))
+        column = next(c for c in rows[0] if c.startswith("peak") and "voltage at out" in c)
+        return [float(r[column]) for r in rows]
+
+    assert peaks(out_rk4) == pytest.approx(peaks(out_exact), rel=1e-6)
+
+
+def test_tolerance_min_yield_sets_exit_1(tmp_path, capsys):
+    # The nominal filter peaks at 29.8 V; with its ± 10 % / ± 20 % parts some
+    # samples exceed a 30 V limit, so a 100 % minimum yield is not met. The
+    # printed yield must equal the count of samples.csv rows under the limit.
+    text = (ROOT / "netlists" / "lc_filter.cnet").read_text(encoding="utf-8")
+    netlist = tmp_path / "tight.cnet"
+    netlist.write_text(text.replace("require peak voltage at out < 36 V", "require peak voltage at out < 30 V"),
+                       encoding="utf-8")
+    out_dir = tmp_path / "o"
+    code = main(["tolerance", str(netlist), "--samples", "64", "--min-yield", "100%",
+                 "--out", str(out_dir), "--no-plots"])
+    out = capsys.readouterr().out
+    with open(out_dir / "samples.csv", newline="", encoding="utf-8") as fh:
+        rows = list(csv.DictReader(fh))
+    column = next(c for c in rows[0] if c.startswith("peak") and "voltage at out" in c)
+    inside = sum(float(r[column]) < 30.0 for r in rows)
+    assert 0 < inside < 64
+    assert code == 1 and "BELOW" in out
+    assert f"{inside} pass  peak of voltage at out < 30 V" in out
