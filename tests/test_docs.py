@@ -37,3 +37,17 @@ def test_readme_carries_the_safety_caution():
     safety = README.split("## Safety", 1)[1].split("\n## ", 1)[0].lower()
     assert "local electrical codes" in safety and "licensed practice" in safety
     assert "stored-energy" in safety or "stored energy" in safety
+
+
+def test_readme_python_example_runs(tmp_path):
+    import subprocess
+    import sys
+
+    code = re.search(r"## Python API.*?```python\n(.*?)```", README, flags=re.S).group(1)
+    script = tmp_path / "example.py"
+    script.write_text(code.replace('"lc.csv"', repr(str(tmp_path / "lc.csv"))), encoding="utf-8")
+    proc = subprocess.run([sys.executable, str(script)], cwd=ROOT, capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "underdamped" not in proc.stderr and (tmp_path / "lc.csv").is_file()
+    # the first printed line is the peak output voltage as (value, unit)
+    assert proc.stdout.splitlines()[0].endswith("'V')")
