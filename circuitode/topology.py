@@ -280,6 +280,21 @@ def _nodes_label(nodes: Sequence[str]) -> str:
 # --------------------------------------------------------------------------
 
 
+def _stiff_edges(circuit: Circuit, states: Sequence[bool | None], state_kind: type) -> list[tuple[int, int]]:
+    """(rank, element index) of every branch that fixes a voltage without resistance:
+    closed ideal switches (rank 0), voltage sources (1) and ``state_kind`` elements (2),
+    ranked so that loops are reported through the fewest stored-energy elements."""
+    ranked = []
+    for i, (e, s) in enumerate(zip(circuit.elements, states)):
+        if is_short(e, s):
+            ranked.append((0, i))
+        elif isinstance(e, VoltageSource):
+            ranked.append((1, i))
+        elif isinstance(e, state_kind):
+            ranked.append((2, i))
+    return ranked
+
+
 def _stiff_loops(circuit: Circuit, configurations: Sequence[Configuration], state_kind: type):
     """Loops of ``state_kind`` elements, voltage sources and closed ideal switches.
 
@@ -289,15 +304,7 @@ def _stiff_loops(circuit: Circuit, configurations: Sequence[Configuration], stat
     relevant = switch_indices(circuit, lambda s: s.on_resistance is None)
     seen = set()
     for cfg in _distinct(configurations, relevant):
-        states = switch_states(circuit, cfg.closed)
-        ranked = []
-        for i, (e, s) in enumerate(zip(circuit.elements, states)):
-            if is_short(e, s):
-                ranked.append((0, i))
-            elif isinstance(e, VoltageSource):
-                ranked.append((1, i))
-            elif isinstance(e, state_kind):
-                ranked.append((2, i))
+        ranked = _stiff_edges(circuit, switch_states(circuit, cfg.closed), state_kind)
         for loop in fundamental_loops(circuit, ranked):
             key = frozenset(loop)
             if key not in seen:
@@ -547,15 +554,9 @@ def explain_singular_dc(circuit: Circuit, closed: Sequence[bool]) -> str:
         raise CircuitodeError(
             f"explain_singular_dc needs one switch state per switch ({len(circuit.switches)}), got {len(closed)}")
     states = switch_states(circuit, closed)
-    ranked = []
+    ranked = _stiff_edges(circuit, states, Inductor)
     conducting, cut = [], []
     for i, (e, s) in enumerate(zip(circuit.elements, states)):
-        if is_short(e, s):
-            ranked.append((0, i))
-        elif isinstance(e, VoltageSource):
-            ranked.append((1, i))
-        elif isinstance(e, Inductor):
-            ranked.append((2, i))
         if isinstance(e, (Capacitor, CurrentSource)):
             cut.append(i)
         elif not is_open(e, s):
