@@ -247,10 +247,10 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
         # Step figures need a step: a signal that moved and came back (an inrush
         # pulse) or one that never settles (AC, still ringing) has no final state
         # level to refer to, so its overshoot or rise time would mean nothing.
-        no_step = _is_pulse(y) | np.isnan(measure("settling_time", t, y, signal_unit=unit))
+        values = {name: measure(name, t, y, signal_unit=unit) for name in figures}
+        no_step = _is_pulse(y) | np.isnan(values["settling_time"])
         row = {}
-        for name in figures:
-            value = measure(name, t, y, signal_unit=unit)
+        for name, value in values.items():
             if name in _STEP_FIGURES:
                 value = np.where(no_step, np.nan, value)
             row[name] = (_plain(value), figure_unit(name, unit))
