@@ -300,8 +300,10 @@ def limits_text(results: Sequence[Any]) -> list[str]:
     for r in results:
         mark = "pass" if r.passed else "FAIL"
         lines.extend(_wrap(f"{mark:<5}{requirement_words(r.requirement, r.unit)}", indent="  "))
-        lines.append(f"{'':7}measured {_si(r.value, r.unit)}, margin {_si(r.margin, r.unit)}"
-                     + ("" if r.passed or getattr(r, "reason", "") == "" else f" ({r.reason})"))
+        if math.isfinite(r.value):
+            lines.append(f"{'':7}measured {_si(r.value, r.unit)}, margin {_si(r.margin, r.unit)}")
+        else:  # nothing to measure: say why instead of printing blanks
+            lines.extend(_wrap(r.reason or "not measurable", indent=" " * 7))
     return lines
 
 
