@@ -23,10 +23,10 @@ from scipy.integrate import solve_ivp
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from circuitode.measure import measure  # noqa: E402
+from circuitode.analysis.measure import measure  # noqa: E402
 from circuitode.netlist import loads  # noqa: E402
-from circuitode.sources import SourceBank  # noqa: E402
-from circuitode.statespace import assemble  # noqa: E402
+from circuitode.model.sources import SourceBank  # noqa: E402
+from circuitode.equations.statespace import assemble  # noqa: E402
 from circuitode.tolerance import run_batch  # noqa: E402
 from circuitode.tolerance.batch import _element_values, batch_figure_keys  # noqa: E402
 from circuitode.tolerance.engine import output_grid  # noqa: E402

@@ -63,17 +63,17 @@ __all__ = [
 _LAZY = {
     "load": ("netlist", "load"),
     "loads": ("netlist", "loads"),
-    "diagnose": ("topology", "diagnose"),
-    "verify": ("topology", "verify"),
-    "assemble": ("statespace", "assemble"),
-    "summarise": ("measure", "summarise"),
-    "check_requirements": ("limits", "check_requirements"),
-    "check_requirements_batch": ("limits", "check_requirements_batch"),
-    "reachable_configurations": ("configurations", "reachable_configurations"),
-    "StateSpaceCache": ("statespace", "StateSpaceCache"),
-    "SourceBank": ("sources", "SourceBank"),
-    "figure_unit": ("measure", "figure_unit"),
-    "mode_rows": ("modes", "mode_rows"),
+    "diagnose": ("checks.topology", "diagnose"),
+    "verify": ("checks.topology", "verify"),
+    "assemble": ("equations.statespace", "assemble"),
+    "summarise": ("analysis.measure", "summarise"),
+    "check_requirements": ("analysis.limits", "check_requirements"),
+    "check_requirements_batch": ("analysis.limits", "check_requirements_batch"),
+    "reachable_configurations": ("model.configurations", "reachable_configurations"),
+    "StateSpaceCache": ("equations.statespace", "StateSpaceCache"),
+    "SourceBank": ("model.sources", "SourceBank"),
+    "figure_unit": ("analysis.measure", "figure_unit"),
+    "mode_rows": ("analysis.modes", "mode_rows"),
     "Waveforms": ("transient", "Waveforms"),
     "Event": ("transient", "Event"),
     "METHODS": ("solvers", "METHODS"),
@@ -81,9 +81,9 @@ _LAZY = {
     "rk4_stability_limit": ("solvers", "rk4_stability_limit"),
     "format_si": ("netlist", "format_si"),
     "parse_quantity": ("netlist", "parse_quantity"),
-    "analyse_modes": ("modes", "analyse_modes"),
-    "circuit_modes": ("modes", "circuit_modes"),
-    "run_job": ("runner", "run_job"),
+    "analyse_modes": ("analysis.modes", "analyse_modes"),
+    "circuit_modes": ("analysis.modes", "circuit_modes"),
+    "run_job": ("output.runner", "run_job"),
     "run_batch": ("tolerance", "run_batch"),
 }
 
@@ -95,7 +95,7 @@ def simulate(source, **options):
     method, step (s), until (s), points, initial ("rest" | "given" | "steady"),
     rtol, atol, probes; ``overrides`` replaces param values when loading.
     """
-    from .runner import load_any
+    from .output.runner import load_any
     from .transient import simulate as _simulate
 
     circuit = load_any(source, options.pop("overrides", None))

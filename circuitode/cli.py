@@ -129,8 +129,8 @@ def _load(path: str, overrides: Sequence[tuple[str, str]] = ()):
 
 
 def _check(args: argparse.Namespace) -> int:
-    from .report import check_text
-    from .topology import diagnose
+    from .output.report import check_text
+    from .checks.topology import diagnose
 
     circuit = _load(args.netlist)
     diagnostics = diagnose(circuit)
@@ -139,8 +139,8 @@ def _check(args: argparse.Namespace) -> int:
 
 
 def _run(args: argparse.Namespace) -> int:
-    from .report import run_text
-    from .runner import default_out_dir, run_job
+    from .output.report import run_text
+    from .output.runner import default_out_dir, run_job
 
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
@@ -153,9 +153,9 @@ def _run(args: argparse.Namespace) -> int:
 
 
 def _modes(args: argparse.Namespace) -> int:
-    from .modes import circuit_modes
-    from .report import modes_text
-    from .topology import verify
+    from .analysis.modes import circuit_modes
+    from .output.report import modes_text
+    from .checks.topology import verify
 
     circuit = _load(args.netlist, args.overrides)
     verify(circuit, args.until)
@@ -165,7 +165,7 @@ def _modes(args: argparse.Namespace) -> int:
 
 
 def _tolerance(args: argparse.Namespace) -> int:
-    from .runner import default_out_dir
+    from .output.runner import default_out_dir
     from .tolerance import format_batch_summary, run_batch
 
     _load(args.netlist)  # bad input is reported before any worker starts

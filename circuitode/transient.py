@@ -20,14 +20,14 @@ from typing import Sequence
 
 import numpy as np
 
-from .circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from .model.circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
-from .configurations import reachable_configurations
+from .model.configurations import reachable_configurations
 from .errors import CircuitodeError
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
-from .sources import SourceBank
-from .statespace import StateSpaceCache, describe_configuration, initial_state
-from .topology import verify
+from .model.sources import SourceBank
+from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
+from .checks.topology import verify
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
@@ -220,7 +220,7 @@ def _schedule(circuit: Circuit, until: float) -> list[tuple[float, int, bool]]:
 
 
 def _configurations_to_check(circuit: Circuit, until: float) -> list[tuple[bool, ...]]:
-    """Every switch configuration the run may reach (see :mod:`circuitode.configurations`)."""
+    """Every switch configuration the run may reach (see :mod:`circuitode.model.configurations`)."""
     return [tuple(c.closed) for c in reachable_configurations(circuit, until)]
 
 
@@ -312,8 +312,8 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
 
     Examples
     --------
-    >>> from circuitode.circuit import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
-    >>> from circuitode.sources import Dc
+    >>> from circuitode.model.circuit import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
+    >>> from circuitode.model.sources import Dc
     >>> rc = Circuit("rc", "gnd", (VoltageSource("V1", "in", "gnd", Dc(10.0)),
     ...                            Resistor("R1", "in", "out", 1e3),
     ...                            Capacitor("C1", "out", "gnd", 1e-6)),

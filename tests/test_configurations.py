@@ -1,4 +1,4 @@
-"""Switch configurations a run can reach (circuitode.configurations).
+"""Switch configurations a run can reach (circuitode.model.configurations).
 
 These are definition checks: the expected configurations follow from the switch
 schedules and threshold rules as circuit.py defines them (a timed switch holds
@@ -13,7 +13,7 @@ import math
 
 from hypothesis import given, settings, strategies as st
 
-from circuitode.circuit import (
+from circuitode.model.circuit import (
     Analysis,
     Capacitor,
     Circuit,
@@ -25,9 +25,9 @@ from circuitode.circuit import (
     TimedSchedule,
     VoltageSource,
 )
-from circuitode.configurations import MAX_CONFIGURATIONS, reachable_configurations
-from circuitode.sources import Dc
-from circuitode.topology import diagnose, verify
+from circuitode.model.configurations import MAX_CONFIGURATIONS, reachable_configurations
+from circuitode.model.sources import Dc
+from circuitode.checks.topology import diagnose, verify
 
 
 def circuit(*elements, ground="gnd", until=None):
@@ -130,8 +130,8 @@ def test_configurations_match_the_schedules_sampled_in_time(controls):
 
 def test_old_import_path_still_works():
     # topology re-exports the configurations for the modules and tests that import them from there
-    import circuitode.configurations as configurations
-    import circuitode.topology as topology
+    import circuitode.model.configurations as configurations
+    import circuitode.checks.topology as topology
 
     assert topology.reachable_configurations is configurations.reachable_configurations
     assert topology.Configuration is configurations.Configuration
@@ -142,7 +142,7 @@ def test_docstring_examples_run():
     # the examples in the module's docstrings are part of its documentation; they must hold
     import doctest
 
-    import circuitode.configurations as configurations
+    import circuitode.model.configurations as configurations
 
     result = doctest.testmod(configurations)
     assert result.attempted >= 3 and result.failed == 0

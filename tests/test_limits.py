@@ -6,9 +6,9 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from circuitode.circuit import CurrentThrough, NodeVoltage, PowerIn, Requirement
+from circuitode.model.circuit import CurrentThrough, NodeVoltage, PowerIn, Requirement
 from circuitode.errors import CircuitodeError
-from circuitode.limits import (
+from circuitode.analysis.limits import (
     LimitError,
     all_passed,
     check_requirements,
@@ -16,7 +16,7 @@ from circuitode.limits import (
     figures_needed,
     requirement_margins_batch,
 )
-from circuitode.measure import MeasurementError
+from circuitode.analysis.measure import MeasurementError
 
 # An invented pre-charge: 48 V through 33 Ω into 1.5 mF (Nilsson & Riedel ch. 7, RC step):
 # i = (V/R) e^{-t/RC}, peak V/R ≈ 1.4545 A, I²t = V²C/(2R), energy in R = ½CV².

@@ -15,12 +15,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from circuitode.circuit import FIGURES
+from circuitode.model.circuit import FIGURES
 from circuitode.errors import CircuitodeError
-from circuitode.measure import MeasurementError
+from circuitode.analysis.measure import MeasurementError
 
 # The package exports a function named `measure` too; load the module itself.
-m = importlib.import_module("circuitode.measure")
+m = importlib.import_module("circuitode.analysis.measure")
 
 
 def second_order_step(zeta: float, wn: float, t: np.ndarray) -> np.ndarray:

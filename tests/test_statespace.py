@@ -15,7 +15,7 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from circuitode.circuit import (
+from circuitode.model.circuit import (
     Capacitor,
     Circuit,
     Coupling,
@@ -32,8 +32,8 @@ from circuitode.circuit import (
     VoltageSource,
 )
 from circuitode.errors import BadValueError, CircuitodeError, SingularSystemError
-from circuitode.sources import Dc
-from circuitode.statespace import (
+from circuitode.model.sources import Dc
+from circuitode.equations.statespace import (
     StateSpaceCache,
     StateSpaceRequestError,
     assemble,
@@ -507,7 +507,7 @@ def test_batched_steady_state_leaves_bad_samples_nan():
 def test_docstring_examples_run():
     import doctest
 
-    import circuitode.statespace as module
+    import circuitode.equations.statespace as module
 
     result = doctest.testmod(module)
     assert result.attempted > 0 and result.failed == 0
@@ -521,7 +521,7 @@ def test_dc_steady_state_exists_exactly_when_A_is_invertible(parts):
     # network (capacitors open, inductors shorted) has a loop of inductors/sources or a
     # node with no DC path to ground.  Checked against the numerical rank of A
     # (all values 1, so the rank is not blurred by scaling).
-    from circuitode.companion import check_structure
+    from circuitode.equations.companion import check_structure
 
     kinds = {"R": lambda n, a, b: Resistor(n, a, b, 1.0), "C": lambda n, a, b: Capacitor(n, a, b, 1.0),
              "L": lambda n, a, b: Inductor(n, a, b, 1.0), "V": lambda n, a, b: VoltageSource(n, a, b, Dc(1)),

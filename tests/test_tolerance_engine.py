@@ -1,7 +1,7 @@
 """The batched engine against the single-run engine, sample by sample.
 
 Reference: circuitode.transient.simulate(method="exact") run on the same
-parameter values, one sample at a time, with figures from circuitode.measure.
+parameter values, one sample at a time, with figures from circuitode.analysis.measure.
 The batch must agree within 1e-9 relative (issue 5).  Scale-free figures of a
 flat or vanishing quantity get an absolute floor of 1e-9 of the signal's own
 scale, since their relative error is rounding noise over a near-zero value.
@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from circuitode.errors import CircuitodeError
-from circuitode.measure import measure
+from circuitode.analysis.measure import measure
 from circuitode.netlist import loads
 from circuitode.tolerance.batch import batch_figure_keys, run_chunk
 from circuitode.tolerance.engine import simulate_chunk

@@ -31,7 +31,7 @@ import pytest
 import sympy
 from hypothesis import assume, given, settings, strategies as st
 
-from circuitode.circuit import (
+from circuitode.model.circuit import (
     Analysis,
     Capacitor,
     Circuit,
@@ -59,8 +59,8 @@ from circuitode.errors import (
     UnconnectedNodeError,
     Where,
 )
-from circuitode.sources import Dc, Step
-from circuitode.topology import (
+from circuitode.model.sources import Dc, Step
+from circuitode.checks.topology import (
     diagnose,
     explain_singular_dc,
     reachable_configurations,
@@ -522,7 +522,7 @@ def test_docstring_examples_run():
     # the examples in the module's docstrings are part of its documentation; they must hold
     import doctest
 
-    import circuitode.topology as topology
+    import circuitode.checks.topology as topology
 
     result = doctest.testmod(topology)
     assert result.attempted >= 3 and result.failed == 0
@@ -542,7 +542,7 @@ def test_verdict_agrees_with_nodal_assembly(specs):
     # floating part, no C/V/short loop and no L/I/open cut set.  Cross-check against the
     # state-space stage for circuits whose switches hold their state through the run.
     from circuitode.errors import SingularSystemError
-    from circuitode.statespace import assemble
+    from circuitode.equations.statespace import assemble
 
     nodes = ["gnd", "n1", "n2", "n3", "n4"]
     parts = []
@@ -577,7 +577,7 @@ def test_dc_explanation_exactly_when_the_state_matrix_is_singular():
 
     import numpy as np
 
-    from circuitode.statespace import assemble
+    from circuitode.equations.statespace import assemble
 
     nodes = ["gnd", "n1", "n2", "n3", "n4"]
     rng = random.Random(3)
@@ -616,7 +616,7 @@ def test_switched_verdict_agrees_with_assembly_in_every_reachable_configuration(
     import random
 
     from circuitode.errors import SingularSystemError
-    from circuitode.statespace import assemble
+    from circuitode.equations.statespace import assemble
 
     nodes = ["gnd", "n1", "n2", "n3", "n4"]
     rng = random.Random(5)

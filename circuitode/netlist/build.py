@@ -1,9 +1,9 @@
-"""Syntax tree → :class:`~circuitode.circuit.Circuit`: values resolved to SI floats, units and names checked.
+"""Syntax tree → :class:`~circuitode.model.circuit.Circuit`: values resolved to SI floats, units and names checked.
 
 Parameters may be defined in any order and reference each other; cycles are
 reported.  Each element value is checked against its element's unit.  Every
 probe, coupling and requirement must name an element or node that exists.
-Tolerances become :class:`~circuitode.circuit.Spread` objects, and every element
+Tolerances become :class:`~circuitode.model.circuit.Spread` objects, and every element
 field that depends on a toleranced value gets a *recipe*: its expression
 rewritten in terms of spread names only, so a batch can recompute it from
 sampled parameters (floats or numpy arrays alike).
@@ -14,8 +14,8 @@ import math
 from pathlib import Path
 from typing import Any, Mapping
 
-from .. import circuit as cm
-from .. import sources as src
+from ..model import circuit as cm
+from ..model import sources as src
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean

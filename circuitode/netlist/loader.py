@@ -1,4 +1,4 @@
-"""Reading netlists: files and text in, a built :class:`~circuitode.circuit.Circuit` out.
+"""Reading netlists: files and text in, a built :class:`~circuitode.model.circuit.Circuit` out.
 
 ``include`` statements are expanded here, relative to the including file, with
 include circles reported as a chain of file names.
@@ -8,7 +8,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Mapping
 
-from .. import circuit as cm
+from ..model import circuit as cm
 from ..errors import NetlistError
 from .build import build_circuit
 from .parse import parse_text

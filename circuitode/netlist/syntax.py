@@ -1,7 +1,7 @@
 """The netlist's syntax tree: frozen dataclasses that remember where each part was written.
 
 :mod:`.parse` produces them from text; :mod:`.build` turns them into a
-:class:`~circuitode.circuit.Circuit`.  Values stay unevaluated here: a
+:class:`~circuitode.model.circuit.Circuit`.  Values stay unevaluated here: a
 :class:`Valued` holds an expression tree (see :mod:`.expressions`) and an
 optional tolerance.  Every ``where`` is a :class:`~circuitode.errors.Where`.
 """

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import math
 
-from .. import sources as src
+from ..model import sources as src
 
 __all__ = ["METHOD_NAMES", "WAVEFORM_FIELDS", "WAVEFORM_CLASSES", "TOGGLE_FIELDS", "FIGURE_WORDS", "ELEMENT_UNITS"]
 

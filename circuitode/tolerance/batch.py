@@ -16,11 +16,11 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..circuit import Circuit, Coupling, PowerIn
+from ..model.circuit import Circuit, Coupling, PowerIn
 from ..errors import CircuitodeError, NetlistError
-from ..limits import check_requirements_batch, requirement_margins_batch
-from ..measure import figure_unit, measure
-from ..report import unit_of_parameter
+from ..analysis.limits import check_requirements_batch, requirement_margins_batch
+from ..analysis.measure import figure_unit, measure
+from ..output.report import unit_of_parameter
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
@@ -110,8 +110,8 @@ def _element_values(circuit: Circuit, names: Sequence[str], block: np.ndarray) -
 def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
     """Source fields may vary per sample only where the waveform is linear in them
     (its levels); timing fields are shared by a batch."""
-    from ..mna import VARIABLE_FIELDS
-    from ..source_batch import LEVEL_FIELDS
+    from ..equations.mna import VARIABLE_FIELDS
+    from ..model.source_batch import LEVEL_FIELDS
 
     for (element, field_), recipe in circuit.recipes.items():
         varied = sorted(set(getattr(recipe, "names", ())) & set(names))
@@ -187,7 +187,7 @@ def _preflight(circuit: Circuit, table: SampleTable, probes, keys, method: str) 
     """Faults of the circuit itself are bad input, reported once before any chunk runs
     (a batch records per-sample failures, but a circuit that fails at its nominal
     values would fail every sample for the same reason)."""
-    from ..topology import verify
+    from ..checks.topology import verify
     from .engine import output_grid
 
     output_grid(circuit)

@@ -35,12 +35,12 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..circuit import Circuit, CurrentThrough, PowerIn, ThresholdRule, VoltageAcross
+from ..model.circuit import Circuit, CurrentThrough, PowerIn, ThresholdRule, VoltageAcross
 from ..errors import CircuitodeError
-from ..source_batch import SourceBatch
-from ..sources import SourceBank
-from ..statespace import VARIABLE_FIELDS
-from ..statespace import StateSpaceCache, initial_state
+from ..model.source_batch import SourceBatch
+from ..model.sources import SourceBank
+from ..equations.statespace import VARIABLE_FIELDS
+from ..equations.statespace import StateSpaceCache, initial_state
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, fire_at_start, handle_crossings

@@ -21,7 +21,7 @@ from typing import Callable
 
 import numpy as np
 
-from ..statespace import StateSpaceCache
+from ..equations.statespace import StateSpaceCache
 from .batchexpm import expm_stack, rk4_stack
 
 __all__ = ["matvec", "Stretch", "Record"]

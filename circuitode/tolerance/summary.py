@@ -13,7 +13,7 @@ import textwrap
 import numpy as np
 
 from ..netlist.quantities import format_si
-from ..report import SAFETY_LINE, WIDTH, requirement_words
+from ..output.report import SAFETY_LINE, WIDTH, requirement_words
 
 __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
 

@@ -1,7 +1,7 @@
 """Requirements → pass / fail, with the margin by which each limit is met or missed.
 
-A :class:`circuitode.circuit.Requirement` limits one figure (see
-:mod:`circuitode.measure`) of one probed quantity, e.g. "peak current through R1
+A :class:`circuitode.model.circuit.Requirement` limits one figure (see
+:mod:`circuitode.analysis.measure`) of one probed quantity, e.g. "peak current through R1
 < 2 A".  :func:`check_requirements` measures it on a single run's waveforms;
 :func:`check_requirements_batch` applies the same limits to figure arrays of a
 tolerance batch at once.
@@ -19,7 +19,7 @@ from typing import Any, Mapping, Sequence
 
 import numpy as np
 
-from .errors import CircuitodeError
+from ..errors import CircuitodeError
 from .measure import FIGURE_UNITS, figure_unit, measure
 
 __all__ = [

@@ -7,7 +7,7 @@ would let "peak current through V1 < 20 A" pass on the wrong number.  The
 signed extremes remain available as ``minimum`` and through the sign of the
 waveform itself.
 
-Inputs and outputs follow :mod:`circuitode.figures`: ``t`` in s, ``y`` of shape
+Inputs and outputs follow :mod:`circuitode.analysis.figures`: ``t`` in s, ``y`` of shape
 ``(..., nt)``, one value per signal in the signal's unit (s for the instant).
 """
 from __future__ import annotations

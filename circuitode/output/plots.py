@@ -11,7 +11,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from .netlist.quantities import format_si, si_scale
+from ..netlist.quantities import format_si, si_scale
 
 __all__ = ["plot_waveforms", "QUANTITY_NAMES"]
 

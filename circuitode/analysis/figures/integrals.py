@@ -2,7 +2,7 @@
 
 A repeated instant (an event recorded twice) is an interval of zero length: it adds
 nothing to an integral and is skipped by the slope.  Inputs and outputs follow
-:mod:`circuitode.figures`.
+:mod:`circuitode.analysis.figures`.
 """
 from __future__ import annotations
 

@@ -32,7 +32,7 @@ from typing import Sequence
 import numpy as np
 from scipy.linalg import block_diag
 
-from .errors import CircuitodeError
+from ..errors import CircuitodeError
 
 __all__ = [
     "LinearGenerator",

@@ -1,6 +1,6 @@
 """Shared input checks and array helpers of the figure modules, and their error.
 
-Private to :mod:`circuitode.figures`: validation of ``(t, y)``, picking instants
+Private to :mod:`circuitode.analysis.figures`: validation of ``(t, y)``, picking instants
 by sample index, optional levels and instants per signal, and the trapezoidal
 window integral that several figures build on.
 """
@@ -10,7 +10,7 @@ from typing import Any
 
 import numpy as np
 
-from ..errors import CircuitodeError
+from ...errors import CircuitodeError
 
 __all__ = ["MeasurementError"]
 

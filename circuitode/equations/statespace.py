@@ -25,9 +25,9 @@ inductance matrix that is not positive definite …) does not stop a batch: its
 matrices are NaN and ``StateSpace.sample_ok`` is False for it.  A single
 circuit raises instead.
 
-The work is split in three modules: :mod:`circuitode.companion` lays out the
+The work is split in three modules: :mod:`circuitode.equations.companion` lays out the
 companion network and proves from the graph alone that it has a unique
-solution (or says why not); :mod:`circuitode.mna` stamps and solves it for
+solution (or says why not); :mod:`circuitode.equations.mna` stamps and solves it for
 every sample; this module turns the solution into ``A, B, C, D`` and the
 initial state.
 """
@@ -38,7 +38,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from .circuit import Circuit, VoltageSource
+from ..model.circuit import Circuit, VoltageSource
 from .companion import (
     StateSpaceRequestError,
     build_layout,
@@ -46,7 +46,7 @@ from .companion import (
     check_structure,
     describe_configuration,
 )
-from .errors import SingularSystemError
+from ..errors import SingularSystemError
 from .mna import SPARSE_THRESHOLD, VARIABLE_FIELDS, Samples, inductance_matrix, probe_rows, solve_companion
 
 __all__ = [
@@ -172,8 +172,8 @@ def assemble(
     --------
     An RC low-pass, 1 kΩ and 1 µF: A = −1/RC = −1000 1/s.
 
-    >>> from circuitode.circuit import Capacitor, Circuit, Resistor, VoltageSource, NodeVoltage
-    >>> from circuitode.sources import Dc
+    >>> from circuitode.model.circuit import Capacitor, Circuit, Resistor, VoltageSource, NodeVoltage
+    >>> from circuitode.model.sources import Dc
     >>> rc = Circuit("rc", "gnd", (VoltageSource("V", "in", "gnd", Dc(1.0)),
     ...                            Resistor("R", "in", "out", 1e3), Capacitor("C", "out", "gnd", 1e-6)))
     >>> ss = assemble(rc, (), [NodeVoltage("out")])
@@ -259,7 +259,7 @@ class StateSpaceCache:
 def _dc_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
     """Why the DC steady state is undetermined: topology's words if it has them, else ours."""
     try:
-        from . import topology
+        from ..checks import topology
 
         explain = getattr(topology, "explain_singular_dc", None)
         if explain is not None:

@@ -4,7 +4,7 @@ A step goes from an *initial* to a *final* state level (by default the first and
 last samples); its *amplitude* is final − initial.  Overshoot and undershoot are
 aberrations in percent of the amplitude; the rise time is the transition duration
 between the 10 % and 90 % reference levels, whichever way the step goes.
-Inputs and outputs follow :mod:`circuitode.figures`.
+Inputs and outputs follow :mod:`circuitode.analysis.figures`.
 """
 from __future__ import annotations
 

@@ -17,7 +17,7 @@ from typing import Any, Mapping, Protocol
 
 import networkx as nx
 
-from .errors import Where
+from ..errors import Where
 from .sources import Waveform
 
 __all__ = [

@@ -2,7 +2,7 @@
 
 The decrement is read from the swings between successive extrema (logarithmic
 decrement; Ogata, Modern Control Engineering, ch. 5; Nise, Control Systems
-Engineering, ch. 4).  Inputs and outputs follow :mod:`circuitode.figures`.
+Engineering, ch. 4).  Inputs and outputs follow :mod:`circuitode.analysis.figures`.
 """
 from __future__ import annotations
 

@@ -12,8 +12,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
-from .circuit import Circuit
-from .errors import CircuitodeError
+from ..model.circuit import Circuit
+from ..errors import CircuitodeError
 
 __all__ = ["JobResult", "default_out_dir", "load_any", "run_job"]
 
@@ -42,7 +42,7 @@ class JobResult:
 
 def load_any(source: Any, overrides: Mapping[str, Any] | None = None) -> Circuit:
     """A Circuit from a Circuit, a path to a ``.cnet`` file, or netlist text."""
-    from .netlist import load, loads
+    from ..netlist import load, loads
 
     if isinstance(source, Circuit):
         return source
@@ -85,10 +85,10 @@ def run_job(
     ------
     CircuitodeError subclasses for bad input (exit 2) or numerical failure (exit 3).
     """
-    from .limits import check_requirements
-    from .measure import summarise
+    from ..analysis.limits import check_requirements
+    from ..analysis.measure import summarise
     from .report import write_summary_json
-    from .transient import simulate
+    from ..transient import simulate
 
     circuit = load_any(source, overrides)
     waveforms = simulate(circuit, method=method, step=step, until=until)
@@ -103,7 +103,7 @@ def run_job(
     result.limits = check_requirements(circuit.requirements, waveforms)
     if with_modes:
         try:
-            from .modes import circuit_modes
+            from ..analysis.modes import circuit_modes
 
             result.modes = circuit_modes(circuit, until=float(waveforms.t[-1]))
         except CircuitodeError as exc:  # a mode table is a bonus; never lose the run for it
@@ -124,7 +124,7 @@ def run_job(
 
 def summary_of(result: JobResult) -> dict[str, Any]:
     """The JSON summary body of a run (numbers in SI, units beside them)."""
-    from .modes import mode_rows
+    from ..analysis.modes import mode_rows
     from .report import requirement_words
 
     w = result.waveforms

@@ -41,7 +41,7 @@ from typing import Any, Sequence
 import numpy as np
 import scipy.linalg
 
-from .errors import CircuitodeError
+from ..errors import CircuitodeError
 
 __all__ = [
     "ModeAnalysisError",
@@ -373,7 +373,7 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
 
     Parameters
     ----------
-    circuit : a built :class:`circuitode.circuit.Circuit`.
+    circuit : a built :class:`circuitode.model.circuit.Circuit`.
     until : end of the run, s (default: the circuit's analysis window).
     **options : passed to :func:`analyse_modes` (``tolerance``, ``zero_tolerance``,
         ``pair_share``).
@@ -382,8 +382,8 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
     -------
     list of :class:`ConfigurationModes`, in order of first occurrence.
     """
-    from .statespace import assemble, describe_configuration
-    from .configurations import reachable_configurations
+    from ..equations.statespace import assemble, describe_configuration
+    from ..model.configurations import reachable_configurations
 
     out = []
     for configuration in reachable_configurations(circuit, until):

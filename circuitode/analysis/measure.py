@@ -5,8 +5,8 @@
 :func:`summarise` gives the standard figures of every signal of a run.  The
 figures themselves, and the conventions they share (``t`` in s, ``y`` of shape
 ``(..., nt)``, values of shape ``y.shape[:-1]`` in SI units), are in
-:mod:`circuitode.figures`; they and :class:`MeasurementError` are re-exported
-here, so ``from circuitode.measure import peak`` keeps working.
+:mod:`circuitode.analysis.figures`; they and :class:`MeasurementError` are re-exported
+here, so ``from circuitode.analysis.measure import peak`` keeps working.
 """
 from __future__ import annotations
 

@@ -61,7 +61,7 @@ class Configuration:
 
 def _si(value: float, unit: str) -> str:
     """SI value with a prefix, printed by the one module that prints quantities."""
-    from .netlist.quantities import format_si  # late: the netlist package may import this module
+    from ..netlist.quantities import format_si  # late: the netlist package may import this module
 
     return format_si(value, unit)
 
@@ -215,7 +215,7 @@ def reachable_configurations(circuit: Circuit, until: float | None = None) -> li
 
     Examples
     --------
-    >>> from circuitode.circuit import Circuit, Resistor, Switch, TimedSchedule
+    >>> from circuitode.model.circuit import Circuit, Resistor, Switch, TimedSchedule
     >>> k = Switch("K", "a", "b", TimedSchedule(False, ((1e-3, True),)))
     >>> c = Circuit("demo", "b", (Resistor("R", "a", "b", 1.0), k))
     >>> [(x.closed, x.first_time) for x in reachable_configurations(c)]

@@ -2,7 +2,7 @@
 
 No numerics here: every number arrives already computed (figures, limits,
 modes) and is only formatted, through :func:`circuitode.netlist.quantities.format_si`.
-Plots live in :mod:`circuitode.plots` (matplotlib is imported only there, and
+Plots live in :mod:`circuitode.output.plots` (matplotlib is imported only there, and
 only when a plot is drawn).
 """
 from __future__ import annotations
@@ -15,8 +15,8 @@ from typing import Any, Iterable, Mapping, Sequence
 
 import numpy as np
 
-from . import __version__
-from .circuit import (
+from .. import __version__
+from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
@@ -28,8 +28,8 @@ from .circuit import (
     TimedSchedule,
     VoltageSource,
 )
-from .measure import figure_unit
-from .netlist.quantities import format_si
+from ..analysis.measure import figure_unit
+from ..netlist.quantities import format_si
 
 __all__ = [
     "SAFETY_LINE",

@@ -17,8 +17,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Sequence
 
-from .circuit import Capacitor, Circuit, CurrentSource, Inductor, Resistor, Switch
-from .errors import CircuitodeError, SingularSystemError, TopologyError
+from ..model.circuit import Capacitor, Circuit, CurrentSource, Inductor, Resistor, Switch
+from ..errors import CircuitodeError, SingularSystemError, TopologyError
 
 __all__ = [
     "StateSpaceRequestError",
@@ -207,7 +207,7 @@ def _floating_words(floating: list[str], dc: bool) -> str:
 def _topology_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
     """The topology module's error diagnostics, when that module offers ``diagnose``."""
     try:
-        from . import topology
+        from ..checks import topology
     except ImportError:
         return ""
     diagnose = getattr(topology, "diagnose", None)

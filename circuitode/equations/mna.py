@@ -13,7 +13,7 @@ import numpy as np
 import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
-from .circuit import (
+from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentThrough,
@@ -27,7 +27,7 @@ from .circuit import (
     VoltageSource,
 )
 from .companion import Layout, StateSpaceRequestError
-from .errors import BadCouplingError, BadValueError, Diagnostic, SingularSystemError
+from ..errors import BadCouplingError, BadValueError, Diagnostic, SingularSystemError
 
 __all__ = [
     "SPARSE_THRESHOLD",

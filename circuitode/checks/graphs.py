@@ -5,7 +5,7 @@ configuration -- which elements are shorts or opens, the fundamental loops of a
 set of elements, the node groups reached only through a given kind of element,
 the parts with no path to ground.  Answers are element indices (positions in
 ``circuit.elements``) and node names; no verdicts and no messages, which are
-:mod:`circuitode.topology`'s job.
+:mod:`circuitode.checks.topology`'s job.
 """
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ from typing import Sequence
 
 import networkx as nx
 
-from .circuit import Circuit, Switch
+from ..model.circuit import Circuit, Switch
 
 __all__ = [
     "is_short",

@@ -1,10 +1,10 @@
-"""Per-element checks on a built :class:`~circuitode.circuit.Circuit`: names, values and magnetic couplings.
+"""Per-element checks on a built :class:`~circuitode.model.circuit.Circuit`: names, values and magnetic couplings.
 
 Each check looks at elements one by one (or a coupling and the inductors it
 names) rather than at the wiring, returns a list of
 :class:`~circuitode.errors.Diagnostic` and raises nothing.  The graph checks,
-:func:`~circuitode.topology.diagnose` and :func:`~circuitode.topology.verify`
-are in :mod:`circuitode.topology`, which re-exports these.
+:func:`~circuitode.checks.topology.diagnose` and :func:`~circuitode.checks.topology.verify`
+are in :mod:`circuitode.checks.topology`, which re-exports these.
 """
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ import math
 import networkx as nx
 import numpy as np
 
-from .circuit import (
+from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
@@ -25,8 +25,8 @@ from .circuit import (
     TimedSchedule,
     VoltageSource,
 )
-from .configurations import _list, _seconds, _si
-from .errors import Diagnostic
+from ..model.configurations import _list, _seconds, _si
+from ..errors import Diagnostic
 
 __all__ = [
     "check_duplicate_names",

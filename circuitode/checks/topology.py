@@ -1,4 +1,4 @@
-"""Topology checks: graph diagnostics on a built :class:`~circuitode.circuit.Circuit`, before any solve.
+"""Topology checks: graph diagnostics on a built :class:`~circuitode.model.circuit.Circuit`, before any solve.
 
 Each check is one function that returns a list of
 :class:`~circuitode.errors.Diagnostic` and raises nothing; :func:`diagnose` runs
@@ -7,13 +7,13 @@ subclass named by the first error.
 
 Switches make the graph change with time, so the loop and cut-set checks run
 on every switch configuration the run can reach
-(:func:`circuitode.configurations.reachable_configurations`, re-exported here).
+(:func:`circuitode.model.configurations.reachable_configurations`, re-exported here).
 An ideal switch (no on-resistance) is a short when closed; one with no
 off-resistance is an open when open.  A switch with a resistance in that state
 is simply a resistor.
 
 The per-element checks (names, values, couplings) live in
-:mod:`circuitode.element_checks` and are re-exported here.
+:mod:`circuitode.checks.element_checks` and are re-exported here.
 
 Every ``check_*`` function takes the circuit (and, for the switched checks,
 optionally the configurations to examine, by default all reachable ones) and
@@ -46,7 +46,7 @@ from typing import Iterable, Sequence
 
 import networkx as nx
 
-from .circuit import (
+from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
@@ -54,7 +54,7 @@ from .circuit import (
     Switch,
     VoltageSource,
 )
-from .configurations import (  # the configurations are re-exported: older imports take them from here
+from ..model.configurations import (  # the configurations are re-exported: older imports take them from here
     MAX_CONFIGURATIONS,
     Configuration,
     _list,
@@ -67,7 +67,7 @@ from .element_checks import (  # the per-element checks are re-exported: older i
     check_duplicate_names,
     check_values,
 )
-from .errors import (
+from ..errors import (
     BadCouplingError,
     BadValueError,
     CapacitorLoopError,
@@ -484,8 +484,8 @@ def diagnose(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
 
     Examples
     --------
-    >>> from circuitode.circuit import Capacitor, Circuit, Resistor, VoltageSource
-    >>> from circuitode.sources import Dc
+    >>> from circuitode.model.circuit import Capacitor, Circuit, Resistor, VoltageSource
+    >>> from circuitode.model.sources import Dc
     >>> c = Circuit("demo", "gnd", (VoltageSource("V1", "in", "gnd", Dc(5.0)),
     ...                             Capacitor("C1", "in", "gnd", 1e-6)))
     >>> [(d.code, d.elements) for d in diagnose(c)]
@@ -515,7 +515,7 @@ def verify(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
 
     Examples
     --------
-    >>> from circuitode.circuit import Circuit, Resistor
+    >>> from circuitode.model.circuit import Circuit, Resistor
     >>> c = Circuit("demo", None, (Resistor("R1", "a", "b", 1.0), Resistor("R2", "a", "b", 2.0)))
     >>> verify(c)
     Traceback (most recent call last):
