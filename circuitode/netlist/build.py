@@ -38,9 +38,11 @@ def _located(err: NetlistError, where: Where | None) -> NetlistError:
 class _Builder:
     """Holds the tables of one build; one method per statement kind."""
 
-    def __init__(self, statements: list, overrides: Mapping[str, Any] | None, source_file: str | None):
+    def __init__(self, statements: list, overrides: Mapping[str, Any] | None, source_file: str | None,
+                 varied: frozenset[str] = frozenset()):
         self.statements = statements
         self.overrides = dict(overrides or {})
+        self.varied = frozenset(varied)  # parameters kept by name in recipes, as if they had a spread
         self.source_file = source_file
         self.title: str | None = None
         self.ground: GroundStmt | None = None
@@ -152,7 +154,7 @@ class _Builder:
 
         def swap(node: ex.Name) -> ex.Expression | None:
             name = node.name
-            if name in self.spreads or name not in self.definitions:
+            if name in self.spreads or name in self.varied or name not in self.definitions:
                 return None
             if name not in self._expanded:
                 inner = self.expanded(self.definitions[name])
@@ -490,7 +492,7 @@ class _Builder:
 
 
 def build_circuit(statements: list, overrides: Mapping[str, Any] | None = None,
-                  source_file: str | None = None) -> cm.Circuit:
+                  source_file: str | None = None, varied=()) -> cm.Circuit:
     """Build a Circuit from statements whose includes are already expanded.
 
     Parameters
@@ -498,13 +500,15 @@ def build_circuit(statements: list, overrides: Mapping[str, Any] | None = None,
     statements : syntax-tree statements (see :mod:`.parse`), in file order.
     overrides : parameter name → new value (a quantity string such as ``"47 Ω"``, or an SI float).
     source_file : the top file's name, kept on the Circuit.
+    varied : parameter names that a sweep or sizing will vary: every element value depending
+        on one gets a recipe over it, as if it had a tolerance (it gets no spread).
 
     Raises
     ------
     NetlistError : located at the offending statement, with what to change.
     """
     try:
-        return _Builder(statements, overrides, source_file).run()
+        return _Builder(statements, overrides, source_file, frozenset(varied)).run()
     except RecursionError:
         raise NetlistError("an expression is nested too deeply to evaluate",
                            hint="split it into several parameters") from None

@@ -12,7 +12,8 @@ from ..model import circuit as cm
 from ..errors import NetlistError
 from .build import build_circuit
 from .parse import parse_text
-from .syntax import IncludeStmt, Netlist
+from .parts import set_parts
+from .syntax import IncludeStmt, Netlist, ParamStmt
 
 __all__ = ["expand_includes", "load", "loads"]
 
@@ -46,9 +47,13 @@ def expand_includes(netlist: Netlist, base_dir: Path, chain: tuple[str, ...] = (
     return out
 
 
-def loads(text: str, filename: str = "<text>", overrides: Mapping[str, Any] | None = None) -> cm.Circuit:
+def loads(text: str, filename: str = "<text>", overrides: Mapping[str, Any] | None = None,
+          varied=()) -> cm.Circuit:
     """Parse and build netlist text. Includes are resolved relative to ``filename``'s folder
     (the current folder for ``"<text>"``).
+
+    overrides : parameter or part name (``R1``, ``K_main.on``; see :mod:`.parts`) → new value.
+    varied : parameter names a sweep will vary (see :func:`.build.build_circuit`).
 
     Raises
     ------
@@ -59,16 +64,22 @@ def loads(text: str, filename: str = "<text>", overrides: Mapping[str, Any] | No
     base = Path(filename).resolve().parent if is_path else Path.cwd()
     chain = (str(Path(filename).resolve()),) if is_path else (filename,)
     statements = expand_includes(netlist, base, chain)
-    return build_circuit(statements, overrides, filename if is_path else None)
+    params = {st.name for st in statements if isinstance(st, ParamStmt)}
+    overrides = dict(overrides or {})
+    parts = {name: value for name, value in overrides.items() if name not in params}
+    circuit = build_circuit(statements, {name: value for name, value in overrides.items() if name in params},
+                            filename if is_path else None, varied=[name for name in varied if name in params])
+    return set_parts(circuit, parts) if parts else circuit
 
 
-def load(path: str | Path, overrides: Mapping[str, Any] | None = None) -> cm.Circuit:
+def load(path: str | Path, overrides: Mapping[str, Any] | None = None, varied=()) -> cm.Circuit:
     """Read, parse and build a ``.cnet`` file.
 
     Parameters
     ----------
     path : the netlist file.
-    overrides : parameter name → new value (``"47 Ω"`` or an SI float), e.g. from ``--set``.
+    overrides : parameter or part name → new value (``"47 Ω"`` or an SI float), e.g. from ``--set``.
+    varied : parameter names a sweep or sizing will vary (their recipes are kept by name).
 
     Raises
     ------
@@ -81,4 +92,4 @@ def load(path: str | Path, overrides: Mapping[str, Any] | None = None) -> cm.Cir
         raise NetlistError(f"the netlist file '{path}' does not exist", hint="check the path") from None
     except (OSError, UnicodeDecodeError) as err:
         raise NetlistError(f"the netlist file '{path}' cannot be read: {err}") from None
-    return loads(text, str(path), overrides)
+    return loads(text, str(path), overrides, varied)

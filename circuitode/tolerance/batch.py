@@ -18,6 +18,7 @@ import numpy as np
 
 from ..model.circuit import Circuit, Coupling, PowerIn
 from ..errors import CircuitodeError, NetlistError
+from ..netlist.parts import expose_parts
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
 from ..analysis.measure import figure_unit, measure
 from ..output.report import unit_of_parameter
@@ -142,6 +143,13 @@ def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
             )
 
 
+def _override_names(overrides) -> list[str]:
+    """The names ``--tol`` overrides refer to (parameters or parts such as ``K_main.on``)."""
+    if isinstance(overrides, dict):
+        return list(overrides)
+    return [str(text).partition("=")[0].strip() for text in overrides or ()]
+
+
 def run_chunk(task: dict) -> dict:
     """Run one chunk (picklable task) and reduce it to figures; never raises for a sample."""
     circuit = task["circuit"]
@@ -251,7 +259,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
             text = path.read_bytes()
         except OSError as exc:
             raise CircuitodeError(f"cannot read netlist {path}: {exc.strerror}") from None
-        circuit = load(path)
+        circuit = load(path, varied=_override_names(tol_overrides))
         identity = text
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
@@ -261,6 +269,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
         overrides = [f"{k}={v}" for k, v in tol_overrides.items()]
     else:
         overrides = list(tol_overrides or [])
+    circuit = expose_parts(circuit, _override_names(overrides), "--tol")  # R1=5%, K_main.on=10%
     spreads = spreads_with_overrides(circuit, overrides)
     table = draw_samples(spreads, int(samples), sampler, int(seed))
     _check_supported(circuit, table.names)

@@ -91,7 +91,7 @@ class SampleTable:
 
 
 _OVERRIDE = re.compile(
-    r"^\s*(?P<name>[A-Za-z_][A-Za-z0-9_]*)\s*=\s*(?:±|\+-|\+/-)?\s*"
+    r"^\s*(?P<name>[A-Za-z_][A-Za-z0-9_]*(?:\.[A-Za-z_][A-Za-z0-9_]*)?)\s*=\s*(?:±|\+-|\+/-)?\s*"
     r"(?P<number>[0-9]*\.?[0-9]+(?:[eE][+-]?[0-9]+)?)\s*(?P<percent>%)?"
     r"\s*(?P<dist>[A-Za-z]+)?\s*$"
 )
