@@ -24,6 +24,8 @@ examples:
   circuitode run netlists/precharge.cnet --set R_pre=47Ω --no-plots
   circuitode modes netlists/lc_filter.cnet
   circuitode tolerance netlists/precharge.cnet --samples 10000 --sampler lhs --seed 7
+  circuitode sweep netlists/precharge.cnet --vary R_pre=4.7Ω..100Ω/20/log --vary C_link=1mF,1.5mF,2.2mF
+  circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ
 
 exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
 """
@@ -112,7 +114,34 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--min-yield", type=_percent, help="exit 1 when the yield is below this, e.g. 99%%")
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-tolerance next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
+    _study_parsers(sub)
     return parser
+
+
+def _study_parsers(sub) -> None:
+    """The design-study commands: sweep and size."""
+    p = sub.add_parser("sweep", help="grid over one to three parameters or parts: table of figures and limits, plot",
+                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--vary", action="append", required=True, metavar="NAME=SPEC",
+                   help="LOW..HIGH/COUNT[/log] or V1,V2,…, e.g. R_pre=4.7Ω..100Ω/20/log (repeat for 2 or 3 names)")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param or part value first (repeatable)")
+    p.add_argument("--method", choices=("exact", "rk4"), default="exact", help="batched integrator")
+    p.add_argument("--out", type=Path, help="folder (default: <netlist>-sweep next to the netlist)")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+
+    p = sub.add_parser("size", help="the values of one part over which every 'require' holds, with E12/E24 values",
+                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--part", required=True, metavar="NAME", help="a param or part name, e.g. R_pre, R1, K_main.on")
+    p.add_argument("--range", dest="within", required=True, metavar="LOW..HIGH", help="values to search, e.g. 1Ω..1kΩ")
+    p.add_argument("--points", type=int, default=33, help="values swept before refining (default 33)")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param or part value first (repeatable)")
+    p.add_argument("--method", choices=("exact", "rk4"), default="exact", help="batched integrator")
+    p.add_argument("--yield", dest="target_yield", type=_percent, metavar="P",
+                   help="not available yet: refused with a message")
 
 
 # --------------------------------------------------------------------------
@@ -190,7 +219,29 @@ def _tolerance(args: argparse.Namespace) -> int:
     return int(result.exit_code)
 
 
-COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance}
+def _sweep(args: argparse.Namespace) -> int:
+    from .output.runner import default_out_dir
+    from .studies import sweep
+    from .studies.report import sweep_text
+
+    out = args.out or default_out_dir(args.netlist, "sweep")
+    result = sweep(args.netlist, args.vary, overrides=dict(args.overrides) or None, method=args.method,
+                   out_dir=out, plots=not args.no_plots)
+    print(sweep_text(result, path=args.netlist))
+    return result.exit_code
+
+
+def _size(args: argparse.Namespace) -> int:
+    from .studies.report import size_text
+    from .studies.sizing import size
+
+    result = size(args.netlist, args.part, args.within, overrides=dict(args.overrides) or None,
+                  points=args.points, method=args.method, yield_target=args.target_yield)
+    print(size_text(result, path=args.netlist))
+    return result.exit_code
+
+
+COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "sweep": _sweep, "size": _size}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

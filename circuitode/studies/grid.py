@@ -35,7 +35,7 @@ from ..tolerance.batch import _check_supported, batch_figure_keys, run_chunk
 from ..tolerance.engine import BATCH_METHODS, output_grid
 
 __all__ = ["Axis", "PointResults", "parse_axis", "axis_from", "study_circuit", "evaluate_points",
-           "MAX_POINTS"]
+           "grid_points", "unit_of", "MAX_POINTS"]
 
 #: A study larger than this many points is refused (ask for fewer values per axis).
 MAX_POINTS = 200_000
@@ -57,7 +57,7 @@ class Axis:
     log: bool = False
 
 
-def _unit_of(circuit: Circuit, name: str) -> str | None:
+def unit_of(circuit: Circuit, name: str) -> str | None:
     """The unit of a parameter or part, from the element fields it feeds; None when unknown."""
     from ..output.report import unit_of_parameter
 
@@ -87,7 +87,7 @@ def parse_axis(text: str, circuit: Circuit) -> Axis:
 
 def axis_from(name: str, spec: Any, circuit: Circuit) -> Axis:
     """An Axis from a written SPEC, or from a sequence of SI values (API)."""
-    unit = _unit_of(circuit, name)
+    unit = unit_of(circuit, name)
     what = f"a value of {name}"
     if not isinstance(spec, str):
         values = np.atleast_1d(np.asarray(spec, dtype=float))

@@ -135,14 +135,15 @@ def column_names(result: SweepResult) -> list[str]:
     'margin: <limit>' per requirement, then 'ok' and 'message'."""
     names = [a.name for a in result.axes]
     names += [f"{f.replace('_', ' ')} of {label}" for f, label in result.results.figure_keys]
+    from .report import limit_words
+
     for req in result.requirements:
-        names += [f"pass: {req.label}", f"margin: {req.label}"]
+        words = limit_words(req)
+        names += [f"pass: {words}", f"margin: {words}"]
     return names + ["ok", "message"]
 
 
 def _column_units(result: SweepResult) -> list[str]:
-    from ..analysis.measure import figure_unit  # noqa: F401  (units come with the results)
-
     units = [a.unit for a in result.axes] + list(result.results.figure_units)
     unit_of = dict(zip(result.results.figure_keys, result.results.figure_units))
     for req in result.requirements:

@@ -1,0 +1,77 @@
+"""Text of the ``sweep`` and ``size`` commands (≤ 80 columns, engineering notation)."""
+from __future__ import annotations
+
+from typing import Any, Sequence
+
+import numpy as np
+
+from ..analysis.measure import figure_unit
+from ..netlist.quantities import format_si
+from ..output.report import requirement_words
+
+__all__ = ["limit_words", "sweep_text", "size_text"]
+
+
+def limit_words(requirement: Any) -> str:
+    """E.g. "peak of current through R1 < 6 A"."""
+    return requirement_words(requirement, figure_unit(requirement.figure, requirement.probe.unit))
+
+
+def _head(title: str, path: str | None) -> str:
+    return f"{title}  ({path})" if path else title
+
+
+def sweep_text(result: Any, path: str | None = None) -> str:
+    """Summary of a sweep: the grid, how many points meet each requirement, where they lie, files."""
+    n = result.points.shape[0]
+    good = result.all_pass
+    out = [_head(result.title, path)]
+    grid = " × ".join(f"{a.name} {a.values.size} values {format_si(a.values.min(), a.unit)} to "
+                      f"{format_si(a.values.max(), a.unit)}{' (log)' if a.log else ''}" for a in result.axes)
+    out += [f"sweep: {n} points ({grid}), through the batch engine", ""]
+    failed = int((~result.results.ok).sum())
+    if failed:
+        out.append(f"{failed} point(s) could not be simulated (see the 'message' column)")
+    for i, req in enumerate(result.requirements):
+        met = int((result.results.passes[:, i] & result.results.ok).sum())
+        out.append(f"  {met:>6} of {n} meet  {limit_words(req)}")
+    out.append(f"every requirement met at {int(good.sum())} of {n} points")
+    if good.any():
+        for j, a in enumerate(result.axes):
+            values = result.points[good, j]
+            out.append(f"  {a.name} among them: {format_si(values.min(), a.unit)} to {format_si(values.max(), a.unit)}")
+    if result.files:
+        out += ["", "files:"] + [f"  {name:<9} {p}" for name, p in result.files.items()]
+    return "\n".join(out)
+
+
+def _values(values: Sequence[float], unit: str) -> str:
+    return ", ".join(format_si(v, "") for v in values) + (f" {unit}" if unit else "")
+
+
+def size_text(result: Any, path: str | None = None) -> str:
+    """The interval(s), the limiting requirement at each end, and the E12/E24 values inside."""
+    u = result.unit
+    low, high = result.searched
+    out = [_head(f"sizing {result.part}: {result.title}", path),
+           f"searched {format_si(low, u)} to {format_si(high, u)}: {result.grid.size} values swept as one batch, "
+           f"sign changes refined by brentq; {result.evaluations} runs in all", ""]
+    if not result.intervals:
+        out.append(f"no value of {result.part} in this range meets every requirement")
+        for i, req in enumerate(result.requirements):
+            m = result.grid_margins[:, i]
+            met = int(np.sum(m > 0))
+            out.append(f"  met at {met:>3} of {m.size} swept values: {limit_words(req)}")
+        return "\n".join(out)
+    for iv in result.intervals:
+        out.append(f"every requirement holds for {result.part} from {format_si(iv.low, u)} to {format_si(iv.high, u)}")
+        for end, value, limit in (("lower", iv.low, iv.low_limit), ("upper", iv.high, iv.high_limit)):
+            reason = f"set by {limit_words(limit)}" if limit is not None else "end of the searched range"
+            out.append(f"  {end} end {format_si(value, u)}: {reason}")
+    if result.preferred:
+        band = (f" whose whole ± {100 * result.tolerance:g} % tolerance band" if result.tolerance else "")
+        which = "the interval" if len(result.intervals) == 1 else "the widest interval"
+        out += ["", f"preferred values (IEC 60063){band} lie inside {which}:"]
+        for series, (_k, values) in result.preferred.items():
+            out.append(f"  {series}: {_values(values, u)}" if len(values) else f"  {series}: none")
+    return "\n".join(out)
