@@ -10,6 +10,8 @@ The public API, flat::
     limits = co.check_requirements(circuit.requirements, waves)
     table = co.circuit_modes(circuit)                     # ζ, ωn, Q per configuration
     job = co.run_job("netlists/precharge.cnet", out_dir="out")   # all of it + files
+    grid = co.sweep("netlists/precharge.cnet", {"R_pre": "4.7Ω..100Ω/20/log"})  # .to_frame()
+    fit = co.size("netlists/precharge.cnet", "R_pre", "1Ω..1kΩ")   # interval + E24 values
 
 Heavier pieces (the tolerance engine, plotting) are imported on first use.
 """
@@ -52,6 +54,8 @@ __all__ = [
     "circuit_modes",
     "run_job",
     "run_batch",
+    "sweep",
+    "size",
     "CircuitodeError",
     "NetlistError",
     "TopologyError",
@@ -85,6 +89,8 @@ _LAZY = {
     "circuit_modes": ("analysis.modes", "circuit_modes"),
     "run_job": ("output.runner", "run_job"),
     "run_batch": ("tolerance", "run_batch"),
+    "sweep": ("studies.sweep", "sweep"),
+    "size": ("studies.sizing", "size"),
 }
 
 

@@ -24,6 +24,7 @@ recipe, so the batch engine can vary it like a toleranced parameter.
 from __future__ import annotations
 
 import dataclasses
+import difflib
 import math
 from dataclasses import dataclass
 from typing import Any, Iterable, Mapping
@@ -103,8 +104,9 @@ def resolve_part(circuit: cm.Circuit, name: str, option: str = "--set") -> PartF
         return PartField(name, element_name, path, unit)
     known = [*circuit.parameters, *part_names(circuit)]
     if element is not None and fields:
-        words = ", ".join(f"'{element_name}.{w}'" if w else f"'{element_name}'" for w in fields)
-        hint = (did_you_mean(name, known) if "." in name else "") or f"{element_name} offers {words}"
+        own = [f"{element_name}.{w}" if w else element_name for w in fields]
+        close = difflib.get_close_matches(name, own, n=1, cutoff=0.6)
+        hint = did_you_mean(name, own) if close else f"{element_name} offers " + ", ".join(f"'{w}'" for w in own)
     else:
         hint = did_you_mean(name, known) or "this netlist has no parameters or parts of that kind"
     raise NetlistError(f"{option} names '{name}', which is neither a parameter nor a part of this circuit",

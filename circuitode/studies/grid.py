@@ -118,7 +118,8 @@ def axis_from(name: str, spec: Any, circuit: Circuit) -> Axis:
     return Axis(name, values, unit or "", log)
 
 
-def study_circuit(source: Any, names: Sequence[str], overrides: Mapping[str, Any] | None = None) -> Circuit:
+def study_circuit(source: Any, names: Sequence[str], overrides: Mapping[str, Any] | None = None,
+                  option: str = "--vary") -> Circuit:
     """The circuit with every element value that depends on ``names`` kept as a recipe over them.
 
     source : a ``.cnet`` path or a Circuit (a Circuit must already carry recipes for the
@@ -133,7 +134,7 @@ def study_circuit(source: Any, names: Sequence[str], overrides: Mapping[str, Any
         if not path.is_file():
             raise NetlistError(f"no netlist file at {str(path)!r}", hint="give the path to a .cnet file")
         circuit = load(path, overrides=overrides, varied=names)
-    circuit = expose_parts(circuit, names, "--vary")
+    circuit = expose_parts(circuit, names, option)
     for name in names:
         if not any(name in recipe.names for recipe in circuit.recipes.values()):
             raise CircuitodeError(

@@ -45,8 +45,12 @@ def sweep_text(result: Any, path: str | None = None) -> str:
     return "\n".join(out)
 
 
-def _values(values: Sequence[float], unit: str) -> str:
-    return ", ".join(format_si(v, "") for v in values) + (f" {unit}" if unit else "")
+def _values(values: Sequence[float], unit: str, most: int = 8) -> str:
+    """E.g. "10 Ω, 12 Ω, 15 Ω", or the three lowest and highest with a count when there are many."""
+    words = [format_si(v, unit, 3) for v in values]
+    if len(words) > most:
+        words = words[:3] + ["…"] + words[-3:] + [f"({len(values)} values)"]
+    return ", ".join(words).replace(", …,", " …").replace(", (", " (")
 
 
 def size_text(result: Any, path: str | None = None) -> str:
@@ -69,9 +73,13 @@ def size_text(result: Any, path: str | None = None) -> str:
             reason = f"set by {limit_words(limit)}" if limit is not None else "end of the searched range"
             out.append(f"  {end} end {format_si(value, u)}: {reason}")
     if result.preferred:
-        band = (f" whose whole ± {100 * result.tolerance:g} % tolerance band" if result.tolerance else "")
-        which = "the interval" if len(result.intervals) == 1 else "the widest interval"
-        out += ["", f"preferred values (IEC 60063){band} lie inside {which}:"]
-        for series, (_k, values) in result.preferred.items():
-            out.append(f"  {series}: {_values(values, u)}" if len(values) else f"  {series}: none")
+        band = (f" whose whole ± {100 * result.tolerance:g} % tolerance band lies" if result.tolerance else "")
+        out += ["", f"preferred values (IEC 60063){band} inside:"]
+        for k, iv in enumerate(result.intervals):
+            if len(result.intervals) > 1:
+                out.append(f"  {format_si(iv.low, u)} to {format_si(iv.high, u)}:")
+            pad = "    " if len(result.intervals) > 1 else "  "
+            for series, per_interval in result.preferred.items():
+                values = per_interval[k]
+                out.append(f"{pad}{series}: {_values(values, u) if len(values) else 'none'}")
     return "\n".join(out)

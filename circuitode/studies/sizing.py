@@ -56,8 +56,8 @@ class SizingResult:
 
     part : the name sized.  unit : its SI unit.  searched : (low, high) SI.
     intervals : passing intervals, ascending.  tolerance : the part's relative
-    tolerance from the netlist (0 if none).  preferred : series → (interval index,
-    values inside that interval) for E12 and E24 (IEC 60063).  grid : (n,) values
+    tolerance from the netlist (0 if none).  preferred : series → one array per
+    interval of the E12 or E24 values (IEC 60063) whose tolerance band lies inside it.  grid : (n,) values
     swept; grid_margins : (n, r) margins there.  evaluations : simulated points in all.
     """
 
@@ -113,7 +113,7 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
                               "values, then check the result with 'circuitode tolerance … --min-yield'")
     if int(points) < 3:
         raise CircuitodeError(f"--points must be at least 3, got {points}")
-    circuit = study_circuit(netlist, [part], overrides)
+    circuit = study_circuit(netlist, [part], overrides, "--part")
     requirements = tuple(circuit.requirements)
     if not requirements:
         raise CircuitodeError("nothing to size against: the netlist has no 'require' statement")
@@ -144,10 +144,8 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
     tolerance = float(spread.relative) if spread is not None else 0.0
     preferred = {}
     if intervals and unit in ("Ω", "F", "H") and low > 0:
-        widest = max(range(len(intervals)), key=lambda k: intervals[k].high / intervals[k].low)
         for series in ("E12", "E24"):
-            iv = intervals[widest]
-            preferred[series] = (widest, preferred_inside(series, iv.low, iv.high, tolerance))
+            preferred[series] = [preferred_inside(series, iv.low, iv.high, tolerance) for iv in intervals]
     return SizingResult(part, unit, (low, high), intervals, requirements, tolerance, preferred, grid, margins,
                         evaluations, circuit.title)
 
