@@ -56,6 +56,7 @@ __all__ = [
     "run_batch",
     "sweep",
     "size",
+    "waveform_figure",
     "CircuitodeError",
     "NetlistError",
     "TopologyError",
@@ -90,6 +91,7 @@ _LAZY = {
     "run_job": ("output.runner", "run_job"),
     "run_batch": ("tolerance", "run_batch"),
     "sweep": ("studies.sweep", "sweep"),
+    "waveform_figure": ("output.plots", "waveform_figure"),
     "size": ("studies.sizing", "size"),
 }
 

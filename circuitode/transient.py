@@ -24,6 +24,7 @@ from .model.circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from .model.configurations import reachable_configurations
 from .errors import CircuitodeError
+from .notebook import WaveformsView
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
@@ -47,8 +48,8 @@ class Event:
     reason: str
 
 
-@dataclass(frozen=True, eq=False)
-class Waveforms:
+@dataclass(frozen=True, eq=False, repr=False)  # repr and to_frame: notebook.WaveformsView
+class Waveforms(WaveformsView):
     """Everything a transient run recorded.
 
     t : (nt,) s, nondecreasing; a switching instant appears twice (before, after).

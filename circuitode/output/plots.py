@@ -1,7 +1,8 @@
 """PNG plots of a run: recorded waveforms with switching events and peaks marked.
 
-Matplotlib is imported inside the functions, with the non-interactive Agg
-backend, so importing circuitode never pulls it in.  Axes read in engineering
+Matplotlib is imported inside the functions and figures are built as
+``matplotlib.figure.Figure`` objects (no pyplot state, no backend switch), so
+importing circuitode never pulls it in and a notebook keeps its own backend.  Axes read in engineering
 notation (ms, kA …) through :func:`circuitode.netlist.quantities.si_scale`.
 """
 from __future__ import annotations
@@ -13,21 +14,12 @@ import numpy as np
 
 from ..netlist.quantities import format_si, si_scale
 
-__all__ = ["plot_waveforms", "QUANTITY_NAMES"]
+__all__ = ["plot_waveforms", "waveform_figure", "QUANTITY_NAMES"]
 
 #: Axis words per unit.
 QUANTITY_NAMES = {"V": "voltage", "A": "current", "W": "power"}
 
 _PALETTE = ("#1b6ca8", "#d1495b", "#2e8b57", "#8e44ad", "#e08e0b", "#00798c", "#6c757d", "#9c6644")
-
-
-def _pyplot():
-    import matplotlib
-
-    matplotlib.use("Agg", force=True)
-    import matplotlib.pyplot as plt
-
-    return plt
 
 
 def plot_waveforms(
@@ -39,12 +31,27 @@ def plot_waveforms(
     max_panels: int = 4,
     max_traces: int = 6,
 ) -> Path:
+    """Write the PNG of :func:`waveform_figure` to ``path`` and return the path."""
+    path = Path(path)
+    waveform_figure(waveforms, path, title=title, labels=labels, max_panels=max_panels, max_traces=max_traces)
+    return path
+
+
+def waveform_figure(
+    waveforms: Any,
+    path: Path | str | None = None,
+    *,
+    title: str = "",
+    labels: Sequence[str] | None = None,
+    max_panels: int = 4,
+    max_traces: int = 6,
+):
     """Draw the recorded signals, one panel per unit (voltages, currents, powers).
 
     Parameters
     ----------
     waveforms : the transient engine's Waveforms (``t`` s, ``signals``, ``units``, ``events``).
-    path : PNG file to write.
+    path : PNG file to write, or None to write nothing (a notebook shows the Figure).
     title : figure title (the circuit's).
     labels : which signals to draw (default: all, grouped by unit).
     max_panels, max_traces : caps that keep a large ladder readable; the
@@ -52,9 +59,10 @@ def plot_waveforms(
 
     Returns
     -------
-    The path written.
+    The matplotlib Figure (built without pyplot, so no global state and no backend change).
     """
-    plt = _pyplot()
+    from matplotlib.figure import Figure
+
     t = np.asarray(waveforms.t, dtype=float)
     labels = list(labels if labels is not None else waveforms.signals)
     groups: dict[str, list[str]] = {}
@@ -64,8 +72,8 @@ def plot_waveforms(
     order = order[:max_panels]
     tf, tp = si_scale(t)
 
-    fig, axes = plt.subplots(len(order), 1, sharex=True, squeeze=False,
-                             figsize=(9.0, 1.2 + 2.5 * len(order)), dpi=110)
+    fig = Figure(figsize=(9.0, 1.2 + 2.5 * len(order)), dpi=110)
+    axes = fig.subplots(len(order), 1, sharex=True, squeeze=False)
     axes = axes[:, 0]
     for ax, unit in zip(axes, order):
         members = groups[unit][:max_traces]
@@ -99,10 +107,9 @@ def plot_waveforms(
     if title:
         fig.suptitle(title, fontsize=11, x=0.01, ha="left")
     fig.tight_layout()
-    path = Path(path)
-    fig.savefig(path)
-    plt.close(fig)
-    return path
+    if path is not None:
+        fig.savefig(Path(path))
+    return fig
 
 
 def _mark_events(ax: Any, events: Sequence[Any], tf: float) -> None:
