@@ -87,3 +87,14 @@ def test_notebook_example_writes_no_file(tmp_path, monkeypatch, capsys):
     assert sorted(p.name for p in netlists.iterdir()) == before
     assert list(tmp_path.iterdir()) == []
     assert "R_pre" in capsys.readouterr().out
+
+
+def test_batch_result_as_a_frame(tmp_path):
+    path = tmp_path / "rc.cnet"
+    path.write_text(RC.replace("10 Ω", "10 Ω ± 5 %"), encoding="utf-8")
+    result = co.run_batch(path, samples=16, out_dir=tmp_path / "t", plots=False, progress=False)
+    frame = result.to_frame()
+    assert len(frame) == 16 and frame.index.name == "sample"
+    assert frame.attrs["units"]["R1"] == "Ω" and frame.attrs["units"]["peak of current through R1"] == "A"
+    # peak current at closing is V/R for every sample (Nilsson & Riedel ch. 7)
+    np.testing.assert_allclose(frame["peak of current through R1"], 10.0 / frame["R1"], rtol=1e-12)

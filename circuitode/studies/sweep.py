@@ -21,7 +21,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from ..errors import CircuitodeError
-from ..model.circuit import Circuit
+from ..notebook import pandas_module
 from .grid import MAX_POINTS, Axis, PointResults, axis_from, evaluate_points, grid_points, parse_axis, study_circuit
 
 __all__ = ["SweepResult", "sweep", "column_names"]
@@ -76,7 +76,7 @@ class SweepResult:
 
         Needs pandas (``pip install circuitode[frames]``).
         """
-        pd = _pandas()
+        pd = pandas_module()
         frame = pd.DataFrame(self.columns())
         frame.attrs["units"] = dict(zip(frame.columns, _column_units(self)))
         frame.attrs["title"] = self.title
@@ -119,15 +119,6 @@ def _cell(value: Any) -> str:
     if isinstance(value, (float, np.floating)):
         return f"{float(value):.5g}"
     return str(value)
-
-
-def _pandas():
-    try:
-        import pandas
-    except ImportError:  # a third-party extra, not one of our modules
-        raise CircuitodeError("DataFrames need pandas: pip install 'circuitode[frames]' (or pip install pandas)") \
-            from None
-    return pandas
 
 
 def column_names(result: SweepResult) -> list[str]:

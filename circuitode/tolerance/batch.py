@@ -64,6 +64,12 @@ class BatchResult:
     worst: dict = field(default_factory=dict)
     parameter_units: dict = field(default_factory=dict)
 
+    def to_frame(self):
+        """One row per sample: parameters, figures, ok, message; units in ``attrs`` (needs pandas)."""
+        from .frames import batch_frame
+
+        return batch_frame(self)
+
     @property
     def exit_code(self) -> int:
         """0, or 1 when a minimum yield was given and the yield is below it."""

@@ -1,0 +1,28 @@
+"""A tolerance batch as a pandas DataFrame (pandas is the optional ``frames`` extra)."""
+from __future__ import annotations
+
+from typing import Any
+
+from ..notebook import pandas_module
+
+__all__ = ["batch_frame"]
+
+
+def batch_frame(result: Any):
+    """One row per sample (index ``sample``): the sampled parameters, every figure as
+    '<figure> of <probe>', then ``ok`` and ``message``.  ``attrs["units"]`` maps columns to units."""
+    pd = pandas_module()
+    table = result.samples
+    values = table.values
+    data = {name: values[:, j] for j, name in enumerate(table.names)}
+    units = {name: result.parameter_units.get(name, "") for name in table.names}
+    for j, ((figure, label), unit) in enumerate(zip(result.figure_keys, result.figure_units)):
+        column = f"{figure.replace('_', ' ')} of {label}"
+        data[column] = result.figures[:, j]
+        units[column] = unit
+    data["ok"] = result.ok
+    data["message"] = result.messages
+    frame = pd.DataFrame(data)
+    frame.index.name = "sample"
+    frame.attrs["units"] = units
+    return frame
