@@ -138,3 +138,18 @@ def test_cli_size_prints_interval_ends_and_series(tmp_path, capsys):
 def test_cli_size_bad_input_is_exit_2(tmp_path, capsys, args, words):
     assert main(["size", str(_file(tmp_path, RC))] + args) == 2
     assert words in capsys.readouterr().err
+
+
+def test_readme_precharge_sizing_numbers():
+    # README "Design studies": the lower end is where 48 V over the series path gives 6 A
+    # (Nilsson & Riedel ch. 7: i(0+) = V / R_total with the capacitor at 0 V): R_int 25 mΩ,
+    # R_pre, then R_esr 8 mΩ in parallel with R_load 2.2 kΩ.
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parent.parent / "netlists" / "precharge.cnet"
+    result = size(path, "R_pre", "1Ω..1kΩ")
+    (interval,) = result.intervals
+    expected = 48.0 / 6.0 - 25e-3 - 1 / (1 / 8e-3 + 1 / 2.2e3)
+    assert interval.low == pytest.approx(expected, rel=1e-6)
+    assert interval.high_limit.figure == "final" and 22.0 < interval.high < 23.0
+    assert list(result.preferred["E12"][0]) == [10, 12, 15, 18]

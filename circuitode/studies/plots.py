@@ -74,12 +74,13 @@ def _tidy(ax) -> None:
 
 
 def _title(j: int, requirement: Any, result: Any) -> str:
-    f, label = result.results.figure_keys[j]
-    text = f"{f.replace('_', ' ')} of {label}"
+    """The requirement in the report's words, or the figure's name when nothing limits it."""
+    from .report import limit_words
+
     if requirement is not None:
-        unit = result.results.figure_units[j]
-        text += f"\nlimit {requirement.comparison} {format_si(requirement.limit, unit)}"
-    return text
+        return limit_words(requirement)
+    f, label = result.results.figure_keys[j]
+    return f"{f.replace('_', ' ')} of {label}"
 
 
 def sweep_figure(result: Any):
