@@ -26,6 +26,7 @@ examples:
   circuitode tolerance netlists/precharge.cnet --samples 10000 --sampler lhs --seed 7
   circuitode sweep netlists/precharge.cnet --vary R_pre=4.7Ω..100Ω/20/log --vary C_link=1mF,1.5mF,2.2mF
   circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ
+  circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ --yield 99%
 
 exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
 """
@@ -141,7 +142,9 @@ def _study_parsers(sub) -> None:
                    metavar="NAME=VALUE", help="replace a param or part value first (repeatable)")
     p.add_argument("--method", choices=("exact", "rk4"), default="exact", help="batched integrator")
     p.add_argument("--yield", dest="target_yield", type=_percent, metavar="P",
-                   help="not available yet: refused with a message")
+                   help="size so that at least P of the tolerance samples meet every requirement, e.g. 99%%")
+    p.add_argument("--samples", type=int, default=500, help="tolerance samples for --yield (default 500)")
+    p.add_argument("--seed", type=int, default=0, help="random seed for --yield (default 0)")
 
 
 # --------------------------------------------------------------------------
@@ -236,7 +239,8 @@ def _size(args: argparse.Namespace) -> int:
     from .studies.sizing import size
 
     result = size(args.netlist, args.part, args.within, overrides=dict(args.overrides) or None,
-                  points=args.points, method=args.method, yield_target=args.target_yield)
+                  points=args.points, method=args.method, yield_target=args.target_yield,
+                  yield_samples=args.samples, seed=args.seed)
     print(size_text(result, path=args.netlist))
     return result.exit_code
 

@@ -114,9 +114,38 @@ def test_no_value_meets_the_limits(tmp_path):
     assert result.intervals == [] and result.exit_code == 1
 
 
-def test_yield_option_is_refused_plainly(tmp_path):
-    with pytest.raises(CircuitodeError, match="not available yet"):
-        size(_file(tmp_path, RC), "R1", "1Ω..1kΩ", yield_target=0.99)
+YIELD_RC = RC.replace("R1 in -- out R ± 5 %", "R1 in -- out R ± 5 % uniform").replace(
+    "require final voltage at out > 9 V\n", "")
+
+
+def test_yield_sizing_matches_the_uniform_distribution(tmp_path):
+    # R1 = x (1 + d), d uniform on [-r, r] (the netlist's "± 5 % uniform"); peak = V / (x (1 + d))
+    # (Nilsson & Riedel ch. 7) stays below I when d > V/(I x) - 1, so the yield is
+    # (r - (V/(I x) - 1)) / (2r) and reaches p at x = V / (I (1 + r (1 - 2p))) (uniform CDF).
+    # Latin-hypercube samples put one sample in each of N strata of d, so the empirical
+    # yield is within 1/N of the true one: 2r/N = 1e-4 in d, hence rel 2e-4 in x.
+    V, I, r, p = 10.0, 2.0, 0.05, 0.95
+    result = size(_file(tmp_path, YIELD_RC), "R1", "1Ω..1kΩ", yield_target=p, yield_samples=1000)
+    (interval,) = result.intervals
+    assert interval.low == pytest.approx(V / (I * (1 + r * (1 - 2 * p))), rel=2e-4)
+    assert interval.low_limit.figure == "peak"
+    assert interval.high == 1000.0 and interval.high_limit is None
+    estimate, low, high = result.yield_details["ends"][result.yield_details["inside_ends"][0][0]]
+    assert estimate >= p and low < p < high
+
+
+def test_yield_needs_tolerances(tmp_path):
+    with pytest.raises(CircuitodeError, match="needs tolerances"):
+        size(_file(tmp_path, YIELD_RC.replace(" ± 5 % uniform", "")), "R1", "1Ω..1kΩ", yield_target=0.99)
+
+
+def test_cli_size_with_yield(tmp_path, capsys):
+    code = main(["size", str(_file(tmp_path, YIELD_RC)), "--part", "R1", "--range", "1Ω..100Ω",
+                 "--yield", "95%", "--samples", "200"])
+    text = capsys.readouterr().out
+    assert code == 0
+    assert "yield target 95 % over 200 Latin-hypercube samples of R1" in text
+    assert "95 % Wilson interval" in text
 
 
 def test_cli_size_prints_interval_ends_and_series(tmp_path, capsys):
@@ -133,7 +162,7 @@ def test_cli_size_prints_interval_ends_and_series(tmp_path, capsys):
     (["--part", "R1", "--range", "1F..2F"], "ohms"),
     (["--part", "R1", "--range", "1Ω"], "LOW..HIGH"),
     (["--part", "R1", "--range", "5Ω..1Ω"], "LOW < HIGH"),
-    (["--part", "R1", "--range", "1Ω..1kΩ", "--yield", "99%"], "not available yet"),
+    (["--part", "R1", "--range", "1Ω..1kΩ", "--yield", "100%"], "between 0 % and 100 %"),
 ])
 def test_cli_size_bad_input_is_exit_2(tmp_path, capsys, args, words):
     assert main(["size", str(_file(tmp_path, RC))] + args) == 2

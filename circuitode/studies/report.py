@@ -60,6 +60,10 @@ def size_text(result: Any, path: str | None = None) -> str:
     out = [_head(f"sizing {result.part}: {result.title}", path),
            f"searched {format_si(low, u)} to {format_si(high, u)}: {result.grid.size} values swept as one batch, "
            f"sign changes refined by brentq; {result.evaluations} runs in all", ""]
+    if not result.intervals and result.yield_details is not None:
+        out.append(f"no value of {result.part} in this range reaches a yield of "
+                   f"{100 * result.yield_target:g} % over {result.yield_details['samples']} samples")
+        return "\n".join(out)
     if not result.intervals:
         out.append(f"no value of {result.part} in this range meets every requirement")
         for i, req in enumerate(result.requirements):
@@ -67,11 +71,22 @@ def size_text(result: Any, path: str | None = None) -> str:
             met = int(np.sum(m > 0))
             out.append(f"  met at {met:>3} of {m.size} swept values: {limit_words(req)}")
         return "\n".join(out)
-    for iv in result.intervals:
-        out.append(f"every requirement holds for {result.part} from {format_si(iv.low, u)} to {format_si(iv.high, u)}")
-        for end, value, limit in (("lower", iv.low, iv.low_limit), ("upper", iv.high, iv.high_limit)):
+    details = result.yield_details
+    if details is not None:
+        names = ", ".join(details["names"])
+        out.append(f"yield target {100 * details['target']:g} % over {details['samples']} Latin-hypercube samples "
+                   f"of {names} (seed {details['seed']}); {details['runs']} sample runs")
+    for k, iv in enumerate(result.intervals):
+        what = (f"at least {100 * details['target']:g} % of the samples meet every requirement" if details
+                else "every requirement holds")
+        out.append(f"{what} for {result.part} from {format_si(iv.low, u)} to {format_si(iv.high, u)}")
+        for side, (end, value, limit) in enumerate((("lower", iv.low, iv.low_limit), ("upper", iv.high, iv.high_limit))):
             reason = f"set by {limit_words(limit)}" if limit is not None else "end of the searched range"
             out.append(f"  {end} end {format_si(value, u)}: {reason}")
+            if details is not None:
+                estimate, low_y, high_y = details["ends"][details["inside_ends"][k][side]]
+                out.append(f"    yield there {100 * estimate:.1f} % (95 % Wilson interval {100 * low_y:.1f} to "
+                           f"{100 * high_y:.1f} %)")
     if result.preferred:
         band = (f" whose whole ± {100 * result.tolerance:g} % tolerance band lies" if result.tolerance else "")
         out += ["", f"preferred values (IEC 60063){band} inside:"]

@@ -72,6 +72,8 @@ class SizingResult:
     grid_margins: np.ndarray = field(default_factory=lambda: np.zeros((0, 0)))
     evaluations: int = 0
     title: str = ""
+    yield_target: float | None = None
+    yield_details: dict | None = None
 
     @property
     def exit_code(self) -> int:
@@ -94,7 +96,8 @@ def parse_range(text: Any, circuit, part: str) -> tuple[float, float]:
 
 
 def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] | None = None, points: int = 33,
-         method: str = "exact", yield_target: float | None = None, progress=None) -> SizingResult:
+         method: str = "exact", yield_target: float | None = None, yield_samples: int = 500, seed: int = 0,
+         progress=None) -> SizingResult:
     """Find the values of ``part`` within ``within`` for which every requirement holds.
 
     Parameters
@@ -105,12 +108,11 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
     overrides : names → values set first (``--set``).
     points : values swept before refining (at least 3).
     method : "exact" or "rk4".
-    yield_target : not available yet; refused with a message.
+    yield_target : a fraction (0.99): the intervals where at least this share of the
+        tolerance samples meets every requirement (see :mod:`.yield_sizing`).
+    yield_samples, seed : size and seed of the Latin-hypercube sample table for the yield.
     progress : optional callable(count) told how many points each run held.
     """
-    if yield_target is not None:
-        raise CircuitodeError("sizing for a yield target (--yield) is not available yet; size at the nominal "
-                              "values, then check the result with 'circuitode tolerance … --min-yield'")
     if int(points) < 3:
         raise CircuitodeError(f"--points must be at least 3, got {points}")
     circuit = study_circuit(netlist, [part], overrides, "--part")
@@ -142,12 +144,21 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
     evaluations += len(roots) + 1
     spread = circuit.spreads.get(part)
     tolerance = float(spread.relative) if spread is not None else 0.0
+    details = None
+    if yield_target is not None:
+        from .yield_sizing import yield_intervals
+
+        found, details = yield_intervals(circuit, part, intervals, float(yield_target), samples=yield_samples,
+                                         seed=seed, method=method)
+        intervals = [Interval(a, b, la, lb) for a, b, la, lb, _ai, _bi in found]
+        details["inside_ends"] = [(ai, bi) for *_rest, ai, bi in found]
+        tolerance = 0.0  # the yield already holds the part's tolerance
     preferred = {}
     if intervals and unit in ("Ω", "F", "H") and low > 0:
         for series in ("E12", "E24"):
             preferred[series] = [preferred_inside(series, iv.low, iv.high, tolerance) for iv in intervals]
     return SizingResult(part, unit, (low, high), intervals, requirements, tolerance, preferred, grid, margins,
-                        evaluations, circuit.title)
+                        evaluations, circuit.title, yield_target, details)
 
 
 def _intervals(circuit, part: str, low: float, high: float, roots, requirements, method: str) -> list:
