@@ -99,3 +99,16 @@ def test_param_without_tolerance_can_be_given_one_with_tol(tmp_path):
                           progress=False)
     assert "R_pre" in result.samples.names
     assert result.samples.values[:, result.samples.names.index("R_pre")].std() > 0
+
+
+def test_ideal_switch_resistance_cannot_vary_until_it_has_one(tmp_path):
+    from circuitode.studies import sweep
+
+    path = tmp_path / "p.cnet"
+    path.write_text(TEXT, encoding="utf-8")
+    with pytest.raises(NetlistError, match="K_pre is ideal when closed"):
+        sweep(path, ["K_pre.on=1mΩ,1Ω"])
+    # once set, it varies: peak = 48 V / (10 Ω + R_on) at closing (Nilsson & Riedel ch. 7)
+    result = sweep(path, ["K_pre.on=1mΩ,1Ω"], overrides={"K_pre.on": "1 mΩ"})
+    assert list(result.columns()["peak of current through R1"]) == pytest.approx([48 / 10.001, 48 / 11.0],
+                                                                                 rel=1e-9)

@@ -174,7 +174,14 @@ def expose_parts(circuit: cm.Circuit, names: Iterable[str], option: str = "--var
         if name in circuit.parameters:
             continue
         part = resolve_part(circuit, name, option)
-        parameters[name] = _current_value(circuit.by_name[part.element], part.field)
+        value = _current_value(circuit.by_name[part.element], part.field)
+        if not math.isfinite(value):
+            state = "closed" if part.field == "on_resistance" else "open"
+            raise NetlistError(
+                f"{option} names '{name}', but {part.element} is ideal when {state} (it has no such resistance), "
+                "so it cannot vary", hint=f"write '{part.field.split('_')[0]} 1 mΩ' (or a value) on {part.element}'s "
+                f"line, or --set {name}=VALUE first")
+        parameters[name] = value
         recipes[(part.element, part.field)] = ex.Name(name)
         changed = True
     if not changed:

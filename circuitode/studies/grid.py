@@ -128,6 +128,9 @@ def study_circuit(source: Any, names: Sequence[str], overrides: Mapping[str, Any
     from ..netlist import load
 
     if isinstance(source, Circuit):
+        if overrides:
+            raise CircuitodeError("overrides need the netlist's path (a built circuit cannot take new param "
+                                  "values); pass the path, or load the circuit with co.load(path, overrides=…)")
         circuit = source
     else:
         path = Path(source)
