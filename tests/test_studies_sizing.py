@@ -182,3 +182,19 @@ def test_readme_precharge_sizing_numbers():
     assert interval.low == pytest.approx(expected, rel=1e-6)
     assert interval.high_limit.figure == "final" and 22.0 < interval.high < 23.0
     assert list(result.preferred["E12"][0]) == [10, 12, 15, 18]
+
+
+def test_sizing_a_source_level(tmp_path):
+    # pack.value, the dc level of the pre-charge example: the peak R1 current at closing is
+    # V / (R_int + R_pre + R_esr ∥ R_load) (Nilsson & Riedel ch. 7), and the settled link is the
+    # divider V · R_load / (R_load + R_int + R_pre ∥ R_on) once the bypass is closed (ch. 3).
+    from pathlib import Path
+
+    path = Path(__file__).resolve().parent.parent / "netlists" / "precharge.cnet"
+    result = size(path, "pack.value", "20V..100V")
+    (interval,) = result.intervals
+    parallel = lambda a, b: a * b / (a + b)  # noqa: E731
+    assert interval.low == pytest.approx(47.0 * (2200 + 25e-3 + parallel(10.0, 2e-3)) / 2200, rel=1e-6)
+    assert interval.high == pytest.approx(6.0 * (25e-3 + 10.0 + parallel(8e-3, 2200)), rel=1e-6)
+    assert result.unit == "V" and result.preferred == {}
+    assert repr(result) == "<SizingResult pack.value: 47 V to 60.2 V>"

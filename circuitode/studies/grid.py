@@ -61,7 +61,7 @@ def unit_of(circuit: Circuit, name: str) -> str | None:
     """The unit of a parameter or part, from the element fields it feeds; None when unknown."""
     from ..output.report import unit_of_parameter
 
-    if name not in circuit.parameters:
+    if name not in circuit.parameters or "." in name or name in circuit.by_name:
         return resolve_part(circuit, name, "--vary").unit
     unit = unit_of_parameter(circuit, name)
     if unit:

@@ -80,6 +80,20 @@ class SizingResult:
         """0 when some value meets every requirement, else 1."""
         return 0 if self.intervals else 1
 
+    def __repr__(self) -> str:
+        from ..netlist.quantities import format_si
+
+        spans = "; ".join(f"{format_si(iv.low, self.unit)} to {format_si(iv.high, self.unit)}"
+                          for iv in self.intervals) or "no value meets every requirement"
+        return f"<SizingResult {self.part}: {spans}>"
+
+    def _repr_html_(self) -> str:
+        from html import escape
+
+        from .report import size_text
+
+        return f"<pre>{escape(size_text(self))}</pre>"
+
 
 def parse_range(text: Any, circuit, part: str) -> tuple[float, float]:
     """``"1Ω..1kΩ"`` (or a pair of SI values) → (low, high), unit-checked against the part."""
