@@ -98,3 +98,15 @@ def test_batch_result_as_a_frame(tmp_path):
     assert frame.attrs["units"]["R1"] == "Ω" and frame.attrs["units"]["peak of current through R1"] == "A"
     # peak current at closing is V/R for every sample (Nilsson & Riedel ch. 7)
     np.testing.assert_allclose(frame["peak of current through R1"], 10.0 / frame["R1"], rtol=1e-12)
+
+
+def test_run_and_batch_results_show_compactly(tmp_path):
+    path = tmp_path / "rc.cnet"
+    path.write_text(RC.replace("10 Ω", "10 Ω ± 5 %"), encoding="utf-8")
+    job = co.run_job(path, out_dir=tmp_path / "run", plots=False)
+    assert repr(job).startswith("<JobResult 'RC switched'") and len(repr(job)) < 200
+    html = job._repr_html_()
+    assert "<pre>" in html and "data:image/png;base64," in html and "array(" not in html
+    batch = co.run_batch(path, samples=8, out_dir=tmp_path / "t", plots=False, progress=False)
+    assert repr(batch) == "<BatchResult: 8 samples (lhs, seed 0); yield 8 of 8; 11 figures>"
+    assert "tolerance batch: 8 samples" in batch._repr_html_()

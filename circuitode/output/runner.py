@@ -39,6 +39,16 @@ class JobResult:
     def exit_code(self) -> int:
         return 0 if all(r.passed for r in self.limits) else 1
 
+    def __repr__(self) -> str:
+        from .html import job_repr
+
+        return job_repr(self)
+
+    def _repr_html_(self) -> str:
+        from .html import job_html
+
+        return job_html(self)
+
 
 def load_any(source: Any, overrides: Mapping[str, Any] | None = None) -> Circuit:
     """A Circuit from a Circuit, a path to a ``.cnet`` file, or netlist text."""

@@ -70,6 +70,16 @@ class BatchResult:
 
         return batch_frame(self)
 
+    def __repr__(self) -> str:
+        from .frames import batch_repr
+
+        return batch_repr(self)
+
+    def _repr_html_(self) -> str:
+        from .frames import batch_html
+
+        return batch_html(self)
+
     @property
     def exit_code(self) -> int:
         """0, or 1 when a minimum yield was given and the yield is below it."""

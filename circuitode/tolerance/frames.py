@@ -1,11 +1,13 @@
-"""A tolerance batch as a pandas DataFrame (pandas is the optional ``frames`` extra)."""
+"""A tolerance batch as a pandas DataFrame (pandas is the optional ``frames`` extra), and
+what a notebook shows for it (one-line ``repr``, the printed summary as HTML)."""
 from __future__ import annotations
 
+from html import escape
 from typing import Any
 
 from ..notebook import pandas_module
 
-__all__ = ["batch_frame"]
+__all__ = ["batch_frame", "batch_repr", "batch_html"]
 
 
 def batch_frame(result: Any):
@@ -26,3 +28,17 @@ def batch_frame(result: Any):
     frame.index.name = "sample"
     frame.attrs["units"] = units
     return frame
+
+
+def batch_repr(result: Any) -> str:
+    """One line: samples, sampler, yield; never the arrays."""
+    y = result.yield_estimate
+    return (f"<BatchResult: {result.samples.count} samples ({result.samples.sampler}, seed {result.samples.seed}); "
+            f"yield {y.passed} of {y.total}; {len(result.figure_keys)} figures>")
+
+
+def batch_html(result: Any) -> str:
+    """The printed batch summary in ``<pre>`` (the histograms are in the folder's plots/)."""
+    from .summary import format_batch_summary
+
+    return f"<pre>{escape(format_batch_summary(result))}</pre>"
