@@ -136,3 +136,26 @@ def test_cli_sweep_bad_name_is_exit_2(rc, capsys):
 
 def test_api_is_flat():
     assert co.sweep is sweep
+
+
+@pytest.mark.parametrize("vary, panels, contour", [
+    (["R=10Ω..40Ω/5/log"], 1, False),
+    (["R=10Ω..40Ω/5/log", "C=1uF,2uF"], 1, False),                    # a line per value of C
+    (["R=10Ω..40Ω/5/log", "C=1uF..2uF/4"], 1, True),                  # contour map
+    (["R=10Ω..40Ω/5/log", "C=1uF,2uF", "V1.value=5V,10V,20V"], 3, False),  # a column per value of V1
+])
+def test_plot_kinds_return_a_figure_and_write_nothing(rc, tmp_path, monkeypatch, vary, panels, contour):
+    from matplotlib.figure import Figure
+
+    monkeypatch.chdir(tmp_path)
+    before = sorted(tmp_path.iterdir())
+    figure = sweep(rc, vary).plot()
+    assert isinstance(figure, Figure)
+    drawn = [ax for ax in figure.axes if ax.get_visible() and ax.get_xlabel() == "R [Ω]"]
+    assert len(drawn) == panels
+    for ax in drawn:
+        if contour:
+            assert ax.collections and not ax.lines
+        else:
+            assert len(ax.lines) >= 3 * (2 if len(vary) > 1 else 1)  # line + passing + failing markers
+    assert sorted(tmp_path.iterdir()) == before

@@ -99,7 +99,12 @@ def _lines(result: Any):
     third = axes[2] if len(axes) > 2 else None
     panels = _panels(result)
     facets = list(range(min(third.values.size, _MAX_FACETS))) if third is not None else [None]
-    fig, grid = _figure(len(panels), len(facets))
+    wrap = third is None and len(panels) > 2  # one column of panels only: lay them out two wide
+    rows = -(-len(panels) // 2) if wrap else len(panels)
+    fig, cells = _figure(rows, 2 if wrap else len(facets))
+    grid = [[cells[n // 2][n % 2]] for n in range(len(panels))] if wrap else cells
+    if wrap and len(panels) % 2:
+        cells[-1][1].set_visible(False)
     x, xunit = _scaled(first.values, first.unit)
     ok = result.all_pass.reshape(shape)
     for row, (j, req) in enumerate(panels):
