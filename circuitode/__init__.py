@@ -57,6 +57,9 @@ __all__ = [
     "sweep",
     "size",
     "waveform_figure",
+    "read_run",
+    "read_batch",
+    "read_sweep",
     "CircuitodeError",
     "NetlistError",
     "TopologyError",
@@ -92,6 +95,9 @@ _LAZY = {
     "run_batch": ("tolerance", "run_batch"),
     "sweep": ("studies.sweep", "sweep"),
     "waveform_figure": ("output.plots", "waveform_figure"),
+    "read_run": ("output.readback", "read_run"),
+    "read_batch": ("output.readback", "read_batch"),
+    "read_sweep": ("output.readback", "read_sweep"),
     "size": ("studies.sizing", "size"),
 }
 

@@ -110,3 +110,32 @@ def test_run_and_batch_results_show_compactly(tmp_path):
     batch = co.run_batch(path, samples=8, out_dir=tmp_path / "t", plots=False, progress=False)
     assert repr(batch) == "<BatchResult: 8 samples (lhs, seed 0); yield 8 of 8; 11 figures>"
     assert "tolerance batch: 8 samples" in batch._repr_html_()
+
+
+def test_folders_read_back_as_frames(tmp_path):
+    from circuitode.cli import main
+
+    path = tmp_path / "rc.cnet"
+    path.write_text(RC.replace("10 Ω", "10 Ω ± 5 %") + "require peak current through R1 < 2 A\n",
+                    encoding="utf-8")
+    job = co.run_job(path, out_dir=tmp_path / "run", plots=False)
+    run = co.read_run(tmp_path / "run")
+    assert run.waveforms.index.names == ["time", "side"]
+    assert run.waveforms.attrs["units"]["current through R1"] == "A"
+    np.testing.assert_allclose(run.waveforms["current through R1"].to_numpy(),
+                               job.waveforms["current through R1"], rtol=1e-11, atol=1e-15)
+    assert run.waveforms.loc[(1e-3, "after"), "current through R1"] == pytest.approx(1.0, rel=1e-11)
+    assert run.summary["all_limits_met"] is True
+
+    batch = co.run_batch(path, samples=8, out_dir=tmp_path / "t", plots=False, progress=False)
+    back = co.read_batch(tmp_path / "t")
+    assert len(back.samples) == 8 and back.samples["ok"].all()
+    np.testing.assert_allclose(back.samples["R1"], batch.samples.values[:, 0], rtol=1e-15)
+    assert back.summary["samples"] == 8
+
+    assert main(["sweep", str(path), "--vary", "R1=5Ω,20Ω", "--out", str(tmp_path / "s"), "--no-plots"]) == 0
+    table = co.read_sweep(tmp_path / "s")
+    assert list(table["pass: peak of current through R1 < 2 A"]) == [False, True]
+    assert table.attrs["units"]["R1"] == "Ω"
+    with pytest.raises(co.CircuitodeError, match="circuitode run"):
+        co.read_run(tmp_path / "t")
