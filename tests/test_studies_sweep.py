@@ -159,3 +159,13 @@ def test_plot_kinds_return_a_figure_and_write_nothing(rc, tmp_path, monkeypatch,
         else:
             assert len(ax.lines) >= 3 * (2 if len(vary) > 1 else 1)  # line + passing + failing markers
     assert sorted(tmp_path.iterdir()) == before
+
+
+def test_timing_cannot_be_swept_and_says_so(tmp_path, capsys):
+    path = tmp_path / "timing.cnet"
+    path.write_text(RC.replace("voltage_source V1 in -- gnd dc 10 V\nresistor R1 in -- out R",
+                               "param t_on = 1 us\nvoltage_source V1 in -- gnd dc 10 V\n"
+                               "switch K1 in -- a closes at t_on\nresistor R1 a -- out R"), encoding="utf-8")
+    assert main(["sweep", str(path), "--vary", "t_on=1us,2us"]) == 2
+    err = capsys.readouterr().err
+    assert "--vary t_on: it reaches the switching time of K1" in err and "timing" in err

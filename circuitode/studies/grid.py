@@ -75,6 +75,14 @@ def unit_of(circuit: Circuit, name: str) -> str | None:
     return None
 
 
+def _field_words(field: str) -> str:
+    """E.g. "control.changes.0" → "switching time", "waveform.delay" → "delay"."""
+    if field.startswith("control.changes."):
+        return "switching time"
+    return {"control.level": "switching level", "control.period": "toggling period", "control.duty": "duty",
+            "control.start": "toggling start"}.get(field, field.split(".")[-1].replace("_", " "))
+
+
 def parse_axis(text: str, circuit: Circuit) -> Axis:
     """Read ``NAME=SPEC`` (see the module text) into an Axis; values unit-checked."""
     name, sep, spec = text.partition("=")
@@ -145,7 +153,16 @@ def study_circuit(source: Any, names: Sequence[str], overrides: Mapping[str, Any
                 + ("; pass the netlist's path instead of a built circuit" if isinstance(source, Circuit) else ""))
     if len(set(names)) != len(names):
         raise CircuitodeError(f"each name may be varied once; got {', '.join(names)}")
-    _check_supported(circuit, list(names))
+    for name in names:
+        try:
+            _check_supported(circuit, [name])
+        except CircuitodeError as exc:  # reworded: the batch's message speaks of tolerances
+            reached = sorted(f"the {_field_words(field)} of {element}"
+                             for (element, field), recipe in circuit.recipes.items() if name in recipe.names)
+            raise CircuitodeError(
+                f"{option} {name}: it reaches {', '.join(reached)}, a value every point of a batch shares "
+                "(switching instants and other timing); vary element values or source levels instead, or run "
+                f"'circuitode run --set {name}=…' once per value") from exc
     return circuit
 
 
