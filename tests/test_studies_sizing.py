@@ -198,3 +198,9 @@ def test_sizing_a_source_level(tmp_path):
     assert interval.high == pytest.approx(6.0 * (25e-3 + 10.0 + parallel(8e-3, 2200)), rel=1e-6)
     assert result.unit == "V" and result.preferred == {}
     assert repr(result) == "<SizingResult pack.value: 47 V to 60.2 V>"
+
+
+def test_yield_refuses_to_drop_a_tolerance_the_part_was_written_with(tmp_path):
+    text = RC.replace("param R = 10 Ω", "param R = 10 Ω ± 5 %").replace("out R ± 5 %", "out R")
+    with pytest.raises(CircuitodeError, match="tolerance of R reaches no element once R1 is sized"):
+        size(_file(tmp_path, text), "R1", "1Ω..1kΩ", yield_target=0.9, yield_samples=50)

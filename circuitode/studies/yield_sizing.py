@@ -53,6 +53,11 @@ class YieldSetting:
         if not spreads:
             raise CircuitodeError("--yield needs tolerances in the netlist ('± 5 %' on a value or a param), "
                                   "or size at the nominal values without --yield")
+        orphans = [n for n in spreads if not any(n in r.names for r in circuit.recipes.values())]
+        if orphans:
+            raise CircuitodeError(
+                f"the tolerance of {', '.join(orphans)} reaches no element once {part} is sized directly, so "
+                f"the yield would leave it out; size {orphans[0]} instead, or put the tolerance on {part}")
         table = draw_samples(spreads, int(samples), "lhs", int(seed))
         names = list(table.names)
         base = table.values
