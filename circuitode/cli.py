@@ -85,7 +85,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--step", type=_quantity("s"), help="output (and rk4) step, e.g. 5us")
     p.add_argument("--until", type=_quantity("s"), help="end of the window, e.g. 60ms")
     p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
-                   metavar="NAME=VALUE", help="replace a param or part value, e.g. --set R_pre=47Ω, --set K_main.on=5mΩ (repeatable)")
+                   metavar="NAME=VALUE", help="replace a param or part value, e.g. --set R_pre=47Ω, --set K_main.on=5mΩ "
+                   "(repeatable)")
     p.add_argument("--out", type=Path, help="run folder (default: <netlist>-results next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG")
 
@@ -103,7 +104,8 @@ def build_parser() -> argparse.ArgumentParser:
                    help="Monte Carlo, Latin hypercube (default), Sobol, or every ± corner")
     p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
     p.add_argument("--tol", dest="tol_overrides", action="append", type=_assignment, default=[],
-                   metavar="NAME=SPREAD", help="set a tolerance on a param or part, e.g. --tol C_link=10%%, --tol R1=5%% (repeatable)")
+                   metavar="NAME=SPREAD", help="set a tolerance on a param or part, e.g. --tol C_link=10%%, --tol R1=5%% "
+                   "(repeatable)")
     where = p.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, help="local worker processes (default: in this process)")
     where.add_argument("--scheduler", metavar="ADDRESS", help="Dask scheduler address, e.g. tcp://host:8786")
