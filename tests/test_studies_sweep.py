@@ -169,3 +169,10 @@ def test_timing_cannot_be_swept_and_says_so(tmp_path, capsys):
     assert main(["sweep", str(path), "--vary", "t_on=1us,2us"]) == 2
     err = capsys.readouterr().err
     assert "--vary t_on: it reaches the switching time of K1" in err and "timing" in err
+
+
+def test_a_parameter_that_feeds_nothing_is_refused(tmp_path):
+    path = tmp_path / "rc.cnet"
+    path.write_text(RC.replace("param C = 1 uF", "param C = 1 uF\nparam tau = R * C"), encoding="utf-8")
+    with pytest.raises(CircuitodeError, match="tau feeds no element value"):
+        sweep(path, ["tau=1us,2us"])
