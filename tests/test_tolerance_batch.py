@@ -21,7 +21,7 @@ circuit "RC inrush with a current limit"
 param R_c = 10 Ω ± 10 %
 param C_c = 100 uF ± 20 % uniform
 ground gnd
-voltage_source V1 rail -- gnd dc 12 V
+voltage_source V1 rail -- gnd constant 12 V
 switch K1 rail -- s closes at 0.1 ms
 resistor R1 s -- out R_c
 capacitor C1 out -- gnd C_c initial 0 V
@@ -135,7 +135,7 @@ def test_unreachable_scheduler_is_explained(tmp_path, monkeypatch):
 def test_a_spread_source_level_varies_per_sample(tmp_path):
     # the rail itself is ± 5 %: the peak current at closing is V/R per sample (Ohm's law,
     # capacitor still empty; Nilsson & Riedel ch. 7)
-    text = RC_WITH_LIMIT.replace("dc 12 V", "dc 12 V ± 5 % uniform")
+    text = RC_WITH_LIMIT.replace("constant 12 V", "constant 12 V ± 5 % uniform")
     r = run_batch(loads(text), samples=40, seed=3, out_dir=tmp_path, progress=False, plots=False)
     names = r.samples.names
     V = r.samples.values[:, names.index("V1.waveform.value")]
@@ -146,7 +146,7 @@ def test_a_spread_source_level_varies_per_sample(tmp_path):
 
 
 def test_a_spread_on_source_timing_is_refused_plainly(tmp_path):
-    text = RC_WITH_LIMIT.replace("dc 12 V", "sine amplitude 12 V frequency 50 Hz ± 5 %")
+    text = RC_WITH_LIMIT.replace("constant 12 V", "sine amplitude 12 V frequency 50 Hz ± 5 %")
     with pytest.raises(CircuitodeError, match="only a source's levels"):
         run_batch(loads(text), samples=10, out_dir=tmp_path, progress=False)
 

@@ -19,13 +19,15 @@ from ..model import sources as src
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
+from .pulses import pulse_times
 from .quantities import check_unit, parse_quantity, unit_phrase
 from .syntax import (
     CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt,
     ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued,
 )
 from .vocabulary import (
-    ELEMENT_UNITS, FIGURE_WORDS, METHOD_NAMES, TOGGLE_FIELDS, WAVEFORM_CLASSES, WAVEFORM_FIELDS,
+    ELEMENT_UNITS, FIGURE_WORDS, METHOD_NAMES, TOGGLE_FIELDS, WAVEFORM_CLASSES, WAVEFORM_FIELDS, WAVEFORM_WORDS,
+    word_hint,
 )
 
 __all__ = ["build_circuit", "METHOD_NAMES", "FIGURE_WORDS", "WAVEFORM_FIELDS"]
@@ -249,7 +251,7 @@ class _Builder:
         for f in fields:
             if f.name not in table:
                 raise NetlistError(f"{kind_words} has no field '{f.name}'", f.where,
-                                   did_you_mean(f.name, table) or f"its fields are {', '.join(table)}")
+                                   word_hint(f.name, table) or f"its fields are {', '.join(table)}")
             if f.name in given:
                 raise NetlistError(f"the field '{f.name}' is given twice", f.where, "keep one")
             given[f.name] = f
@@ -258,7 +260,7 @@ class _Builder:
                 if default is None:
                     raise NetlistError(f"{kind_words} needs the field '{word}'", self._where,
                                        f"add '{word} …' to the statement")
-                out[attr] = None if default == math.inf else default
+                out[attr] = None if default == math.inf or math.isnan(default) else default
                 continue
             f = given[word]
             unit = {"signal": signal, "count": ""}.get(role, role)
@@ -266,8 +268,8 @@ class _Builder:
             value = self.value(f.value, unit, what, owner, f"{prefix}{attr}", need_unit=(role == "%"))
             if role == "count":
                 if value != int(value) or value < 1:
-                    raise NetlistError(f"the pulse count must be a whole number of at least 1; got {value:g}",
-                                       f.value.where, "write e.g. 'count 5', or leave it out for endless pulses")
+                    raise NetlistError(f"the number of pulses must be a whole number of at least 1; got {value:g}",
+                                       f.value.where, f"write e.g. '{word} 5', or leave it out for endless pulses")
                 value = int(value)
             out[attr] = value
         return out
@@ -275,10 +277,10 @@ class _Builder:
     def waveform(self, st: SourceStmt, signal: str) -> src.Waveform:
         spec = st.waveform
         self._where = spec.where
-        if spec.kind == "dc":
-            value = self.value(spec.fields[0].value, signal, "a dc value", st.name, "waveform.value")
+        if spec.kind == "constant":
+            value = self.value(spec.fields[0].value, signal, "a constant value", st.name, "waveform.value")
             return src.Dc(value)
-        if spec.kind == "pwl":
+        if spec.kind == "points":
             times, values = [], []
             for t, v in spec.points:
                 for valued, tag in ((t, "time"), (v, "value")):
@@ -294,10 +296,11 @@ class _Builder:
                                        f"this time ({times[i]:g} s) is not after the one before ({times[i - 1]:g} s)")
             return src.PiecewiseLinear(tuple(times), tuple(values))
         if spec.kind not in WAVEFORM_FIELDS:
-            raise NetlistError(f"unknown waveform '{spec.kind}'", spec.where,
-                               did_you_mean(spec.kind, ["dc", "pwl", *WAVEFORM_FIELDS]))
+            raise NetlistError(f"unknown waveform '{spec.kind}'", spec.where, word_hint(spec.kind, WAVEFORM_WORDS))
         kwargs = self.fields(spec.fields, WAVEFORM_FIELDS[spec.kind], st.name, "waveform.",
                              f"a {spec.kind} waveform", signal)
+        if spec.kind == "pulses":
+            kwargs = pulse_times(kwargs, {f.name: f for f in spec.fields}, spec.where)
         return WAVEFORM_CLASSES[spec.kind](**kwargs)
 
     def on_switch(self, st: SwitchStmt) -> None:

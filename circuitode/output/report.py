@@ -104,7 +104,7 @@ def describe_waveform(waveform: Any, unit: str) -> str:
     f = lambda v, u=unit: format_si(v, u)  # noqa: E731
     match kind:
         case "Dc":
-            return f"dc {f(waveform.value)}"
+            return f"constant {f(waveform.value)}"
         case "Step":
             return f"step from {f(waveform.before)} to {f(waveform.after)} at {f(waveform.at, 's')}"
         case "Ramp":
