@@ -492,3 +492,34 @@ def test_error_examples_in_the_language_reference_are_real():
             loads(source, location.split(":")[0])
         assert info.value.message == message
         assert (info.value.where.line, info.value.where.column) == (line, column)
+
+
+# ---------------------------------------------------------------------------
+# The grammar is analysed once and cached; an edited grammar is analysed afresh
+# ---------------------------------------------------------------------------
+
+
+def test_grammar_cache_is_never_stale(tmp_path):
+    from importlib import resources
+
+    from lark.exceptions import UnexpectedInput
+
+    from circuitode.netlist.parse import build_parser
+
+    grammar = resources.files("circuitode.netlist").joinpath("grammar.lark").read_text(encoding="utf-8")
+    cache = tmp_path / "grammar.cache"
+    text = "ground g\nvoltage_source V a -- g constant 1 V\n"
+    build_parser(grammar, str(cache)).parse(text)
+    assert cache.is_file()  # the analysed grammar was stored
+    build_parser(grammar, str(cache)).parse(text)  # and is read back
+    edited = grammar.replace('"constant"', '"steady"')
+    parser = build_parser(edited, str(cache))  # same cache file, different grammar text
+    parser.parse(text.replace("constant", "steady"))
+    with pytest.raises(UnexpectedInput):
+        parser.parse(text)
+
+
+def test_the_package_parser_uses_the_grammar_cache():
+    from circuitode.netlist.parse import _parser
+
+    assert _parser().options.cache is True

@@ -13,9 +13,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Any, Mapping, Protocol
+from typing import TYPE_CHECKING, Any, Mapping, Protocol
 
-import networkx as nx
+if TYPE_CHECKING:
+    import networkx as nx
 
 from ..errors import Where
 from .sources import Waveform
@@ -403,6 +404,8 @@ class Circuit:
     def graph(self) -> nx.MultiGraph:
         """Nodes are node names; one edge per two-terminal element, key = element name,
         attribute ``element`` holds the element."""
+        import networkx as nx  # loads slowly; only the graph checks need it
+
         g = nx.MultiGraph()
         g.add_nodes_from(self.nodes)
         for e in self.elements:

@@ -26,7 +26,7 @@ from .syntax import (
     TransientStmt, Valued, WaveformSpec,
 )
 
-__all__ = ["STATEMENT_WORDS", "parse_text"]
+__all__ = ["STATEMENT_WORDS", "parse_text", "build_parser"]
 
 # --------------------------------------------------------------------------
 # lark → syntax tree
@@ -50,14 +50,26 @@ def _keyword_stands_alone(token: Token) -> Token:
     return token
 
 
-@lru_cache(maxsize=1)
-def _parser() -> Lark:
-    grammar = resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8")
-    options = dict(parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
-    plain = Lark(grammar, **options)
+_OPTIONS = dict(parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
+
+
+def build_parser(grammar: str, cache: bool | str = True) -> Lark:
+    """The LALR parser of ``grammar`` with the keyword check attached.
+
+    ``cache`` is lark's grammar cache: True keeps the analysed grammar in a
+    file of the temporary folder named by the SHA-256 of the grammar text, the
+    options and the lark version, so an edited grammar.lark is analysed afresh
+    and an unchanged one loads in milliseconds; a path names the file instead.
+    """
+    plain = Lark(grammar, cache=cache, **_OPTIONS)
     keywords = {t.name: _keyword_stands_alone for t in plain.terminals
                 if t.pattern.type == "str" and t.pattern.value.isidentifier()}
-    return Lark(grammar, lexer_callbacks=keywords, **options)
+    return Lark(grammar, cache=cache, lexer_callbacks=keywords, **_OPTIONS)
+
+
+@lru_cache(maxsize=1)
+def _parser() -> Lark:
+    return build_parser(resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8"))
 
 
 class _ToTree(Transformer):

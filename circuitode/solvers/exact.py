@@ -25,7 +25,6 @@ from __future__ import annotations
 
 import numpy as np
 from scipy.linalg import expm
-from scipy.optimize import brentq
 
 from ..errors import IntegrationError
 from .base import Integrator, SegmentResult, event_values, first_crossing, generator_matrices
@@ -176,6 +175,8 @@ class Exact(Integrator):
             end = g(h)
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
+            from scipy.optimize import brentq  # loads slowly; only threshold events need it
+
             s = brentq(g, 0.0, h, xtol=self.event_tol,
                                             rtol=4 * np.finfo(float).eps)
             if best is None or s < best[0]:

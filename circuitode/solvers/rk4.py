@@ -16,7 +16,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ..errors import UnstableStepError
 from .base import Integrator, LinearSegment, SegmentResult, event_values, first_crossing
@@ -211,6 +210,8 @@ class RK4(Integrator):
             end = g(h)
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
+            from scipy.optimize import brentq  # loads slowly; only threshold events need it
+
             s = brentq(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
             if best is None or s < best[0]:
                 best = (s, j)
