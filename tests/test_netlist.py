@@ -523,3 +523,14 @@ def test_the_package_parser_uses_the_grammar_cache():
     from circuitode.netlist.parse import _parser
 
     assert _parser().options.cache is True
+
+
+def test_units_of_computed_parameters():
+    # Unit algebra of the BIPM SI Brochure (9th ed., tables 2 and 4): Ω·F = s, 1/√(H·F) = 1/s = Hz,
+    # √(H/F) = Ω, V·A·s = J; a product that is none of the language's units gets no unit.
+    c = loads("ground g\nparam L = 2 mH\nparam C = 10 uF\nparam R = 5 Ω\nparam tau = R * C\n"
+              "param f_res = 1 / (2 * pi * sqrt(L * C))\nparam Z0 = sqrt(L / C)\nparam E = 2 V * 3 A * 1 ms\n"
+              "param odd = L * 3 V\nparam n = 4\nresistor R1 a -- g R\n")
+    assert c.parameter_units == {"L": "H", "C": "F", "R": "Ω", "tau": "s", "f_res": "Hz", "Z0": "Ω", "E": "J",
+                                 "odd": None, "n": ""}
+    assert c.parameters["tau"] == pytest.approx(50e-6)

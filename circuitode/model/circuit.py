@@ -364,6 +364,8 @@ class Circuit:
     parameter name.  recipes : (element name, field) → expression over parameter
     names, for each element value that depends on a spread; field is a dataclass
     field name such as "resistance", or "waveform.amplitude" for a source field.
+    parameter_units : unit of each `param` in evaluation order ("" plain number,
+    None when its expression gives no unit of the language).
     """
 
     title: str
@@ -377,6 +379,7 @@ class Circuit:
     spreads: Mapping[str, Spread] = field(default_factory=dict)
     recipes: Mapping[tuple[str, str], Recipe] = field(default_factory=dict)
     source_file: str | None = None
+    parameter_units: Mapping[str, str | None] = field(default_factory=dict)
 
     # -- lookups ---------------------------------------------------------
     @cached_property

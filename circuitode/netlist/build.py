@@ -19,6 +19,7 @@ from ..model import sources as src
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
+from .dimensions import expression_unit
 from .pulses import pulse_times
 from .quantities import check_unit, parse_quantity, unit_phrase
 from .syntax import (
@@ -489,6 +490,7 @@ class _Builder:
             spreads=dict(self.spreads),
             recipes=dict(self.recipes),
             source_file=self.source_file,
+            parameter_units=expression_unit(self.definitions, ex.evaluation_order(self.definitions)),
         )
 
 

@@ -30,9 +30,12 @@ from ..model.circuit import (
 )
 from ..analysis.measure import figure_unit
 from ..netlist.quantities import format_si
+from .mode_table import modes_text  # noqa: F401 - the modes table lives in its own module
 
 __all__ = [
     "SAFETY_LINE",
+    "caution_text",
+    "parameter_lines",
     "SAFETY_TEXT",
     "WIDTH",
     "check_text",
@@ -228,6 +231,7 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
         out.append("switches:")
         for s in circuit.switches:
             out.extend(_wrap(f"{s.name}: {describe_control(s)}", indent="  "))
+    out.extend(parameter_lines(circuit))
     if circuit.spreads:
         out.append("")
         out.append("tolerances:")
@@ -258,6 +262,25 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
         for d in diagnostics:
             out.append(str(d))
     return "\n".join(out)
+
+
+def parameter_lines(circuit: Circuit) -> list[str]:
+    """Lines giving every `param`'s resolved value (after expressions and --set), its unit and tolerance."""
+    if not circuit.parameter_units:
+        return []
+    out = ["", "parameters (resolved):"]
+    for name, unit in circuit.parameter_units.items():
+        value = circuit.parameters.get(name)
+        if value is None:
+            continue
+        shown = format_si(float(value), unit) if unit is not None else f"{float(value):.6g} (unit not one of ours)"
+        out.append(_fit(f"  {_fit(name, 20):<21}= {shown}", WIDTH))
+    return out
+
+
+def caution_text() -> str:
+    """The one-line safety caution, wrapped to the table width."""
+    return "\n".join(_wrap(SAFETY_LINE, indent=""))
 
 
 def unit_of_parameter(circuit: Circuit, name: str) -> str:
@@ -367,42 +390,6 @@ def run_text(
             out.append(_fit(f"  {kind:<10}{p}", WIDTH))
     out.append("")
     out.extend(_wrap(SAFETY_LINE, indent=""))
-    return "\n".join(out)
-
-
-# --------------------------------------------------------------------------
-# circuitode modes
-# --------------------------------------------------------------------------
-
-
-def modes_text(configurations: Sequence[Any], path: str | None = None, title: str = "") -> str:
-    """The damping table of ``circuitode modes``, one block per switch configuration."""
-    out = []
-    if title or path:
-        out.append(_fit(f"{title}" + (f"  ({path})" if path else ""), WIDTH))
-    for cfg in configurations:
-        out.append("")
-        when = "" if math.isnan(cfg.first_time) else f" from {format_si(cfg.first_time, 's')}"
-        out.extend(_wrap(f"configuration: {cfg.description}{when}" + (f" ({cfg.cause})" if cfg.cause else ""),
-                         indent=""))
-        if not cfg.modes:
-            out.append("  no dynamic states in this configuration")
-            continue
-        out.append(f"  {'eigenvalue 1/s':<22}{'fn':>10}{'ζ':>8}{'Q':>8}{'τ':>10}  class")
-        for m in cfg.modes:
-            lam = m.eigenvalue
-            if lam.imag:
-                eig = f"{lam.real:.3g} ± {abs(lam.imag):.3g}j"
-            else:  # a first-order mode, or both real roots of an overdamped L–C section
-                eig = ", ".join(f"{complex(r).real:.3g}" for r in m.eigenvalues)
-            zeta = "—" if math.isnan(m.damping_ratio) else f"{m.damping_ratio:.3f}"
-            q = "∞" if math.isinf(m.quality_factor) else ("—" if math.isnan(m.quality_factor)
-                                                          else f"{m.quality_factor:.3g}")
-            tau = "∞" if math.isinf(m.time_constant) else format_si(m.time_constant, "s", 3)
-            fn = format_si(m.natural_frequency_hz, "Hz", 3)
-            out.append(f"  {_fit(eig, 21):<22}{fn:>10}{zeta:>8}{q:>8}{tau:>10}  {m.kind}")
-            states = ", ".join(f"{n} {w * 100:.0f} %" for n, w in m.participation if w >= 0.1)
-            out.extend(_wrap(f"mainly {states}", indent=" " * 6))
     return "\n".join(out)
 
 
