@@ -5,7 +5,11 @@ Runs, interleaved and each in a fresh process,
 * ``python -c "import numpy, scipy"`` (the baseline: no tool can start faster
   than the libraries it stands on),
 * ``circuitode check netlists/precharge.cnet``,
-* ``circuitode run netlists/precharge.cnet --out TMP`` (plots included),
+* ``circuitode run netlists/precharge.cnet --out TMP`` (plots included), and
+  the same with ``--no-plots``,
+* for reference, the bare imports of the libraries a run cannot do without
+  (scipy.linalg for the matrix exponential, networkx for the topology checks)
+  and of matplotlib's Figure (the plot),
 
 ``--rounds`` times (default 9) and prints the median wall-clock time of each
 and the two ratios to the baseline.  Interleaving spreads the load of a
@@ -46,6 +50,9 @@ def main() -> None:
             "bare import numpy, scipy": [py, "-c", "import numpy, scipy"],
             "circuitode check": [py, "-m", "circuitode", "check", str(NETLIST)],
             "circuitode run": [py, "-m", "circuitode", "run", str(NETLIST), "--out", out],
+            "circuitode run --no-plots": [py, "-m", "circuitode", "run", str(NETLIST), "--out", out, "--no-plots"],
+            "import numpy, scipy.linalg, networkx": [py, "-c", "import numpy, scipy.linalg, networkx"],
+            "import matplotlib.figure": [py, "-c", "import numpy; from matplotlib.figure import Figure"],
         }
         for command in commands.values():  # warm the file cache and lark's grammar cache once
             _seconds(command)
@@ -58,7 +65,7 @@ def main() -> None:
     print(f"{args.rounds} interleaved rounds, median wall-clock per command:")
     for name, value in median.items():
         spread = f"{min(times[name]):.3f}–{max(times[name]):.3f} s"
-        print(f"  {name:26s} {value:7.3f} s   (range {spread})   ratio {value / base:5.2f}")
+        print(f"  {name:38s} {value:7.3f} s   (range {spread})   ratio {value / base:5.2f}")
 
 
 if __name__ == "__main__":
