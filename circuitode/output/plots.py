@@ -182,6 +182,8 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
             span = high - low
             if low - span <= level <= high + span:  # near the data: draw it where it is
                 ax.axhline(level, color=color, lw=1.3, ls="--")
+                if req.figure == "peak" and low < -0.5 * level:  # a peak is of the magnitude: both signs
+                    ax.axhline(-level, color=color, lw=1.3, ls="--")
                 # an upper limit is labelled above its line, a lower one below, on the side the data must avoid
                 ax.text(0.99, level, words + " ", transform=transforms.blended_transform_factory(
                     ax.transAxes, ax.transData), fontsize=7, color=color, ha="right",
