@@ -534,3 +534,14 @@ def test_units_of_computed_parameters():
     assert c.parameter_units == {"L": "H", "C": "F", "R": "Ω", "tau": "s", "f_res": "Hz", "Z0": "Ω", "E": "J",
                                  "odd": None, "n": ""}
     assert c.parameters["tau"] == pytest.approx(50e-6)
+
+
+def test_a_tolerance_on_a_source_field_is_named_by_the_written_word():
+    c = loads("ground g\nvoltage_source V1 a -- g pulses top 5 V ± 5 % every 20 us hold 10 us\n"
+              "voltage_source V2 b -- g step to 3 V ± 2 %\nresistor R a -- b 1\nresistor R2 b -- g 1\n")
+    assert set(c.spreads) == {"V1.waveform.top", "V2.waveform.to"}  # the names --tol takes
+    assert c.recipes[("V1", "waveform.high")].names == frozenset({"V1.waveform.top"})
+    from circuitode.output.report import describe_waveform
+
+    words = describe_waveform(c.element("V1").waveform, "V")
+    assert words.startswith("pulses base 0 V top 5 V every 20 µs, hold 10 µs")

@@ -167,8 +167,11 @@ class _Builder:
 
     # -- values ------------------------------------------------------------
     def value(self, valued: Valued, unit: str | None, what: str, owner: str | None = None,
-              field: str | None = None, need_unit: bool = False) -> float:
-        """SI value of a written value, unit-checked; records spreads and recipes for ``owner.field``."""
+              field: str | None = None, need_unit: bool = False, label: str | None = None) -> float:
+        """SI value of a written value, unit-checked; records spreads and recipes for ``owner.field``.
+
+        A tolerance written on it becomes the spread ``owner.label`` (``label`` is the written field
+        path, e.g. "waveform.top", default ``field``), the name a user gives to --tol."""
         self.check_sums(valued.expr)
         found = self._unit_of(valued.expr)
         try:
@@ -188,7 +191,7 @@ class _Builder:
                     f"this value already depends on the toleranced parameter '{spread_names[0]}'",
                     valued.tolerance.where, f"put the tolerance on parameter '{spread_names[0]}' instead")
             main = field in ("resistance", "capacitance", "inductance")
-            name = owner if main else f"{owner}.{field}"
+            name = owner if main else f"{owner}.{label or field}"
             if name in self.params or name in self.spreads:
                 raise NetlistError(f"the tolerance of '{name}' would clash with the parameter of that name",
                                    valued.tolerance.where, "rename the element or the parameter")
@@ -266,7 +269,8 @@ class _Builder:
             f = given[word]
             unit = {"signal": signal, "count": ""}.get(role, role)
             what = f"the field '{word}'"
-            value = self.value(f.value, unit, what, owner, f"{prefix}{attr}", need_unit=(role == "%"))
+            value = self.value(f.value, unit, what, owner, f"{prefix}{attr}", need_unit=(role == "%"),
+                               label=f"{prefix}{word}")
             if role == "count":
                 if value != int(value) or value < 1:
                     raise NetlistError(f"the number of pulses must be a whole number of at least 1; got {value:g}",

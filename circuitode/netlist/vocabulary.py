@@ -12,7 +12,7 @@ from ..model import sources as src
 from .expressions import did_you_mean
 
 __all__ = ["METHOD_NAMES", "WAVEFORM_FIELDS", "WAVEFORM_CLASSES", "WAVEFORM_WORDS", "TOGGLE_FIELDS", "FIGURE_WORDS",
-           "ELEMENT_UNITS", "PULSE_EDGE_WORDS", "word_hint"]
+           "ELEMENT_UNITS", "PULSE_EDGE_WORDS", "word_hint", "written_field"]
 
 #: Integrator names a `transient` statement may give (see circuit.Analysis).
 METHOD_NAMES = ("auto", "rk4", "rk45", "dop853", "radau", "bdf", "exact")
@@ -48,6 +48,16 @@ _FORMER_WORDS = {
     "dc": "constant", "pwl": "points", "pulse": "pulses", "low": "base", "high": "top", "delay": "from",
     "rise": "rising", "fall": "falling", "width": "hold", "period": "every", "count": "repeats",
 }
+
+
+def written_field(waveform: type, attr: str) -> str:
+    """The word a netlist writes for field ``attr`` of a waveform class ("high" of a PulseTrain → "top")."""
+    for kind, cls in WAVEFORM_CLASSES.items():
+        if cls is waveform:
+            for word, (name, _role, _default) in WAVEFORM_FIELDS[kind].items():
+                if name == attr:
+                    return word
+    return attr
 
 
 def word_hint(word: str, choices) -> str:

@@ -116,10 +116,12 @@ def describe_waveform(waveform: Any, unit: str) -> str:
                 f"{f(waveform.start, 's')} over {f(waveform.duration, 's')}"
             )
         case "PulseTrain":
-            count = "" if waveform.count is None else f", {waveform.count} pulses"
+            count = "" if waveform.count is None else f", {waveform.count} repeats"
+            edges = (f"edges {f(waveform.rise, 's')}" if waveform.rise == waveform.fall
+                     else f"rising {f(waveform.rise, 's')}, falling {f(waveform.fall, 's')}")
             return (
-                f"pulses {f(waveform.low)}…{f(waveform.high)}, width {f(waveform.width, 's')}, "
-                f"period {f(waveform.period, 's')}{count}"
+                f"pulses base {f(waveform.low)} top {f(waveform.high)} every {f(waveform.period, 's')}, "
+                f"hold {f(waveform.width, 's')}, {edges}, from {f(waveform.delay, 's')}{count}"
             )
         case "Sine":
             return (

@@ -132,13 +132,16 @@ def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
             continue
         source = circuit.by_name.get(element)
         level = field_.split(".", 1)[1]
-        allowed = LEVEL_FIELDS.get(type(getattr(source, "waveform", None)), ())
+        kind = type(getattr(source, "waveform", None))
+        allowed = LEVEL_FIELDS.get(kind, ())
         if not field_.startswith("waveform.") or level not in allowed:
+            from ..netlist.vocabulary import written_field
+
+            words = ", ".join(written_field(kind, a) for a in allowed) or "none for this waveform"
             raise CircuitodeError(
-                f"the tolerance on {level} of source {element} is not supported in batches: "
+                f"the tolerance on {written_field(kind, level)} of source {element} is not supported in batches: "
                 f"switching instants and other timing stay common to every sample; only a "
-                f"source's levels ({', '.join(allowed) or 'none for this waveform'}) may vary — "
-                "remove that tolerance or fix the value"
+                f"source's levels ({words}) may vary — remove that tolerance or fix the value"
             )
 
 
