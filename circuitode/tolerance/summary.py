@@ -112,7 +112,9 @@ def format_batch_summary(result) -> str:
         for r in result.requirements:
             unit = units.get((r.figure, r.probe.label), "")
             count = y.per_limit.get(r.label, 0)
-            lines.append(f"  {count:>{len(str(y.total))}} pass  {requirement_words(r, unit)}")
+            head = f"  {count:>{len(str(y.total))}} pass  "
+            lines.extend(textwrap.wrap(head + requirement_words(r, unit), WIDTH,
+                                       subsequent_indent=" " * len(head)))
             if r.label in result.worst:
                 k, value = result.worst[r.label]
                 units_of = getattr(result, "parameter_units", {}) or {}
@@ -139,7 +141,9 @@ def format_batch_summary(result) -> str:
         elif state == "missing":
             lines.append(f"  {label:<46}no value")
         elif drivers and np.isfinite(drivers[0].rho):
-            lines.append(f"  {label:<46}{drivers[0].parameter[:20]:<21}{drivers[0].rho:+.2f}")
+            name = drivers[0].parameter  # whole, even when long: a cut name could point at the wrong part
+            lines.append(f"  {label:<46}{name:<21}{drivers[0].rho:+.2f}" if len(name) <= 20
+                         else f"  {label:<46}{name} {drivers[0].rho:+.2f}")
     if result.out_dir is not None:
         plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
         waves = sum(1 for k in result.files if k.startswith("waveform"))
