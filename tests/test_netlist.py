@@ -504,25 +504,36 @@ def test_grammar_cache_is_never_stale(tmp_path):
 
     from lark.exceptions import UnexpectedInput
 
-    from circuitode.netlist.parse import build_parser
+    from circuitode.netlist.parse import _CURRENT, build_parser
 
     grammar = resources.files("circuitode.netlist").joinpath("grammar.lark").read_text(encoding="utf-8")
     cache = tmp_path / "grammar.cache"
     text = "ground g\nvoltage_source V a -- g constant 1 V\n"
+    _CURRENT.set(("t", text.split("\n"), text))  # what parse_text sets for the keyword check
     build_parser(grammar, str(cache)).parse(text)
     assert cache.is_file()  # the analysed grammar was stored
     build_parser(grammar, str(cache)).parse(text)  # and is read back
     edited = grammar.replace('"constant"', '"steady"')
     parser = build_parser(edited, str(cache))  # same cache file, different grammar text
-    parser.parse(text.replace("constant", "steady"))
+    steady = text.replace("constant", "steady")
+    _CURRENT.set(("t", steady.split("\n"), steady))
+    parser.parse(steady)
+    _CURRENT.set(("t", text.split("\n"), text))
     with pytest.raises(UnexpectedInput):
         parser.parse(text)
 
 
-def test_the_package_parser_uses_the_grammar_cache():
-    from circuitode.netlist.parse import _parser
+def test_the_package_parser_caches_in_a_private_folder(tmp_path, monkeypatch):
+    import os
+    import stat
 
-    assert _parser().options.cache is True
+    from circuitode.netlist.parse import _cache_file
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    path = _cache_file("grammar text")
+    assert path.startswith(str(tmp_path / "circuitode"))  # the user's cache folder, not the shared /tmp
+    assert stat.S_IMODE(os.stat(tmp_path / "circuitode").st_mode) == 0o700
+    assert _cache_file("other grammar") != path  # a different grammar gets a file of its own
 
 
 def test_units_of_computed_parameters():

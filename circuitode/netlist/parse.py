@@ -56,10 +56,10 @@ _OPTIONS = dict(parser="lalr", lexer="contextual", propagate_positions=True, may
 def build_parser(grammar: str, cache: bool | str = True) -> Lark:
     """The LALR parser of ``grammar`` with the keyword check attached.
 
-    ``cache`` is lark's grammar cache: True keeps the analysed grammar in a
-    file of the temporary folder named by the SHA-256 of the grammar text, the
-    options and the lark version, so an edited grammar.lark is analysed afresh
-    and an unchanged one loads in milliseconds; a path names the file instead.
+    ``cache`` is lark's grammar cache: a file path (lark stores in it the
+    SHA-256 of the grammar text and options and analyses afresh when they
+    differ, so an edited grammar.lark is never served stale), True for lark's
+    own file in the temporary folder, False for none.
     """
     plain = Lark(grammar, cache=cache, **_OPTIONS)
     keywords = {t.name: _keyword_stands_alone for t in plain.terminals
@@ -67,9 +67,36 @@ def build_parser(grammar: str, cache: bool | str = True) -> Lark:
     return Lark(grammar, cache=cache, lexer_callbacks=keywords, **_OPTIONS)
 
 
+def _cache_file(grammar: str) -> str | bool:
+    """A grammar cache file in the user's own cache folder, or False when there is none to write.
+
+    Not the shared temporary folder: the cache is a pickle, and a file another
+    user could place there would be loaded.  The name carries the grammar's
+    SHA-256 and the lark version, so worktrees with different grammars do not
+    overwrite each other's file.
+    """
+    import hashlib
+    import os
+    from pathlib import Path
+
+    import lark
+
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    folder = Path(base) / "circuitode"
+    try:
+        folder.mkdir(mode=0o700, parents=True, exist_ok=True)
+        if folder.stat().st_uid != os.getuid() or not os.access(folder, os.W_OK):
+            return False
+    except (OSError, AttributeError):  # no home, read-only file system, or no getuid on this platform
+        return False
+    digest = hashlib.sha256(grammar.encode("utf-8")).hexdigest()[:16]
+    return str(folder / f"grammar-{digest}-lark{lark.__version__}.cache")
+
+
 @lru_cache(maxsize=1)
 def _parser() -> Lark:
-    return build_parser(resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8"))
+    grammar = resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8")
+    return build_parser(grammar, _cache_file(grammar))
 
 
 class _ToTree(Transformer):
