@@ -41,7 +41,7 @@ param C_b = 10 uF ± 20 % uniform
 param C_c = 10 uF ± 20 % uniform
 param R_d = 1.5 Ω ± 5 %
 ground gnd
-voltage_source V1 src -- gnd dc 400 V
+voltage_source V1 src -- gnd constant 400 V
 resistor R_s src -- p 50 mΩ
 switch K1 p -- n1 closes at 10 us off 10 kΩ
 inductor L1 n1 -- m1 L_a initial 0 A

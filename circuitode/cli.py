@@ -31,6 +31,60 @@ examples:
 exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
 """
 
+#: The examples printed at the end of each subcommand's --help.
+COMMAND_EXAMPLES = {
+    "check": """\
+examples:
+  circuitode check netlists/precharge.cnet
+  circuitode check netlists/cable_ladder.cnet
+
+exit codes: 0 usable, 2 bad input or a fault that stops a run.
+""",
+    "run": """\
+examples:
+  circuitode run netlists/precharge.cnet
+  circuitode run netlists/lc_filter.cnet --method rk4 --step 1us --out /tmp/lc
+  circuitode run netlists/precharge.cnet --set R_pre=47Ω --until 100ms --no-plots
+
+exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
+""",
+    "modes": """\
+examples:
+  circuitode modes netlists/lc_filter.cnet
+  circuitode modes netlists/precharge.cnet --set R_pre=22Ω
+  circuitode modes netlists/cable_ladder.cnet --json modes.json
+
+exit codes: 0 done, 2 bad input, 3 numerical failure.
+""",
+    "tolerance": """\
+examples:
+  circuitode tolerance netlists/precharge.cnet --samples 10000
+  circuitode tolerance netlists/precharge.cnet --samples 2000 --sampler sobol --seed 7 --tol C_link=10%
+  circuitode tolerance netlists/precharge.cnet --sampler corners
+  circuitode tolerance netlists/lc_filter.cnet --samples 5000 --workers 2 --min-yield 99%
+
+Interrupted (Ctrl-C)? Run the same command again: finished chunks are kept
+on disk and are not redone.
+
+exit codes: 0 all limits met, 1 a limit failed or the yield is below
+--min-yield, 2 bad input, 3 numerical failure.
+""",
+    "sweep": """\
+examples:
+  circuitode sweep netlists/precharge.cnet --vary R_pre=4.7Ω..100Ω/20/log
+  circuitode sweep netlists/precharge.cnet --vary R_pre=4.7Ω..100Ω/20/log --vary C_link=1mF,1.5mF,2.2mF
+
+exit codes: 0 at least one point meets every limit, 1 none does, 2 bad input.
+""",
+    "size": """\
+examples:
+  circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ
+  circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ --yield 99%
+
+exit codes: 0 an interval was found, 1 none, 2 bad input.
+""",
+}
+
 
 def _quantity(unit: str):
     """argparse type: a number with optional SI prefix and unit, e.g. "5us", "60 ms"."""
@@ -75,11 +129,12 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"circuitode {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
 
-    p = sub.add_parser("check", help="parse a netlist and list nodes, elements, states, switches and faults")
+    p = sub.add_parser("check", help="parse a netlist and list nodes, elements, states, switches and faults",
+                       epilog=COMMAND_EXAMPLES["check"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
 
     p = sub.add_parser("run", help="simulate the transient, measure it, check limits, write a run folder",
-                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+                       epilog=COMMAND_EXAMPLES["run"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
     p.add_argument("--method", help="integrator: auto, exact, rk4, rk45, dop853, radau, bdf")
     p.add_argument("--step", type=_quantity("s"), help="output (and rk4) step, e.g. 5us")
@@ -89,17 +144,23 @@ def build_parser() -> argparse.ArgumentParser:
                    "(repeatable)")
     p.add_argument("--out", type=Path, help="run folder (default: <netlist>-results next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+    p.add_argument("--running", action="append", default=[], metavar="QUANTITY",
+                   help='also plot the running I²t of a recorded current (or energy of a power), e.g. '
+                        '--running "current through K_main" (repeatable; limited ones are drawn anyway)')
 
-    p = sub.add_parser("modes", help="damping table (ζ, ωn, Q, τ) of every switch configuration")
+    p = sub.add_parser("modes", help="damping table (ζ, ωn, Q, τ) of every switch configuration",
+                       epilog=COMMAND_EXAMPLES["modes"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
     p.add_argument("--until", type=_quantity("s"), help="window whose switch configurations count")
     p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
                    metavar="NAME=VALUE", help="replace a param or part value (repeatable)")
+    p.add_argument("--json", type=Path, metavar="FILE", help="also write the table as JSON ('-': print it instead)")
 
     p = sub.add_parser("tolerance", help="batch over component tolerances: statistics, yield, sensitivity",
-                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+                       epilog=COMMAND_EXAMPLES["tolerance"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
-    p.add_argument("--samples", type=int, required=True, help="number of samples")
+    p.add_argument("--samples", type=int,
+                   help="number of samples (needed for mc, lhs and sobol; corners always run every ± extreme)")
     p.add_argument("--sampler", choices=("mc", "lhs", "sobol", "corners"), default="lhs",
                    help="Monte Carlo, Latin hypercube (default), Sobol, or every ± corner")
     p.add_argument("--seed", type=int, default=0, help="random seed (default 0)")
@@ -124,7 +185,7 @@ def build_parser() -> argparse.ArgumentParser:
 def _study_parsers(sub) -> None:
     """The design-study commands: sweep and size."""
     p = sub.add_parser("sweep", help="grid over one to three parameters or parts: table of figures and limits, plot",
-                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+                       epilog=COMMAND_EXAMPLES["sweep"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
     p.add_argument("--vary", action="append", required=True, metavar="NAME=SPEC",
                    help="LOW..HIGH/COUNT[/log] or V1,V2,…, e.g. R_pre=4.7Ω..100Ω/20/log (repeat for 2 or 3 names)")
@@ -135,7 +196,7 @@ def _study_parsers(sub) -> None:
     p.add_argument("--no-plots", action="store_true", help="skip the PNG")
 
     p = sub.add_parser("size", help="the values of one part over which every 'require' holds, with E12/E24 values",
-                       epilog=EXAMPLES, formatter_class=argparse.RawDescriptionHelpFormatter)
+                       epilog=COMMAND_EXAMPLES["size"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
     p.add_argument("--part", required=True, metavar="NAME", help="a param or part name, e.g. R_pre, R1, K_main.on")
     p.add_argument("--range", dest="within", required=True, metavar="LOW..HIGH", help="values to search, e.g. 1Ω..1kΩ")
@@ -166,9 +227,12 @@ def _check(args: argparse.Namespace) -> int:
     from .output.report import check_text
     from .checks.topology import diagnose
 
+    from .output.report import caution_text
+
     circuit = _load(args.netlist)
     diagnostics = diagnose(circuit)
     print(check_text(circuit, diagnostics, path=args.netlist))
+    print(f"\n{caution_text()}")
     return 2 if any(d.severity == "error" for d in diagnostics) else 0
 
 
@@ -179,7 +243,7 @@ def _run(args: argparse.Namespace) -> int:
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
     result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
-                     plots=not args.no_plots)
+                     plots=not args.no_plots, running=tuple(args.running))
     print(run_text(circuit, result.waveforms, result.figures, result.limits, result.files, path=args.netlist))
     for problem in result.problems:
         print(f"warning: {problem}", file=sys.stderr)
@@ -194,7 +258,17 @@ def _modes(args: argparse.Namespace) -> int:
     circuit = _load(args.netlist, args.overrides)
     verify(circuit, args.until)
     configurations = circuit_modes(circuit, until=args.until)
-    print(modes_text(configurations, path=args.netlist, title=circuit.title))
+    if args.json is not None:
+        from .output.mode_table import write_modes_json
+
+        write_modes_json(args.json, configurations, circuit)
+        if str(args.json) == "-":
+            return 0
+    from .output.report import SAFETY_LINE
+
+    print(modes_text(configurations, path=args.netlist, title=circuit.title, caution=SAFETY_LINE))
+    if args.json is not None:
+        print(f"table written to {args.json}")
     return 0
 
 
@@ -202,11 +276,14 @@ def _tolerance(args: argparse.Namespace) -> int:
     from .output.runner import default_out_dir
     from .tolerance import format_batch_summary, run_batch
 
+    if args.samples is None and args.sampler != "corners":
+        raise NetlistError(f"--samples is needed for the {args.sampler} sampler",
+                           hint="give e.g. --samples 1000, or use --sampler corners, which runs every ± extreme")
     _load(args.netlist)  # bad input is reported before any worker starts
     out = args.out or default_out_dir(args.netlist, "tolerance")
     result = run_batch(
         args.netlist,
-        samples=args.samples,
+        samples=args.samples or 0,
         sampler=args.sampler,
         seed=args.seed,
         workers=args.workers,
@@ -247,6 +324,19 @@ def _size(args: argparse.Namespace) -> int:
     return result.exit_code
 
 
+def _interrupted_words(args: argparse.Namespace, argv: Sequence[str] | None) -> str:
+    """What a Ctrl-C left behind and how to carry on."""
+    if args.command != "tolerance":
+        return "interrupted; files already written are kept."
+    import shlex
+
+    words = shlex.join(list(argv if argv is not None else sys.argv[1:]))
+    return ("interrupted; finished chunks are kept on disk. To resume, run the same command again:\n"
+            f"  circuitode {words}\n"
+            "only the chunks not yet finished are computed. The output folder accepts only this same batch:\n"
+            "a changed --samples, --seed, --sampler, --tol or netlist needs another --out.")
+
+
 COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "sweep": _sweep, "size": _size}
 
 
@@ -267,7 +357,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         os.dup2(devnull, sys.stdout.fileno())
         return 0
     except KeyboardInterrupt:
-        print("interrupted; files already written are kept.", file=sys.stderr)
+        print(_interrupted_words(args, argv), file=sys.stderr)
         return 130
     except Exception as exc:  # noqa: BLE001 - a bug of ours, not the user's: say so without a traceback
         if os.environ.get("CIRCUITODE_DEBUG"):

@@ -238,3 +238,71 @@ def test_tolerance_min_yield_sets_exit_1(tmp_path, capsys):
     assert 0 < inside < 64
     assert code == 1 and "BELOW" in out
     assert f"{inside} pass  peak of voltage at out < 30 V" in out
+
+
+@pytest.mark.parametrize("command", ["check", "run", "modes", "tolerance"])
+def test_every_subcommand_help_ends_with_examples(command, capsys):
+    with pytest.raises(SystemExit):
+        main([command, "--help"])
+    out = capsys.readouterr().out
+    tail = out[out.index("examples:"):]
+    assert f"circuitode {command} netlists/" in tail
+
+
+def test_check_prints_resolved_parameters_and_the_caution(capsys):
+    assert main(["check", str(ROOT / "netlists" / "precharge.cnet")]) == 0
+    out = capsys.readouterr().out
+    # tau = R_pre * C_link = 10 Ω × 1.5 mF = 15 ms (τ = RC, Nilsson & Riedel ch. 7); Ω·F = s (BIPM SI Brochure)
+    assert any(line.split() == ["tau", "=", "15", "ms"] for line in out.splitlines())
+    assert "Caution:" in out
+
+
+def test_modes_table_columns_and_json(tmp_path, capsys):
+    target = tmp_path / "modes.json"
+    assert main(["modes", str(ROOT / "netlists" / "cable_ladder.cnet"), "--json", str(target)]) == 0
+    out = capsys.readouterr().out
+    table = out.split("table written to")[0]  # the last line names the file, however long its path
+    assert "Caution:" in table and max(len(line) for line in table.splitlines()) <= 80
+    rows = [line for line in out.splitlines() if line.startswith("  -") and "underdamped" in line]
+    assert rows
+    for line in rows:  # ζ to significant digits and apart from Q: no "0.0001.08e+03", no "0.000"
+        fields = line.split()
+        zeta = float(fields[fields.index("underdamped") - 4])
+        assert zeta > 0
+    assert "mainly\n" not in out + "\n"  # every mode says what forms it
+    data = json.loads(target.read_text(encoding="utf-8"))
+    modes = [m for cfg in data["configurations"] for m in cfg["modes"]]
+    first_order = [m for m in modes if m["order"] == 1 and m["eigenvalue_real"] < -1]
+    assert first_order and all(m["natural_frequency_hz"] is None and m["damping_ratio"] is None
+                               for m in first_order)
+    # ζ = −Re λ / |λ| (Ogata ch. 5) holds for every second-order mode written
+    for m in modes:
+        if m["order"] == 2 and m["eigenvalue_imag"]:
+            lam = complex(m["eigenvalue_real"], m["eigenvalue_imag"])
+            assert m["damping_ratio"] == pytest.approx(-lam.real / abs(lam), rel=1e-9)
+
+
+def test_first_order_mode_shows_only_its_time_constant(capsys):
+    assert main(["modes", str(ROOT / "netlists" / "precharge.cnet")]) == 0
+    out = capsys.readouterr().out
+    # the 15 ms charge through R_pre (τ = RC, Nilsson & Riedel ch. 7) is no "10.6 Hz" mode
+    line = next(li for li in out.splitlines() if " 15 ms " in li + " ")
+    assert "Hz" not in line and "0.5" not in line
+
+
+def test_corners_need_no_sample_count(tmp_path, capsys):
+    code = main(["tolerance", str(ROOT / "netlists" / "lc_filter.cnet"), "--sampler", "corners",
+                 "--out", str(tmp_path), "--no-plots"])
+    out = capsys.readouterr().out
+    assert code in (0, 1)
+    assert "corners" in out and "note:" not in out
+    assert main(["tolerance", str(ROOT / "netlists" / "lc_filter.cnet"), "--out", str(tmp_path / "b")]) == 2
+    assert "--samples is needed" in capsys.readouterr().err
+
+
+def test_interrupt_message_says_how_to_resume():
+    from circuitode.cli import _interrupted_words, build_parser
+
+    argv = ["tolerance", "netlists/precharge.cnet", "--samples", "10000"]
+    words = _interrupted_words(build_parser().parse_args(argv), argv)
+    assert "circuitode tolerance netlists/precharge.cnet --samples 10000" in words and "resume" in words

@@ -51,3 +51,14 @@ def test_readme_python_example_runs(tmp_path):
     assert (tmp_path / "lc.csv").is_file()
     # the first printed line is the peak output voltage as (value, unit)
     assert proc.stdout.splitlines()[0].endswith("'V')")
+
+
+def test_readme_netlist_is_the_one_the_walkthrough_runs():
+    # the inline netlist of "The netlist language" is netlists/precharge.cnet from its circuit line on,
+    # and the walkthrough runs that same file
+    section = README.split("## The netlist language", 1)[1].split("\n## ", 1)[0]
+    inline = re.search(r"```\n(.*?)```", section, flags=re.S).group(1).strip("\n")
+    walkthrough = README.split("## Walkthrough", 1)[1].split("\n## ", 1)[0]
+    ran = re.search(r"\$ circuitode run (\S+\.cnet)", walkthrough).group(1)
+    text = (ROOT / ran).read_text(encoding="utf-8")
+    assert inline == text[text.index('circuit "'):].strip("\n")

@@ -24,7 +24,7 @@ circuit "DC-link pre-charge"
 param R_pre  = 33 Ω ± 5 %
 param C_link = 1.5 mF ± 20 %
 ground gnd
-voltage_source pack   pack -- gnd  dc 48 V
+voltage_source pack   pack -- gnd  constant 48 V
 resistor  R_int   pack -- a     25 mΩ
 switch    K_pre   a -- b        closes at 1 ms
 resistor  R1      b -- link     R_pre
@@ -69,7 +69,7 @@ def test_passive_elements_and_reference_direction():
         "capacitor C1 a -- b 100 uF initial -2 V\n"
         "inductor L1 b -- g 2 mH initial 0.5 A\n"
         "inductor L2 b -- a 3 mH\n"
-        "coupling K1 L1 L2 k 0.95\n"
+        "coupling K1 L1 with L2 k 0.95\n"
     )
     r, cap, l1, l2 = c.elements
     assert (r.first, r.second, r.resistance) == ("a", "g", 4700.0)
@@ -104,9 +104,9 @@ def _wave(line: str, kind: str = "voltage_source"):
     return loads(f"ground g\n{kind} S a -- g {line}").element("S").waveform
 
 
-def test_dc():
-    assert _wave("dc 48 V") == src.Dc(48.0)
-    assert _wave("dc 2 A", "current_source") == src.Dc(2.0)
+def test_constant():
+    assert _wave("constant 48 V") == src.Dc(48.0)
+    assert _wave("constant 2 A", "current_source") == src.Dc(2.0)
 
 
 def test_step_fields_any_order_and_defaults():
@@ -120,11 +120,29 @@ def test_ramp():
 
 
 def test_pulse_with_count_and_endless():
-    w = _wave("pulse low 0 V high 5 V delay 0 s rise 1 us fall 1 us width 10 us period 20 us count 5")
+    w = _wave("pulses base 0 V top 5 V every 20 us hold 10 us edges 1 us from 0 s repeats 5")
     assert w == src.PulseTrain(0.0, 5.0, 0.0, 1e-6, 1e-6, 10e-6, 20e-6, 5)
     assert isinstance(w.count, int)
-    w = _wave("pulse high 5 V width 10 us period 20 us")
+    w = _wave("pulses top 5 V every 20 us hold 10 us")
     assert w == src.PulseTrain(0.0, 5.0, 0.0, 0.0, 0.0, 10e-6, 20e-6, None)
+
+
+def test_pulses_unequal_edges_and_field_order_free():
+    w = _wave("pulses repeats 2 from 3 us falling 2 us rising 1 us hold 4 us every 20 us top 5 V base -1 V")
+    assert w == src.PulseTrain(-1.0, 5.0, 3e-6, 1e-6, 2e-6, 4e-6, 20e-6, 2)
+
+
+def test_pulses_duty_is_the_ieee_181_duty_factor():
+    # IEEE Std 181-2011 definitions (from memory): pulse duration runs between the 50 % reference-level
+    # instants of the leading and trailing edges; duty factor = pulse duration / pulse repetition period.
+    w = _wave("pulses base 0 V top 10 V every 100 us duty 30 % rising 4 us falling 10 us")
+    t = np.linspace(0.0, 100e-6, 1_000_001)
+    above = w.value(t) > 5.0
+    duration = above.sum() * (t[1] - t[0])
+    assert duration == pytest.approx(0.30 * 100e-6, rel=1e-4)
+    # with sharp edges the duty is the share of each period at the top level, as for a toggling switch
+    sharp = _wave("pulses top 1 V every 8 us duty 25 %")
+    assert sharp.width == pytest.approx(2e-6, rel=1e-12)
 
 
 def test_sine_phase_in_degrees():
@@ -134,8 +152,8 @@ def test_sine_phase_in_degrees():
     assert _wave("sine amplitude 1 A frequency 1 kHz", "current_source") == src.Sine(1.0, 1000.0, 0.0, 0.0, 0.0)
 
 
-def test_pwl():
-    w = _wave("pwl (0 s, 0 V) (1 ms, 5 V) (3 ms, 5 V) (4 ms, 0 V)")
+def test_points():
+    w = _wave("points (0 s, 0 V) (1 ms, 5 V) (3 ms, 5 V) (4 ms, 0 V)")
     assert w == src.PiecewiseLinear((0.0, 1e-3, 3e-3, 4e-3), (0.0, 5.0, 5.0, 0.0))
 
 
@@ -183,7 +201,7 @@ def test_threshold_rules_and_resistances():
 # Analysis, records, requirements
 # ---------------------------------------------------------------------------
 
-BASE = "ground g\nvoltage_source V1 a -- g dc 1 V\nresistor R1 a -- b 1\ncapacitor C1 b -- g 1 uF\n"
+BASE = "ground g\nvoltage_source V1 a -- g constant 1 V\nresistor R1 a -- b 1\ncapacitor C1 b -- g 1 uF\n"
 
 
 def test_transient_settings():
@@ -329,7 +347,7 @@ def test_recipes_for_other_fields():
         "ground g\nparam V0 = 2 V ± 5 %\nparam Ron = 2 mΩ ± 50 %\n"
         "capacitor C1 a -- g 1 uF initial V0\n"
         "switch K a -- g closes at 1 ms on Ron\n"
-        "coupling K9 L1 L2 k 0.9 ± 2 %\ninductor L1 a -- g 1 mH\ninductor L2 a -- g 1 mH\n"
+        "coupling K9 L1 with L2 k 0.9 ± 2 %\ninductor L1 a -- g 1 mH\ninductor L2 a -- g 1 mH\n"
     )
     assert c.recipes[("C1", "initial_voltage")].names == frozenset({"V0"})
     assert c.recipes[("K", "on_resistance")].names == frozenset({"Ron"})
@@ -347,7 +365,7 @@ def test_include_relative_to_including_file(tmp_path):
     (tmp_path / "lib" / "load.cnet").write_text('include "values.cnet"\nresistor R_load out -- g R_L\n', "utf-8")
     (tmp_path / "lib" / "values.cnet").write_text("param R_L = 12 Ω ± 5 %\n", "utf-8")
     top = tmp_path / "top.cnet"
-    top.write_text('ground g\nvoltage_source V out -- g dc 5 V\ninclude "lib/load.cnet"\n', "utf-8")
+    top.write_text('ground g\nvoltage_source V out -- g constant 5 V\ninclude "lib/load.cnet"\n', "utf-8")
     c = load(top)
     assert [e.name for e in c.elements] == ["V", "R_load"]
     assert c.element("R_load").resistance == 12.0 and "R_L" in c.spreads
@@ -474,3 +492,67 @@ def test_error_examples_in_the_language_reference_are_real():
             loads(source, location.split(":")[0])
         assert info.value.message == message
         assert (info.value.where.line, info.value.where.column) == (line, column)
+
+
+# ---------------------------------------------------------------------------
+# The grammar is analysed once and cached; an edited grammar is analysed afresh
+# ---------------------------------------------------------------------------
+
+
+def test_grammar_cache_is_never_stale(tmp_path):
+    from importlib import resources
+
+    from lark.exceptions import UnexpectedInput
+
+    from circuitode.netlist.parse import _CURRENT, build_parser
+
+    grammar = resources.files("circuitode.netlist").joinpath("grammar.lark").read_text(encoding="utf-8")
+    cache = tmp_path / "grammar.cache"
+    text = "ground g\nvoltage_source V a -- g constant 1 V\n"
+    _CURRENT.set(("t", text.split("\n"), text))  # what parse_text sets for the keyword check
+    build_parser(grammar, str(cache)).parse(text)
+    assert cache.is_file()  # the analysed grammar was stored
+    build_parser(grammar, str(cache)).parse(text)  # and is read back
+    edited = grammar.replace('"constant"', '"steady"')
+    parser = build_parser(edited, str(cache))  # same cache file, different grammar text
+    steady = text.replace("constant", "steady")
+    _CURRENT.set(("t", steady.split("\n"), steady))
+    parser.parse(steady)
+    _CURRENT.set(("t", text.split("\n"), text))
+    with pytest.raises(UnexpectedInput):
+        parser.parse(text)
+
+
+def test_the_package_parser_caches_in_a_private_folder(tmp_path, monkeypatch):
+    import os
+    import stat
+
+    from circuitode.netlist.parse import _cache_file
+
+    monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
+    path = _cache_file("grammar text")
+    assert path.startswith(str(tmp_path / "circuitode"))  # the user's cache folder, not the shared /tmp
+    assert stat.S_IMODE(os.stat(tmp_path / "circuitode").st_mode) == 0o700
+    assert _cache_file("other grammar") != path  # a different grammar gets a file of its own
+
+
+def test_units_of_computed_parameters():
+    # Unit algebra of the BIPM SI Brochure (9th ed., tables 2 and 4): Ω·F = s, 1/√(H·F) = 1/s = Hz,
+    # √(H/F) = Ω, V·A·s = J; a product that is none of the language's units gets no unit.
+    c = loads("ground g\nparam L = 2 mH\nparam C = 10 uF\nparam R = 5 Ω\nparam tau = R * C\n"
+              "param f_res = 1 / (2 * pi * sqrt(L * C))\nparam Z0 = sqrt(L / C)\nparam E = 2 V * 3 A * 1 ms\n"
+              "param odd = L * 3 V\nparam n = 4\nresistor R1 a -- g R\n")
+    assert c.parameter_units == {"L": "H", "C": "F", "R": "Ω", "tau": "s", "f_res": "Hz", "Z0": "Ω", "E": "J",
+                                 "odd": None, "n": ""}
+    assert c.parameters["tau"] == pytest.approx(50e-6)
+
+
+def test_a_tolerance_on_a_source_field_is_named_by_the_written_word():
+    c = loads("ground g\nvoltage_source V1 a -- g pulses top 5 V ± 5 % every 20 us hold 10 us\n"
+              "voltage_source V2 b -- g step to 3 V ± 2 %\nresistor R a -- b 1\nresistor R2 b -- g 1\n")
+    assert set(c.spreads) == {"V1.waveform.top", "V2.waveform.to"}  # the names --tol takes
+    assert c.recipes[("V1", "waveform.high")].names == frozenset({"V1.waveform.top"})
+    from circuitode.output.report import describe_waveform
+
+    words = describe_waveform(c.element("V1").waveform, "V")
+    assert words.startswith("pulses base 0 V top 5 V every 20 µs, hold 10 µs")

@@ -13,7 +13,7 @@ from circuitode.errors import NetlistError
 from circuitode.netlist import loads
 from circuitode.netlist.parse import _parser
 
-BASE = "ground g\nvoltage_source V1 a -- g dc 1 V\nresistor R1 a -- b 1\ncapacitor C1 b -- g 1 uF\n"  # 4 lines
+BASE = "ground g\nvoltage_source V1 a -- g constant 1 V\nresistor R1 a -- b 1\ncapacitor C1 b -- g 1 uF\n"  # 4 lines
 
 # (netlist text, line, column, a regex the message must contain, a regex the hint must contain or None)
 CASES = [
@@ -39,7 +39,7 @@ CASES = [
     (BASE + "voltage_source V2 b -- g sine amplitude 1 V", 5, 26, r"needs the field 'frequency'", None),
     (BASE + "voltage_source V2 b -- g sine amplitude 1 V frequency 1 Hz amplitud 3 V", 5, 60,
      r"no field 'amplitud'", r"did you mean 'amplitude'"),
-    (BASE + "current_source I2 b -- g dc 3 V", 5, 29, r"in amperes \(A\); got V", None),
+    (BASE + "current_source I2 b -- g constant 3 V", 5, 35, r"in amperes \(A\); got V", None),
     (BASE + "switch K a -- b closes at 2 ms closes at 3 ms", 5, 32, r"already closed", None),
     (BASE + "switch K a -- b closes at 2 ms opens at 1 ms", 5, 41, r"times must increase", None),
     (BASE + "switch K a -- b opens when power in R1 > 3 W", 5, 28, r"cannot watch a power", None),
@@ -48,18 +48,18 @@ CASES = [
     (BASE + "transient step 1 us", 5, 1, r"needs its end time", r"until"),
     (BASE + "transient until 1 ms\ntransient until 2 ms", 6, 1, r"second 'transient'", None),
     (BASE + "resistor R1 b -- g 5", 5, 10, r"'R1' is already used", r"t\.cnet:3:10"),
-    (BASE + "coupling K R1 C1 k 0.5", 5, 12, r"joins two inductors; 'R1' is a resistor", None),
+    (BASE + "coupling K R1 with C1 k 0.5", 5, 12, r"joins two inductors; 'R1' is a resistor", None),
     ("param x = 1 / 0", 1, 11, r"does not evaluate to a finite number", r"division by zero"),
     ("param x = (1 + 2", 1, 17, r"ends too early; expected '\)'", None),
     ("param x = 1 ± 5", 1, 15, r"tolerance is written in percent", None),
     ("param x = 1 ± 5 % gaussian", 1, 19, r"unknown distribution 'gaussian'", r"'normal' or 'uniform'"),
-    (BASE + "voltage_source Vw b -- g pwl (0 s, 0 V) (2 ms, 1 V) (1 ms, 0 V)", 5, 54, r"times must increase", None),
+    (BASE + "voltage_source Vw b -- g points (0 s, 0 V) (2 ms, 1 V) (1 ms, 0 V)", 5, 57, r"times must increase", None),
     ("ground g\nground h", 2, 8, r"ground node is declared twice", None),
     (BASE + "resistor R2 a -- b 5 initial 3 V", 5, 30, r"resistor has no initial value", None),
     ("ground gg\nresistor R1 a -- g 1", 1, 8, r"'gg' is not connected", r"did you mean 'g'"),
     ("param x = 2 ohm\nparam x = 3 ohm", 2, 7, r"'x' is defined twice", r"t\.cnet:1:7"),
     (BASE + "transient until 1 ms step 1 us points 100", 5, 32, r"either 'step' or 'points'", None),
-    (BASE + "voltage_source V2 b -- g pulse high 5 V width 1 us period 2 us count 2.5", 5, 70,
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us hold 1 us repeats 2.5", 5, 70,
      r"whole number", None),
     (BASE + "require energy in R9 < 2 J", 5, 19, r"no element 'R9'", None),
     (BASE + "require peak voltage at b 3 V", 5, 27, r"unexpected '3'; expected .*comparison", None),
@@ -70,7 +70,28 @@ CASES = [
     (BASE + "switch K a -- b closes when voltage at b > 3 A", 5, 44, r"switching level is in volts", None),
     (BASE + "record voltage across g", 5, 23, r"no element 'g'", None),
     ("param x = 1.2.3", 1, 11, r"'1\.2\.3' is not a number", r"one decimal point"),
-    ("ground g\nvoltage_source V a -- g", 2, 24, r"ends too early; expected a waveform \(dc, step", None),
+    ("ground g\nvoltage_source V a -- g", 2, 24, r"ends too early; expected a waveform \(constant, step", None),
+    # The former source and coupling words are not accepted; the hint names the word that replaced them.
+    (BASE + "voltage_source V2 b -- g dc 3 V", 5, 26, r"unknown waveform 'dc'", r"did you mean 'constant'"),  # former words: keep
+    (BASE + "voltage_source V2 b -- g pwl (0 s, 0 V) (1 ms, 1 V)", 5, 26, r"unknown waveform 'pwl'",  # former words: keep
+     r"did you mean 'points'"),
+    (BASE + "voltage_source V2 b -- g pulse high 5 V width 1 us period 2 us", 5, 26, r"unknown waveform 'pulse'",  # former words: keep
+     r"did you mean 'pulses'"),
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us width 1 us", 5, 52, r"no field 'width'",
+     r"did you mean 'hold'"),
+    (BASE + "voltage_source V2 b -- g pulses high 5 V every 2 us hold 1 us", 5, 33, r"no field 'high'",
+     r"did you mean 'top'"),
+    (BASE + "inductor L1 a -- g 1 mH\ninductor L2 b -- g 1 mH\ncoupling K1 L1 L2 k 0.9", 7, 16,  # former words: keep
+     r"'with' between them", r"coupling M1 L1 with L2"),
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us", 5, 26, r"needs 'hold' .* or 'duty'", None),
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us hold 1 us duty 50 %", 5, 62, r"either 'hold' or 'duty'",
+     None),
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us hold 1 us edges 1 ns falling 2 ns", 5, 73,
+     r"'edges' already sets both", r"rising T1 falling T2"),
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us hold 1.5 us rising 1 us", 5, 57,
+     r"longer than its period", r"rising \+ hold \+ falling = 2\.5 µs"),
+    (BASE + "voltage_source V2 b -- g pulses top 5 V every 2 us duty 10 % edges 1 us", 5, 57,
+     r"shorter than half the two edges", None),
     ("param x = 4k7k", 1, 11, r"already holds its prefix", None),
     ("param v = 2 V\nparam x = 1 + (v - 2 A)", 2, 16, r"cannot subtract volts \(V\) and amperes \(A\)", None),
     (BASE + "record voltage atb", 5, 16, r"'atb' is not a word of this statement", r"space after 'at'"),
@@ -130,7 +151,7 @@ PIECES = [
     "resistor", "capacitor", "inductor", "switch", "voltage_source", "current_source", "coupling", "param",
     "ground", "record", "require", "transient", "include", "circuit", " -- ", " = ", " ± ", " +- ", " % ",
     "(", ")", ",", "^", "*", "/", "-", "+", "<", ">=", " 4k7", " 1e-3", " 2 mH", " Ω", " µF", "\n", "\t", "#",
-    '"', " at ", " when ", " closes", " opens", " toggles", " on ", " off ", " k ", " pwl ", " dc ", " sine ",
+    '"', " at ", " when ", " closes", " opens", " toggles", " on ", " off ", " k ", " with ", " points ", " constant ", " pulses ", " sine ",
     "initial", "until", "step", "points", "method", "energy in", "voltage at", "current through", " a", " b",
     " g", "1", "0", "9999999999999999999", "1e999", ".", "R2", "\u2126", "²", "\r\n",
 ]

@@ -13,7 +13,7 @@ TEXT = """\
 circuit "parts"
 param R_pre = 10 Ω ± 5 %
 ground gnd
-voltage_source pack pack -- gnd dc 48 V
+voltage_source pack pack -- gnd constant 48 V
 switch K_pre pack -- b closes at 1 ms
 resistor R1 b -- link R_pre
 switch K_main pack -- link closes when voltage at link > 43 V on 2 mΩ

@@ -17,7 +17,7 @@ ROOT = Path(__file__).resolve().parent.parent
 RC = """\
 circuit "RC switched"
 ground gnd
-voltage_source V1 in -- gnd dc 10 V
+voltage_source V1 in -- gnd constant 10 V
 switch K1 in -- a closes at 1 ms
 resistor R1 a -- out 10 Ω
 capacitor C1 out -- gnd 1 uF initial 0 V

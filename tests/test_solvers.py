@@ -403,3 +403,36 @@ def test_docstring_examples_run():
     for module in (package, auto, rk4):
         result = doctest.testmod(module)
         assert result.failed == 0 and result.attempted > 0, module.__name__
+
+
+# ---------------------------------------------------------------------------
+# Brent's root finder (solvers/roots.py) against scipy.optimize.brentq
+# ---------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("f, a, b, root", [
+    (lambda x: x**3 - 2 * x - 5, 2.0, 3.0, 2.0945514815423265),  # Wallis' cubic (a classic test, from memory)
+    (lambda x: np.cos(x) - x, 0.0, 1.0, 0.7390851332151607),  # the Dottie number (from memory)
+    (lambda x: np.exp(x) - 2.0, 0.0, 1.0, np.log(2.0)),
+    (lambda x: np.tanh(200 * (x - 0.3)), 0.0, 1.0, 0.3),  # steep, like a threshold crossing
+    (lambda x: 1e-9 * (x - 0.123456789), 0.0, 1.0, 0.123456789),  # tiny values, as a current in µA
+])
+def test_brent_root_agrees_with_scipy_brentq(f, a, b, root):
+    from scipy.optimize import brentq
+
+    from circuitode.solvers.roots import brent_root
+
+    xtol, rtol = 1e-13, 4 * np.finfo(float).eps
+    ours = brent_root(f, a, b, xtol=xtol, rtol=rtol)
+    theirs = brentq(f, a, b, xtol=xtol, rtol=rtol)
+    assert abs(ours - root) <= 4 * (xtol + rtol * abs(root))
+    assert abs(ours - theirs) <= 4 * (xtol + rtol * abs(root))
+
+
+def test_brent_root_needs_a_sign_change_and_accepts_an_end_root():
+    from circuitode.errors import IntegrationError
+    from circuitode.solvers.roots import brent_root
+
+    with pytest.raises(IntegrationError):
+        brent_root(lambda x: x * x + 1.0, -1.0, 1.0)
+    assert brent_root(lambda x: x - 1.0, 0.0, 1.0) == 1.0

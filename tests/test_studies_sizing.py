@@ -15,7 +15,7 @@ RC = """\
 circuit "RC charge"
 param R = 10 Ω
 ground gnd
-voltage_source V1 in -- gnd dc 10 V
+voltage_source V1 in -- gnd constant 10 V
 resistor R1 in -- out R ± 5 %
 capacitor C1 out -- gnd 1 uF initial 0 V
 transient until 1 ms step 1 us method exact initial given

@@ -15,7 +15,7 @@ circuit "RC charge"
 param R = 10 Ω
 param C = 1 uF
 ground gnd
-voltage_source V1 in -- gnd dc 10 V
+voltage_source V1 in -- gnd constant 10 V
 resistor R1 in -- out R
 capacitor C1 out -- gnd C initial 0 V
 transient until 600 us step 10 ns method exact initial given
@@ -163,8 +163,8 @@ def test_plot_kinds_return_a_figure_and_write_nothing(rc, tmp_path, monkeypatch,
 
 def test_timing_cannot_be_swept_and_says_so(tmp_path, capsys):
     path = tmp_path / "timing.cnet"
-    path.write_text(RC.replace("voltage_source V1 in -- gnd dc 10 V\nresistor R1 in -- out R",
-                               "param t_on = 1 us\nvoltage_source V1 in -- gnd dc 10 V\n"
+    path.write_text(RC.replace("voltage_source V1 in -- gnd constant 10 V\nresistor R1 in -- out R",
+                               "param t_on = 1 us\nvoltage_source V1 in -- gnd constant 10 V\n"
                                "switch K1 in -- a closes at t_on\nresistor R1 a -- out R"), encoding="utf-8")
     assert main(["sweep", str(path), "--vary", "t_on=1us,2us"]) == 2
     err = capsys.readouterr().err

@@ -21,7 +21,7 @@ circuit "RC inrush with a current limit"
 param R_c = 10 Ω ± 10 %
 param C_c = 100 uF ± 20 % uniform
 ground gnd
-voltage_source V1 rail -- gnd dc 12 V
+voltage_source V1 rail -- gnd constant 12 V
 switch K1 rail -- s closes at 0.1 ms
 resistor R1 s -- out R_c
 capacitor C1 out -- gnd C_c initial 0 V
@@ -135,7 +135,7 @@ def test_unreachable_scheduler_is_explained(tmp_path, monkeypatch):
 def test_a_spread_source_level_varies_per_sample(tmp_path):
     # the rail itself is ± 5 %: the peak current at closing is V/R per sample (Ohm's law,
     # capacitor still empty; Nilsson & Riedel ch. 7)
-    text = RC_WITH_LIMIT.replace("dc 12 V", "dc 12 V ± 5 % uniform")
+    text = RC_WITH_LIMIT.replace("constant 12 V", "constant 12 V ± 5 % uniform")
     r = run_batch(loads(text), samples=40, seed=3, out_dir=tmp_path, progress=False, plots=False)
     names = r.samples.names
     V = r.samples.values[:, names.index("V1.waveform.value")]
@@ -146,7 +146,7 @@ def test_a_spread_source_level_varies_per_sample(tmp_path):
 
 
 def test_a_spread_on_source_timing_is_refused_plainly(tmp_path):
-    text = RC_WITH_LIMIT.replace("dc 12 V", "sine amplitude 12 V frequency 50 Hz ± 5 %")
+    text = RC_WITH_LIMIT.replace("constant 12 V", "sine amplitude 12 V frequency 50 Hz ± 5 %")
     with pytest.raises(CircuitodeError, match="only a source's levels"):
         run_batch(loads(text), samples=10, out_dir=tmp_path, progress=False)
 
@@ -214,3 +214,27 @@ def test_a_spread_on_an_initial_value_is_refused_at_its_line(tmp_path):
         run_batch(loads(text), samples=10, out_dir=tmp_path, progress=False)
     assert info.value.where is not None and info.value.where.line == 5
     assert "initial voltage of C1" in info.value.message and "V0" in info.value.hint
+
+
+def test_per_limit_columns_keys_safety_and_worst_sample_wording(tmp_path):
+    r = _run(tmp_path, chunk_size=64, plots=False)
+    rows = list(csv.reader(open(r.files["samples"], encoding="utf-8")))
+    column = rows[0].index("pass: peak of current through R1 < 1.2 A")
+    # the pass column is the limit itself, sample by sample: 12 V / R < 1.2 A (Ohm's law at closing)
+    R = r.samples.values[:, 0]
+    assert [int(row[column]) for row in rows[1:]] == [int(12.0 / x < 1.2) for x in R]
+    summary = json.loads(Path(r.files["summary"]).read_text(encoding="utf-8"))
+    assert summary["yield"]["per_limit"] == {"peak of current through R1 < 1.2 A": r.yield_estimate.passed}
+    assert "local electrical codes" in summary["safety"].lower()
+    text = format_batch_summary(r)
+    # some samples fail this limit, so the sample named beside it is the worst one, not a "closest" pass
+    assert "worst (fails): " in text and "closest:" not in text
+
+
+def test_a_figure_without_spread_says_so_instead_of_printing_rounding_noise(tmp_path):
+    r = _run(tmp_path, chunk_size=64, plots=False)
+    text = format_batch_summary(r)
+    # every sample's switch closes at 0.1 ms, so the time of peak current is one instant for all
+    line = next(li for li in text.splitlines() if li.startswith("time of peak, current through R1"))
+    assert "does not vary" in line and "σ" not in line
+    assert max(len(li) for li in text.splitlines()) <= 80

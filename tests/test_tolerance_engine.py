@@ -41,7 +41,7 @@ circuit "link pre-charge with a voltage-triggered bypass"
 param R_pre  = 10 Ω ± 5 %
 param C_link = 1.5 mF ± 20 % uniform
 ground gnd
-voltage_source pack   pack -- gnd    dc 48 V
+voltage_source pack   pack -- gnd    constant 48 V
 resistor  R_int   pack -- a       25 mΩ
 switch    K_pre   a -- b          closes at 1 ms
 resistor  R1      b -- link       R_pre
@@ -75,7 +75,7 @@ circuit "bypass whose condition holds from the start"
 param R_pre  = 10 Ω ± 5 %
 param C_link = 1.5 mF ± 20 % uniform
 ground gnd
-voltage_source pack   pack -- gnd    dc 48 V
+voltage_source pack   pack -- gnd    constant 48 V
 resistor  R_int   pack -- a       25 mΩ
 resistor  R1      a -- link       R_pre
 switch    K_main  a -- link       closes when voltage at link > 3 V  on 2 mΩ
@@ -90,7 +90,7 @@ circuit "two bypass stages, the second triggered by the first one's current"
 param R_pre  = 10 Ω ± 5 %
 param C_link = 1.5 mF ± 20 % uniform
 ground gnd
-voltage_source pack   pack -- gnd    dc 48 V
+voltage_source pack   pack -- gnd    constant 48 V
 resistor  R_int   pack -- a       25 mΩ
 resistor  R1      a -- link       R_pre
 switch    K_a     a -- m          closes when voltage at link > 30 V  on 1 Ω

@@ -10,7 +10,7 @@ circuit "RC charging from a 10 V rail"
 param R_c = 1 kΩ ± 10 % uniform
 param C_c = 10 uF ± 20 % uniform
 ground gnd
-voltage_source V1 rail -- gnd dc 10 V
+voltage_source V1 rail -- gnd constant 10 V
 resistor R1 rail -- out R_c
 capacitor C1 out -- gnd C_c initial 0 V
 transient until 160 ms step 40 us method exact initial given

@@ -10,8 +10,6 @@ from __future__ import annotations
 from typing import Mapping
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.linalg import splu
 
 from ..model.circuit import (
     Capacitor,
@@ -242,6 +240,9 @@ def solve_companion(circuit: Circuit, layout: Layout, conductance: np.ndarray, s
     elif solver == "sparse":
         if N != 1:
             raise StateSpaceRequestError("the sparse solver serves single circuits; use 'dense' for a batch")
+        import scipy.sparse as sp  # loads slowly; only large single circuits take this path
+        from scipy.sparse.linalg import splu
+
         matrix = sp.csc_matrix(sp.coo_matrix((vals[0], (rows, cols)), shape=(K, K)))
         Z = splu(matrix).solve(rhs)[None] if rhs.shape[1] else np.zeros((1, K, 0))
     elif solver == "dense":

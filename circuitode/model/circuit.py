@@ -13,9 +13,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
-from typing import Any, Mapping, Protocol
+from typing import TYPE_CHECKING, Any, Mapping, Protocol
 
-import networkx as nx
+if TYPE_CHECKING:
+    import networkx as nx
 
 from ..errors import Where
 from .sources import Waveform
@@ -363,6 +364,8 @@ class Circuit:
     parameter name.  recipes : (element name, field) → expression over parameter
     names, for each element value that depends on a spread; field is a dataclass
     field name such as "resistance", or "waveform.amplitude" for a source field.
+    parameter_units : unit of each `param` in evaluation order ("" plain number,
+    None when its expression gives no unit of the language).
     """
 
     title: str
@@ -376,6 +379,7 @@ class Circuit:
     spreads: Mapping[str, Spread] = field(default_factory=dict)
     recipes: Mapping[tuple[str, str], Recipe] = field(default_factory=dict)
     source_file: str | None = None
+    parameter_units: Mapping[str, str | None] = field(default_factory=dict)
 
     # -- lookups ---------------------------------------------------------
     @cached_property
@@ -403,6 +407,8 @@ class Circuit:
     def graph(self) -> nx.MultiGraph:
         """Nodes are node names; one edge per two-terminal element, key = element name,
         attribute ``element`` holds the element."""
+        import networkx as nx  # loads slowly; only the graph checks need it
+
         g = nx.MultiGraph()
         g.add_nodes_from(self.nodes)
         for e in self.elements:

@@ -30,7 +30,6 @@ from dataclasses import dataclass
 from typing import Sequence
 
 import numpy as np
-from scipy.linalg import block_diag
 
 from ..errors import CircuitodeError
 
@@ -540,6 +539,8 @@ class SourceBank:
         parts = [w.generator(t0, t1) for w in self.waveforms]
         sizes = [p.z0.size for p in parts]
         total = int(sum(sizes))
+        from scipy.linalg import block_diag  # scipy.linalg loads slowly; only generators need it
+
         F = block_diag(*[p.F for p in parts]) if parts else np.zeros((0, 0))
         z0 = np.concatenate([p.z0 for p in parts]) if parts else np.zeros(0)
         H = np.zeros((len(parts), total))

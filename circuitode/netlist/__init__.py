@@ -1,7 +1,7 @@
 """The circuitode netlist language (``.cnet`` files): text → :class:`~circuitode.model.circuit.Circuit`.
 
 >>> from circuitode.netlist import loads
->>> c = loads('ground gnd\\nresistor R1 a -- gnd 4k7\\nvoltage_source V1 a -- gnd dc 5 V')
+>>> c = loads('ground gnd\\nresistor R1 a -- gnd 4k7\\nvoltage_source V1 a -- gnd constant 5 V')
 >>> c.element("R1").resistance
 4700.0
 """

@@ -19,13 +19,16 @@ from ..model import sources as src
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
+from .dimensions import expression_unit
+from .pulses import pulse_times
 from .quantities import check_unit, parse_quantity, unit_phrase
 from .syntax import (
     CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt,
     ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued,
 )
 from .vocabulary import (
-    ELEMENT_UNITS, FIGURE_WORDS, METHOD_NAMES, TOGGLE_FIELDS, WAVEFORM_CLASSES, WAVEFORM_FIELDS,
+    ELEMENT_UNITS, FIGURE_WORDS, METHOD_NAMES, TOGGLE_FIELDS, WAVEFORM_CLASSES, WAVEFORM_FIELDS, WAVEFORM_WORDS,
+    word_hint,
 )
 
 __all__ = ["build_circuit", "METHOD_NAMES", "FIGURE_WORDS", "WAVEFORM_FIELDS"]
@@ -166,8 +169,11 @@ class _Builder:
 
     # -- values ------------------------------------------------------------
     def value(self, valued: Valued, unit: str | None, what: str, owner: str | None = None,
-              field: str | None = None, need_unit: bool = False) -> float:
-        """SI value of a written value, unit-checked; records spreads and recipes for ``owner.field``."""
+              field: str | None = None, need_unit: bool = False, label: str | None = None) -> float:
+        """SI value of a written value, unit-checked; records spreads and recipes for ``owner.field``.
+
+        A tolerance written on it becomes the spread ``owner.label`` (``label`` is the written field
+        path, e.g. "waveform.top", default ``field``), the name a user gives to --tol."""
         self.check_sums(valued.expr)
         found = self._unit_of(valued.expr)
         try:
@@ -187,7 +193,7 @@ class _Builder:
                     f"this value already depends on the toleranced parameter '{spread_names[0]}'",
                     valued.tolerance.where, f"put the tolerance on parameter '{spread_names[0]}' instead")
             main = field in ("resistance", "capacitance", "inductance")
-            name = owner if main else f"{owner}.{field}"
+            name = owner if main else f"{owner}.{label or field}"
             if name in self.params or name in self.spreads:
                 raise NetlistError(f"the tolerance of '{name}' would clash with the parameter of that name",
                                    valued.tolerance.where, "rename the element or the parameter")
@@ -251,7 +257,7 @@ class _Builder:
         for f in fields:
             if f.name not in table:
                 raise NetlistError(f"{kind_words} has no field '{f.name}'", f.where,
-                                   did_you_mean(f.name, table) or f"its fields are {', '.join(table)}")
+                                   word_hint(f.name, table) or f"its fields are {', '.join(table)}")
             if f.name in given:
                 raise NetlistError(f"the field '{f.name}' is given twice", f.where, "keep one")
             given[f.name] = f
@@ -260,16 +266,17 @@ class _Builder:
                 if default is None:
                     raise NetlistError(f"{kind_words} needs the field '{word}'", self._where,
                                        f"add '{word} …' to the statement")
-                out[attr] = None if default == math.inf else default
+                out[attr] = None if default == math.inf or math.isnan(default) else default
                 continue
             f = given[word]
             unit = {"signal": signal, "count": ""}.get(role, role)
             what = f"the field '{word}'"
-            value = self.value(f.value, unit, what, owner, f"{prefix}{attr}", need_unit=(role == "%"))
+            value = self.value(f.value, unit, what, owner, f"{prefix}{attr}", need_unit=(role == "%"),
+                               label=f"{prefix}{word}")
             if role == "count":
                 if value != int(value) or value < 1:
-                    raise NetlistError(f"the pulse count must be a whole number of at least 1; got {value:g}",
-                                       f.value.where, "write e.g. 'count 5', or leave it out for endless pulses")
+                    raise NetlistError(f"the number of pulses must be a whole number of at least 1; got {value:g}",
+                                       f.value.where, f"write e.g. '{word} 5', or leave it out for endless pulses")
                 value = int(value)
             out[attr] = value
         return out
@@ -277,10 +284,10 @@ class _Builder:
     def waveform(self, st: SourceStmt, signal: str) -> src.Waveform:
         spec = st.waveform
         self._where = spec.where
-        if spec.kind == "dc":
-            value = self.value(spec.fields[0].value, signal, "a dc value", st.name, "waveform.value")
+        if spec.kind == "constant":
+            value = self.value(spec.fields[0].value, signal, "a constant value", st.name, "waveform.value")
             return src.Dc(value)
-        if spec.kind == "pwl":
+        if spec.kind == "points":
             times, values = [], []
             for t, v in spec.points:
                 for valued, tag in ((t, "time"), (v, "value")):
@@ -296,10 +303,11 @@ class _Builder:
                                        f"this time ({times[i]:g} s) is not after the one before ({times[i - 1]:g} s)")
             return src.PiecewiseLinear(tuple(times), tuple(values))
         if spec.kind not in WAVEFORM_FIELDS:
-            raise NetlistError(f"unknown waveform '{spec.kind}'", spec.where,
-                               did_you_mean(spec.kind, ["dc", "pwl", *WAVEFORM_FIELDS]))
+            raise NetlistError(f"unknown waveform '{spec.kind}'", spec.where, word_hint(spec.kind, WAVEFORM_WORDS))
         kwargs = self.fields(spec.fields, WAVEFORM_FIELDS[spec.kind], st.name, "waveform.",
                              f"a {spec.kind} waveform", signal)
+        if spec.kind == "pulses":
+            kwargs = pulse_times(kwargs, {f.name: f for f in spec.fields}, spec.where)
         return WAVEFORM_CLASSES[spec.kind](**kwargs)
 
     def on_switch(self, st: SwitchStmt) -> None:
@@ -488,6 +496,7 @@ class _Builder:
             spreads=dict(self.spreads),
             recipes=dict(self.recipes),
             source_file=self.source_file,
+            parameter_units=expression_unit(self.definitions, ex.evaluation_order(self.definitions)),
         )
 
 

@@ -19,13 +19,14 @@ from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
 from .quantities import read_quantity, split_unit
+from .vocabulary import WAVEFORM_WORDS, word_hint
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt,
     RequireStmt, SourceStmt, SwitchStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
     TransientStmt, Valued, WaveformSpec,
 )
 
-__all__ = ["STATEMENT_WORDS", "parse_text"]
+__all__ = ["STATEMENT_WORDS", "parse_text", "build_parser"]
 
 # --------------------------------------------------------------------------
 # lark → syntax tree
@@ -49,14 +50,53 @@ def _keyword_stands_alone(token: Token) -> Token:
     return token
 
 
+_OPTIONS = dict(parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
+
+
+def build_parser(grammar: str, cache: bool | str = True) -> Lark:
+    """The LALR parser of ``grammar`` with the keyword check attached.
+
+    ``cache`` is lark's grammar cache: a file path (lark stores in it the
+    SHA-256 of the grammar text and options and analyses afresh when they
+    differ, so an edited grammar.lark is never served stale), True for lark's
+    own file in the temporary folder, False for none.
+    """
+    plain = Lark(grammar, cache=cache, **_OPTIONS)
+    keywords = {t.name: _keyword_stands_alone for t in plain.terminals
+                if t.pattern.type == "str" and t.pattern.value.isidentifier()}
+    return Lark(grammar, cache=cache, lexer_callbacks=keywords, **_OPTIONS)
+
+
+def _cache_file(grammar: str) -> str | bool:
+    """A grammar cache file in the user's own cache folder, or False when there is none to write.
+
+    Not the shared temporary folder: the cache is a pickle, and a file another
+    user could place there would be loaded.  The name carries the grammar's
+    SHA-256 and the lark version, so worktrees with different grammars do not
+    overwrite each other's file.
+    """
+    import hashlib
+    import os
+    from pathlib import Path
+
+    import lark
+
+    base = os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache")
+    folder = Path(base) / "circuitode"
+    try:
+        folder.mkdir(mode=0o700, parents=True, exist_ok=True)
+        if folder.stat().st_uid != os.getuid() or not os.access(folder, os.W_OK):
+            return False
+    except (OSError, AttributeError):  # no home, read-only file system, or no getuid on this platform
+        return False
+    digest = hashlib.sha256(grammar.encode("utf-8")).hexdigest()[:16]
+    return str(folder / f"grammar-{digest}-lark{lark.__version__}.cache")
+
+
 @lru_cache(maxsize=1)
 def _parser() -> Lark:
     grammar = resources.files(__package__).joinpath("grammar.lark").read_text(encoding="utf-8")
-    options = dict(parser="lalr", lexer="contextual", propagate_positions=True, maybe_placeholders=False)
-    plain = Lark(grammar, **options)
-    keywords = {t.name: _keyword_stands_alone for t in plain.terminals
-                if t.pattern.type == "str" and t.pattern.value.isidentifier()}
-    return Lark(grammar, lexer_callbacks=keywords, **options)
+    return build_parser(grammar, _cache_file(grammar))
 
 
 class _ToTree(Transformer):
@@ -114,14 +154,14 @@ class _ToTree(Transformer):
         return SourceStmt(str(kind), str(name), str(first), str(second), wave, self.at(name))
 
     @v_args(meta=True)
-    def dc_wave(self, meta, items):
-        return WaveformSpec("dc", (Field("value", items[0], items[0].where),), (), self.at(meta))
+    def constant_wave(self, meta, items):
+        return WaveformSpec("constant", (Field("value", items[0], items[0].where),), (), self.at(meta))
 
     @v_args(meta=True)
-    def pwl_wave(self, meta, items):
-        return WaveformSpec("pwl", (), tuple(items), self.at(meta))
+    def points_wave(self, meta, items):
+        return WaveformSpec("points", (), tuple(items), self.at(meta))
 
-    def pwl_point(self, items):
+    def time_point(self, items):
         return (items[0], items[1])
 
     @v_args(meta=True)
@@ -326,9 +366,9 @@ def _describe(expected: set[str]) -> tuple[str, list[str]]:
     if {"NUMBER", "NAME"} <= names and "(" in literals.values():
         words.append("a value (a number with a unit, a parameter name or an expression)")
         names -= {"NUMBER", "NAME"} | {n for n, lit in literals.items() if lit in ("(", "-", "+")}
-    if "NAME" in names and {"dc", "pwl"} <= set(literals.values()):
-        words.append("a waveform (dc, step, ramp, pulse, sine, exponential or pwl)")
-        names -= {"NAME"} | {n for n, lit in literals.items() if lit in ("dc", "pwl")}
+    if "NAME" in names and {"constant", "points"} <= set(literals.values()):
+        words.append("a waveform (" + ", ".join(WAVEFORM_WORDS[:-1]) + " or " + WAVEFORM_WORDS[-1] + ")")
+        names -= {"NAME"} | {n for n, lit in literals.items() if lit in ("constant", "points")}
     operators = {n for n, lit in literals.items() if lit in _OPERATORS}
     if operators and "UNIT" in names:
         words.append("a unit or an operator (+ - * / ^)")
@@ -364,6 +404,24 @@ def _describe(expected: set[str]) -> tuple[str, list[str]]:
 
 
 _WORD = re.compile(r"[^\s,()#=<>*/+^\"]+")
+_SOURCE_LINE = re.compile(r"\s*(?:voltage_source|current_source)\s+\w+\s+\w+\s*--\s*\w+\s+([A-Za-z_]\w*)")
+
+
+def expected_literals(expected: set[str]) -> set[str]:
+    """The fixed words among a set of lark terminal names."""
+    return {lit for lit in (_literal(name) for name in expected) if lit is not None}
+
+
+def _unknown_waveform_word(text: str, column: int) -> tuple[str, int] | None:
+    """(word, 0-based column) of a source's waveform word that is no waveform, when the error lies after it.
+
+    Words such as a retired ``dc`` followed by a value fail in the grammar
+    (a value where a field name belongs); this names the word itself.
+    """
+    m = _SOURCE_LINE.match(text)
+    if m is None or m.group(1) in WAVEFORM_WORDS or column - 1 <= m.start(1):
+        return None
+    return m.group(1), m.start(1)
 
 
 def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistError:
@@ -381,6 +439,14 @@ def _syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistE
     else:
         expected = set(getattr(err, "allowed", None) or ())
         token_type = None
+    retired = _unknown_waveform_word(text, column)
+    if retired is not None:
+        kind, start = retired
+        return NetlistError(f"unknown waveform '{kind}'", Where(file, line, start + 1, text),
+                            word_hint(kind, WAVEFORM_WORDS))
+    if re.match(r"\s*coupling\b", text) and "with" in expected_literals(expected):
+        return NetlistError("a coupling names its two inductors with 'with' between them",
+                            where, "write e.g. 'coupling M1 L1 with L2 k 0.95'")
     wanted, keywords = _describe(expected)
     rest = text[column - 1:]
     word_match = _WORD.match(rest)

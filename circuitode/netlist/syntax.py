@@ -67,7 +67,7 @@ class Field:
 
 @dataclass(frozen=True)
 class WaveformSpec:
-    """kind : "dc", "pwl" or the written kind word.  fields : named fields.  points : pwl pairs."""
+    """kind : "constant", "points" or the written kind word.  fields : named fields.  points : (time, value) pairs."""
 
     kind: str
     fields: tuple[Field, ...]

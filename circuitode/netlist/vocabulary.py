@@ -9,7 +9,10 @@ import math
 
 from ..model import sources as src
 
-__all__ = ["METHOD_NAMES", "WAVEFORM_FIELDS", "WAVEFORM_CLASSES", "TOGGLE_FIELDS", "FIGURE_WORDS", "ELEMENT_UNITS"]
+from .expressions import did_you_mean
+
+__all__ = ["METHOD_NAMES", "WAVEFORM_FIELDS", "WAVEFORM_CLASSES", "WAVEFORM_WORDS", "TOGGLE_FIELDS", "FIGURE_WORDS",
+           "ELEMENT_UNITS", "PULSE_EDGE_WORDS", "word_hint", "written_field"]
 
 #: Integrator names a `transient` statement may give (see circuit.Analysis).
 METHOD_NAMES = ("auto", "rk4", "rk45", "dop853", "radau", "bdf", "exact")
@@ -20,16 +23,49 @@ WAVEFORM_FIELDS: dict[str, dict[str, tuple[str, str, float | None]]] = {
     "step": {"from": ("before", "signal", 0.0), "to": ("after", "signal", None), "at": ("at", "s", 0.0)},
     "ramp": {"from": ("initial", "signal", 0.0), "to": ("final", "signal", None), "start": ("start", "s", 0.0),
              "duration": ("duration", "s", None)},
-    "pulse": {"low": ("low", "signal", 0.0), "high": ("high", "signal", None), "delay": ("delay", "s", 0.0),
-              "rise": ("rise", "s", 0.0), "fall": ("fall", "s", 0.0), "width": ("width", "s", None),
-              "period": ("period", "s", None), "count": ("count", "count", math.inf)},
+    # IEEE Std 181 terms: base and top state levels, pulse repetition period.  The
+    # flat top is `hold` or follows from `duty`; `edges` sets both transition
+    # durations, `rising`/`falling` one each (see build.pulse_times).
+    "pulses": {"base": ("low", "signal", 0.0), "top": ("high", "signal", None), "every": ("period", "s", None),
+               "hold": ("width", "s", math.nan), "duty": ("duty", "%", math.nan), "edges": ("edges", "s", math.nan),
+               "rising": ("rise", "s", math.nan), "falling": ("fall", "s", math.nan), "from": ("delay", "s", 0.0),
+               "repeats": ("count", "count", math.inf)},
     "sine": {"amplitude": ("amplitude", "signal", None), "frequency": ("frequency", "Hz", None),
              "phase": ("phase", "rad", 0.0), "offset": ("offset", "signal", 0.0), "delay": ("delay", "s", 0.0)},
     "exponential": {"from": ("initial", "signal", 0.0), "to": ("final", "signal", None),
                     "delay": ("delay", "s", 0.0), "time_constant": ("time_constant", "s", None)},
 }
-WAVEFORM_CLASSES = {"step": src.Step, "ramp": src.Ramp, "pulse": src.PulseTrain, "sine": src.Sine,
-                     "exponential": src.Exponential}
+WAVEFORM_CLASSES = {"step": src.Step, "ramp": src.Ramp, "pulses": src.PulseTrain, "sine": src.Sine,
+                    "exponential": src.Exponential}
+#: Every word that may follow a source's nodes (``constant`` and ``points`` have their own grammar).
+WAVEFORM_WORDS = ("constant", "step", "ramp", "pulses", "sine", "exponential", "points")
+#: The pulse fields that set the edges: ``edges`` for both, or ``rising`` and/or ``falling``.
+PULSE_EDGE_WORDS = ("edges", "rising", "falling")
+
+#: Words an earlier version of the language used, with the word that now does the job.  They are
+#: not accepted: an unknown word that is one of these gets its successor as the hint.
+_FORMER_WORDS = {
+    "dc": "constant", "pwl": "points", "pulse": "pulses", "low": "base", "high": "top", "delay": "from",
+    "rise": "rising", "fall": "falling", "width": "hold", "period": "every", "count": "repeats",
+}
+
+
+def written_field(waveform: type, attr: str) -> str:
+    """The word a netlist writes for field ``attr`` of a waveform class ("high" of a PulseTrain → "top")."""
+    for kind, cls in WAVEFORM_CLASSES.items():
+        if cls is waveform:
+            for word, (name, _role, _default) in WAVEFORM_FIELDS[kind].items():
+                if name == attr:
+                    return word
+    return attr
+
+
+def word_hint(word: str, choices) -> str:
+    """Hint for an unknown ``word``: its successor when it is a former word of the language, else the closest."""
+    successor = _FORMER_WORDS.get(word)
+    if successor is not None and successor in choices:
+        return f"did you mean '{successor}'?"
+    return did_you_mean(word, choices)
 TOGGLE_FIELDS = {"period": ("period", "s", None), "duty": ("duty", "%", None), "start": ("start", "s", 0.0)}
 
 #: Written figure words → canonical names of circuit.FIGURES.

@@ -35,4 +35,4 @@ def job_html(result: Any) -> str:
 
     text = run_text(result.circuit, result.waveforms, result.figures, result.limits, result.files)
     return (f"<pre>{escape(text)}</pre>"
-            + figure_png_html(waveform_figure(result.waveforms, title=result.circuit.title)))
+            + figure_png_html(waveform_figure(result.waveforms, title=result.circuit.title, limits=result.limits)))

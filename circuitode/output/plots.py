@@ -1,8 +1,7 @@
 """PNG plots of a run: recorded waveforms with switching events and peaks marked.
 
-Matplotlib is imported inside the functions and figures are built as
-``matplotlib.figure.Figure`` objects (no pyplot state, no backend switch), so
-importing circuitode never pulls it in and a notebook keeps its own backend.  Axes read in engineering
+Matplotlib is imported inside the functions, with the non-interactive Agg
+backend, so importing circuitode never pulls it in.  Axes read in engineering
 notation (ms, kA …) through :func:`circuitode.netlist.quantities.si_scale`.
 """
 from __future__ import annotations
@@ -12,7 +11,11 @@ from typing import Any, Sequence
 
 import numpy as np
 
+import math
+
 from ..netlist.quantities import format_si, si_scale
+from .plot_layout import panels, running_integral, zoom_windows
+from .report import requirement_words
 
 __all__ = ["plot_waveforms", "waveform_figure", "QUANTITY_NAMES"]
 
@@ -22,18 +25,33 @@ QUANTITY_NAMES = {"V": "voltage", "A": "current", "W": "power"}
 _PALETTE = ("#1b6ca8", "#d1495b", "#2e8b57", "#8e44ad", "#e08e0b", "#00798c", "#6c757d", "#9c6644")
 
 
+def _figure(n_panels: int):
+    """A matplotlib Figure with ``n_panels`` stacked axes sharing the time axis (no pyplot: it loads slowly)."""
+    from matplotlib.figure import Figure
+
+    height = 1.2 + 2.3 * n_panels  # inches
+    fig = Figure(figsize=(9.0, height), dpi=110)
+    axes = fig.subplots(n_panels, 1, sharex=True, squeeze=False)[:, 0]
+    # fixed margins (inches turned into fractions) instead of tight_layout, which draws the figure an extra time
+    fig.subplots_adjust(left=0.1, right=0.975, bottom=0.6 / height, top=1.0 - 0.75 / height, hspace=0.42)
+    return fig, axes
+
+
 def plot_waveforms(
     waveforms: Any,
     path: Path,
     *,
     title: str = "",
     labels: Sequence[str] | None = None,
-    max_panels: int = 4,
+    limits: Sequence[Any] = (),
+    running: Sequence[str] = (),
+    max_panels: int = 6,
     max_traces: int = 6,
 ) -> Path:
     """Write the PNG of :func:`waveform_figure` to ``path`` and return the path."""
     path = Path(path)
-    waveform_figure(waveforms, path, title=title, labels=labels, max_panels=max_panels, max_traces=max_traces)
+    waveform_figure(waveforms, path, title=title, labels=labels, limits=limits, running=running,
+                    max_panels=max_panels, max_traces=max_traces)
     return path
 
 
@@ -43,73 +61,198 @@ def waveform_figure(
     *,
     title: str = "",
     labels: Sequence[str] | None = None,
-    max_panels: int = 4,
+    limits: Sequence[Any] = (),
+    running: Sequence[str] = (),
+    max_panels: int = 6,
     max_traces: int = 6,
 ):
-    """Draw the recorded signals, one panel per unit (voltages, currents, powers).
+    """Draw the recorded signals, one panel per unit and scale, with limits, insets and running integrals.
 
     Parameters
     ----------
     waveforms : the transient engine's Waveforms (``t`` s, ``signals``, ``units``, ``events``).
     path : PNG file to write, or None to write nothing (a notebook shows the Figure).
     title : figure title (the circuit's).
-    labels : which signals to draw (default: all, grouped by unit).
+    labels : which signals to draw (default: all).
+    limits : the run's LimitResults; each is drawn on the panel of its quantity with its verdict.
+    running : signal labels that also get a running I²t (currents) or energy (powers) curve;
+        every quantity with an I²t or energy limit gets one anyway.
     max_panels, max_traces : caps that keep a large ladder readable; the
         signals left out are still in the CSV.
 
     Returns
     -------
-    The matplotlib Figure (built without pyplot, so no global state and no backend change).
+    The matplotlib Figure (built without pyplot: no global state, no backend change).
     """
-    from matplotlib.figure import Figure
-
     t = np.asarray(waveforms.t, dtype=float)
     labels = list(labels if labels is not None else waveforms.signals)
-    groups: dict[str, list[str]] = {}
-    for label in labels:
-        groups.setdefault(waveforms.units.get(label, ""), []).append(label)
-    order = sorted(groups, key=lambda u: ("V", "A", "W").index(u) if u in ("V", "A", "W") else 9)
-    order = order[:max_panels]
+    signals = {k: np.asarray(v, dtype=float) for k, v in waveforms.signals.items()}
+    layout = panels(signals, waveforms.units, labels, max_panels)
+    integrals = _running_panels(signals, waveforms.units, limits, running)
+    n = min(len(layout) + len(integrals), max_panels) or 1
+    integrals = integrals[: max(0, n - len(layout))]
+    layout = layout[: n - len(integrals)]
     tf, tp = si_scale(t)
-
-    fig = Figure(figsize=(9.0, 1.2 + 2.5 * len(order)), dpi=110)
-    axes = fig.subplots(len(order), 1, sharex=True, squeeze=False)
-    axes = axes[:, 0]
-    for ax, unit in zip(axes, order):
-        members = groups[unit][:max_traces]
-        values = np.concatenate([np.asarray(waveforms.signals[m], dtype=float) for m in members])
-        yf, yp = si_scale(values)
-        for i, label in enumerate(members):
-            y = np.asarray(waveforms.signals[label], dtype=float)
-            color = _PALETTE[i % len(_PALETTE)]
-            ax.plot(t * tf, y * yf, color=color, lw=1.4, label=label)
-            k = int(np.nanargmax(np.abs(y))) if y.size else 0
-            if y.size and np.isfinite(y[k]) and y[k] != 0:
-                ax.plot(t[k] * tf, y[k] * yf, "o", ms=4.5, color=color, mec="white", mew=0.8, zorder=5)
-                ax.annotate(format_si(y[k], unit, 3), (t[k] * tf, y[k] * yf), xytext=(6, 6 if y[k] > 0 else -12),
-                            textcoords="offset points", fontsize=8, color=color)
-        if len(groups[unit]) > max_traces:
-            ax.text(0.99, 0.02, f"+{len(groups[unit]) - max_traces} more in the CSV", transform=ax.transAxes,
+    fig, axes = _figure(n)
+    for ax, panel in zip(axes, layout):
+        members = list(panel.labels[:max_traces])
+        curves = [(m, signals[m]) for m in members]
+        _draw_panel(ax, t, tf, curves, panel.unit, QUANTITY_NAMES.get(panel.unit, "value"), peaks=True)
+        if len(panel.labels) > max_traces:
+            ax.text(0.99, 0.02, f"+{len(panel.labels) - max_traces} more in the CSV", transform=ax.transAxes,
                     ha="right", va="bottom", fontsize=7, color="#555555")
-        word = QUANTITY_NAMES.get(unit, "value")
-        ax.set_ylabel(f"{word} [{yp}{unit}]")
-        ax.margins(x=0, y=0.14)
-        ax.grid(True, color="#e3e3e3", lw=0.7)
-        ax.set_axisbelow(True)
-        for side in ("top", "right"):
-            ax.spines[side].set_visible(False)
-        ax.legend(loc="best", fontsize=8, frameon=False)
+        if panel.scale_note:  # the smaller signals of a unit, on a scale of their own
+            ax.set_ylabel(ax.get_ylabel() + "\n(smaller signals)")
+        _draw_limits(ax, tf, [r for r in limits if r.requirement.probe.label in members
+                              and r.requirement.figure not in ("i2t", "energy")], panel.unit)
+        window = zoom_windows(t, [y for _, y in curves])
+        if window is not None:
+            _inset(ax, t, tf, curves, window)
         _mark_events(ax, waveforms.events, tf)
-    if len(axes):
-        axes[-1].set_xlabel(f"time [{tp}s]")
-        axes[-1].set_xlim(t[0] * tf, t[-1] * tf)
+    for ax, (unit, word, curves, limited) in zip(axes[len(layout):], integrals):
+        _draw_panel(ax, t, tf, curves, unit, word, peaks=False)
+        _draw_limits(ax, tf, limited, unit)
+        _mark_events(ax, waveforms.events, tf)
+    axes[-1].set_xlabel(f"time [{tp}s]")
+    axes[-1].set_xlim(t[0] * tf, t[-1] * tf)
+    if waveforms.events:  # the switch names sit above the first panel: its legend moves inside
+        axes[0].legend(loc="best", fontsize=8, frameon=True, framealpha=0.85, edgecolor="none")
         _label_events(axes[0], waveforms.events, tf)
     if title:
         fig.suptitle(title, fontsize=11, x=0.01, ha="left")
-    fig.tight_layout()
     if path is not None:
         fig.savefig(Path(path))
     return fig
+
+
+def _running_panels(signals, units, limits, running) -> list[tuple[str, str, list, list]]:
+    """(unit, axis word, [(name, ("running", samples, square))], limits drawn there) per integral panel."""
+    wanted = {label: None for label in running if label in signals}
+    for r in limits:
+        if r.requirement.figure in ("i2t", "energy") and r.requirement.probe.label in signals:
+            wanted.setdefault(r.requirement.probe.label, None)
+    out = []
+    for unit, word, square, figure, source in (("A²s", "I²t", True, "i2t", "A"), ("J", "energy", False, "energy", "W")):
+        members = [m for m in wanted if units.get(m) == source]
+        if not members:
+            continue
+        curves = [((f"I²t of {m}" if square else f"energy, {m}"), ("running", signals[m], square)) for m in members]
+        limited = [r for r in limits if r.requirement.figure == figure and r.requirement.probe.label in members]
+        out.append((unit, word, curves, limited))
+    return out
+
+
+def _values(t: np.ndarray, y: Any) -> np.ndarray:
+    """A curve's samples: a signal, or ("running", label-signal, square) computed on demand."""
+    if isinstance(y, tuple):
+        _, samples, square = y
+        return running_integral(t, samples, square)
+    return y
+
+
+def _draw_panel(ax: Any, t: np.ndarray, tf: float, curves, unit: str, word: str, peaks: bool) -> None:
+    values = [(label, _values(t, y)) for label, y in curves]
+    yf, yp = si_scale(np.concatenate([v for _, v in values]) if values else np.zeros(1))
+    for i, (label, y) in enumerate(values):
+        color = _PALETTE[i % len(_PALETTE)]
+        ax.plot(t * tf, y * yf, color=color, lw=1.4, label=label)
+        if not peaks:
+            continue
+        k = int(np.nanargmax(np.abs(y))) if y.size else 0
+        if y.size and np.isfinite(y[k]) and y[k] != 0:
+            ax.plot(t[k] * tf, y[k] * yf, "o", ms=4.5, color=color, mec="white", mew=0.8, zorder=5)
+            ax.annotate(format_si(y[k], unit, 3), (t[k] * tf, y[k] * yf), xytext=(6, 6 if y[k] > 0 else -12),
+                        textcoords="offset points", fontsize=8, color=color)
+    ax.set_ylabel(f"{word} [{yp}{unit}]")
+    ax.margins(x=0, y=0.14)
+    ax.grid(True, color="#e3e3e3", lw=0.7)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+    # above the panel, right-aligned: a legend there never hides a trace, a limit or an inset
+    ax.legend(loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=min(3, max(1, len(values))), fontsize=8,
+              frameon=False, borderaxespad=0.1)
+    ax._circuitode_scale = yf  # the panel's value factor, for the limits drawn on it
+
+
+_PASS, _FAIL = "#2e8b57", "#c0392b"
+
+
+def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
+    """Each limit as a line on this panel (levels horizontal, times vertical), with its verdict."""
+    import matplotlib.transforms as transforms
+
+    yf = getattr(ax, "_circuitode_scale", 1.0)
+    low, high = ax.get_ylim()
+    notes = []
+    for r in results:
+        req = r.requirement
+        verdict = "pass" if r.passed else "FAIL"
+        color = _PASS if r.passed else _FAIL
+        words = f"{verdict}: {requirement_words(req, r.unit)}"
+        if math.isfinite(r.value):
+            words += f" (measured {format_si(r.value, r.unit, 4)})"
+        if req.figure in ("settling_time", "rise_time"):
+            ax.axvline(req.limit * tf, color=color, lw=1.3, ls="--")
+            notes.append(("┆ " + words, color))  # the dashed vertical line
+        elif req.figure in ("peak", "minimum", "final", "mean", "rms", "i2t", "energy") and r.unit == unit:
+            level = req.limit * yf
+            span = high - low
+            if low - span <= level <= high + span:  # near the data: draw it where it is
+                ax.axhline(level, color=color, lw=1.3, ls="--")
+                if req.figure == "peak" and low < -0.5 * level:  # a peak is of the magnitude: both signs
+                    ax.axhline(-level, color=color, lw=1.3, ls="--")
+                # an upper limit is labelled above its line, a lower one below, on the side the data must avoid
+                ax.text(0.99, level, words + " ", transform=transforms.blended_transform_factory(
+                    ax.transAxes, ax.transData), fontsize=7, color=color, ha="right",
+                    va="bottom" if req.comparison.startswith("<") else "top")
+            else:  # far off the scale: an arrow at the edge keeps the waveform readable
+                notes.append((("↑ " if level > high else "↓ ") + words + ", off scale", color))
+        else:
+            notes.append((words, color))
+    if notes:  # head room above the data for the notes, so they hide no trace
+        low, high = ax.get_ylim()
+        top = max(high, max((r.requirement.limit * yf for r in results if r.requirement.figure in
+                             ("peak", "minimum", "final", "mean", "rms", "i2t", "energy") and r.unit == unit
+                             and low - (high - low) <= r.requirement.limit * yf <= high + (high - low)),
+                            default=high))
+        ax.set_ylim(low, top + (top - low) * (0.08 + 0.14 * len(notes)))
+    for i, (words, color) in enumerate(notes):  # time limits and limits with no line of their own, top left
+        ax.text(0.01, 0.97 - 0.1 * i, words, transform=ax.transAxes, fontsize=7, color=color, ha="left",
+                va="top", bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=1.0))
+
+
+def _inset(ax: Any, t: np.ndarray, tf: float, curves, window: tuple[float, float]) -> None:
+    """A zoomed copy of the panel on ``window`` (s), placed where the data leave room."""
+    t0, t1 = window
+    inside = (t >= t0) & (t <= t1)
+    if inside.sum() < 3:
+        return
+    yf = getattr(ax, "_circuitode_scale", 1.0)
+    low, high = ax.get_ylim()
+    centre = 0.5 * (t0 + t1)
+    right = centre < 0.5 * (t[0] + t[-1])  # put the inset on the other side of the window
+    side = t > centre if right else t < centre
+    values = np.concatenate([_values(t, y)[side] for _, y in curves]) * yf
+    frac = (values[np.isfinite(values)] - low) / ((high - low) or 1.0)  # data heights in axes fractions
+    lines = [(line.get_ydata()[0] - low) / ((high - low) or 1.0) for line in ax.get_lines()
+             if line.get_linestyle() == "--" and len(set(np.atleast_1d(line.get_ydata()))) == 1
+             and line.get_transform() != ax.get_xaxis_transform()]
+
+    def crowding(y0: float, h: float) -> float:  # data inside the slot, plus any limit line and its label
+        inside = float(np.mean((frac >= y0 - 0.03) & (frac <= y0 + h + 0.03))) if frac.size else 0.0
+        return inside + sum(1.0 for y in lines if y0 - 0.12 <= y <= y0 + h + 0.03)
+
+    y0 = min((0.06, 0.44), key=lambda y: crowding(y, 0.34))
+    box = [0.56 if right else 0.06, y0, 0.38, 0.34]
+    inset = ax.inset_axes(box)
+    for i, (label, y) in enumerate(curves):
+        inset.plot(t[inside] * tf, _values(t, y)[inside] * yf, color=_PALETTE[i % len(_PALETTE)], lw=1.2)
+    inset.set_xlim(t0 * tf, t1 * tf)
+    inset.tick_params(labelsize=6)
+    inset.grid(True, color="#eeeeee", lw=0.5)
+    inset.set_title("zoom", fontsize=7, loc="left", color="#555555")
+    ax.indicate_inset_zoom(inset, edgecolor="#999999")
 
 
 def _mark_events(ax: Any, events: Sequence[Any], tf: float) -> None:

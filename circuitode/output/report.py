@@ -30,9 +30,12 @@ from ..model.circuit import (
 )
 from ..analysis.measure import figure_unit
 from ..netlist.quantities import format_si
+from .mode_table import modes_text  # noqa: F401 - the modes table lives in its own module
 
 __all__ = [
     "SAFETY_LINE",
+    "caution_text",
+    "parameter_lines",
     "SAFETY_TEXT",
     "WIDTH",
     "check_text",
@@ -104,7 +107,7 @@ def describe_waveform(waveform: Any, unit: str) -> str:
     f = lambda v, u=unit: format_si(v, u)  # noqa: E731
     match kind:
         case "Dc":
-            return f"dc {f(waveform.value)}"
+            return f"constant {f(waveform.value)}"
         case "Step":
             return f"step from {f(waveform.before)} to {f(waveform.after)} at {f(waveform.at, 's')}"
         case "Ramp":
@@ -113,10 +116,12 @@ def describe_waveform(waveform: Any, unit: str) -> str:
                 f"{f(waveform.start, 's')} over {f(waveform.duration, 's')}"
             )
         case "PulseTrain":
-            count = "" if waveform.count is None else f", {waveform.count} pulses"
+            count = "" if waveform.count is None else f", {waveform.count} repeats"
+            edges = (f"edges {f(waveform.rise, 's')}" if waveform.rise == waveform.fall
+                     else f"rising {f(waveform.rise, 's')}, falling {f(waveform.fall, 's')}")
             return (
-                f"pulses {f(waveform.low)}…{f(waveform.high)}, width {f(waveform.width, 's')}, "
-                f"period {f(waveform.period, 's')}{count}"
+                f"pulses base {f(waveform.low)} top {f(waveform.high)} every {f(waveform.period, 's')}, "
+                f"hold {f(waveform.width, 's')}, {edges}, from {f(waveform.delay, 's')}{count}"
             )
         case "Sine":
             return (
@@ -228,6 +233,7 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
         out.append("switches:")
         for s in circuit.switches:
             out.extend(_wrap(f"{s.name}: {describe_control(s)}", indent="  "))
+    out.extend(parameter_lines(circuit))
     if circuit.spreads:
         out.append("")
         out.append("tolerances:")
@@ -258,6 +264,25 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
         for d in diagnostics:
             out.append(str(d))
     return "\n".join(out)
+
+
+def parameter_lines(circuit: Circuit) -> list[str]:
+    """Lines giving every `param`'s resolved value (after expressions and --set), its unit and tolerance."""
+    if not circuit.parameter_units:
+        return []
+    out = ["", "parameters (resolved):"]
+    for name, unit in circuit.parameter_units.items():
+        value = circuit.parameters.get(name)
+        if value is None:
+            continue
+        shown = format_si(float(value), unit) if unit is not None else f"{float(value):.6g} (unit not one of ours)"
+        out.append(_fit(f"  {_fit(name, 20):<21}= {shown}", WIDTH))
+    return out
+
+
+def caution_text() -> str:
+    """The one-line safety caution, wrapped to the table width."""
+    return "\n".join(_wrap(SAFETY_LINE, indent=""))
 
 
 def unit_of_parameter(circuit: Circuit, name: str) -> str:
@@ -367,42 +392,6 @@ def run_text(
             out.append(_fit(f"  {kind:<10}{p}", WIDTH))
     out.append("")
     out.extend(_wrap(SAFETY_LINE, indent=""))
-    return "\n".join(out)
-
-
-# --------------------------------------------------------------------------
-# circuitode modes
-# --------------------------------------------------------------------------
-
-
-def modes_text(configurations: Sequence[Any], path: str | None = None, title: str = "") -> str:
-    """The damping table of ``circuitode modes``, one block per switch configuration."""
-    out = []
-    if title or path:
-        out.append(_fit(f"{title}" + (f"  ({path})" if path else ""), WIDTH))
-    for cfg in configurations:
-        out.append("")
-        when = "" if math.isnan(cfg.first_time) else f" from {format_si(cfg.first_time, 's')}"
-        out.extend(_wrap(f"configuration: {cfg.description}{when}" + (f" ({cfg.cause})" if cfg.cause else ""),
-                         indent=""))
-        if not cfg.modes:
-            out.append("  no dynamic states in this configuration")
-            continue
-        out.append(f"  {'eigenvalue 1/s':<22}{'fn':>10}{'ζ':>8}{'Q':>8}{'τ':>10}  class")
-        for m in cfg.modes:
-            lam = m.eigenvalue
-            if lam.imag:
-                eig = f"{lam.real:.3g} ± {abs(lam.imag):.3g}j"
-            else:  # a first-order mode, or both real roots of an overdamped L–C section
-                eig = ", ".join(f"{complex(r).real:.3g}" for r in m.eigenvalues)
-            zeta = "—" if math.isnan(m.damping_ratio) else f"{m.damping_ratio:.3f}"
-            q = "∞" if math.isinf(m.quality_factor) else ("—" if math.isnan(m.quality_factor)
-                                                          else f"{m.quality_factor:.3g}")
-            tau = "∞" if math.isinf(m.time_constant) else format_si(m.time_constant, "s", 3)
-            fn = format_si(m.natural_frequency_hz, "Hz", 3)
-            out.append(f"  {_fit(eig, 21):<22}{fn:>10}{zeta:>8}{q:>8}{tau:>10}  {m.kind}")
-            states = ", ".join(f"{n} {w * 100:.0f} %" for n, w in m.participation if w >= 0.1)
-            out.extend(_wrap(f"mainly {states}", indent=" " * 6))
     return "\n".join(out)
 
 

@@ -79,6 +79,7 @@ def run_job(
     until: float | None = None,
     plots: bool = True,
     with_modes: bool = True,
+    running: tuple[str, ...] = (),
 ) -> JobResult:
     """Simulate a netlist, measure it, check its limits and write its run folder.
 
@@ -90,6 +91,8 @@ def run_job(
     method, step (s), until (s) : override the netlist's transient statement.
     plots : draw the PNG.
     with_modes : include the modal damping table of every reachable configuration.
+    running : recorded currents (powers) whose running I²t (energy) the plot also draws; those with an
+        I²t or energy limit are drawn anyway.
 
     Raises
     ------
@@ -124,7 +127,8 @@ def run_job(
             try:
                 from .plots import plot_waveforms
 
-                result.files["plot"] = plot_waveforms(waveforms, out / "waveforms.png", title=circuit.title)
+                result.files["plot"] = plot_waveforms(waveforms, out / "waveforms.png", title=circuit.title,
+                                                      limits=result.limits, running=running)
             except Exception as exc:  # noqa: BLE001 - the CSV is already safe; say what failed
                 result.problems.append(f"plot not drawn: {type(exc).__name__}: {exc}")
         result.files["summary"] = out / "summary.json"

@@ -25,10 +25,10 @@ from __future__ import annotations
 
 import numpy as np
 from scipy.linalg import expm
-from scipy.optimize import brentq
 
 from ..errors import IntegrationError
 from .base import Integrator, SegmentResult, event_values, first_crossing, generator_matrices
+from .roots import brent_root
 
 __all__ = ["Exact", "augmented_matrix", "MAX_CHECK_POINTS"]
 
@@ -176,8 +176,7 @@ class Exact(Integrator):
             end = g(h)
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
-            s = brentq(g, 0.0, h, xtol=self.event_tol,
-                                            rtol=4 * np.finfo(float).eps)
+            s = brent_root(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
             if best is None or s < best[0]:
                 best = (s, j)
         if best is None:  # re-evaluation rounded the crossing away: take the interval's end

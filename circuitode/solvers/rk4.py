@@ -16,10 +16,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy.optimize import brentq
 
 from ..errors import UnstableStepError
 from .base import Integrator, LinearSegment, SegmentResult, event_values, first_crossing
+from .roots import brent_root
 
 __all__ = ["RK4", "rk4_stability_limit", "check_rk4_step", "rk4_step_grid"]
 
@@ -211,7 +211,7 @@ class RK4(Integrator):
             end = g(h)
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
-            s = brentq(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
+            s = brent_root(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
             if best is None or s < best[0]:
                 best = (s, j)
         if best is None:  # re-evaluation rounded the crossing away: take the interval's end

@@ -10,8 +10,6 @@ exceeds the segment.
 from __future__ import annotations
 
 import numpy as np
-import scipy.integrate as si
-import scipy.sparse as sp
 
 from ..errors import IntegrationError
 from .base import Integrator, SegmentResult, generator_matrices
@@ -38,6 +36,8 @@ def jacobian_for(A: np.ndarray):
     """The Jacobian to hand to an implicit method: sparse CSC when large and sparse."""
     n = A.shape[0]
     if n >= SPARSE_FROM and np.count_nonzero(A) <= 0.1 * n * n:
+        import scipy.sparse as sp
+
         return sp.csc_matrix(A)
     return A
 
@@ -64,7 +64,7 @@ class ScipyIntegrator(Integrator):
     """Common driver for the solve_ivp methods; subclasses name the scipy class."""
 
     adaptive = True
-    scipy_method: type = si.RK45
+    scipy_method: str = "RK45"  # a class of scipy.integrate, by name: scipy.integrate loads on first use
 
     def _solve_segment(self, segment, t_out, events):
         A, B = segment.A, segment.B
@@ -107,11 +107,13 @@ class ScipyIntegrator(Integrator):
         tally = {"steps": 0}
         # solve_ivp wants strictly increasing t_eval; t1 is last so the end state is known
         t_eval = np.unique(np.append(t_out, segment.t1))
+        import scipy.integrate as si
+
         sol = si.solve_ivp(
             rhs,
             (segment.t0, segment.t1),
             segment.x0,
-            method=_counting(self.scipy_method, tally),
+            method=_counting(getattr(si, self.scipy_method), tally),
             t_eval=t_eval,
             events=[make_event(e) for e in events] or None,
             **options,
@@ -142,14 +144,14 @@ class RK45(ScipyIntegrator):
     """Dormand–Prince 5(4), adaptive explicit."""
 
     name = "rk45"
-    scipy_method = si.RK45
+    scipy_method = "RK45"
 
 
 class DOP853(ScipyIntegrator):
     """Dormand–Prince 8(5,3), adaptive explicit, for tight tolerances."""
 
     name = "dop853"
-    scipy_method = si.DOP853
+    scipy_method = "DOP853"
 
 
 class Radau(ScipyIntegrator):
@@ -158,7 +160,7 @@ class Radau(ScipyIntegrator):
     name = "radau"
     stiff = True
     uses_jacobian = True
-    scipy_method = si.Radau
+    scipy_method = "Radau"
 
 
 class BDF(ScipyIntegrator):
@@ -167,4 +169,4 @@ class BDF(ScipyIntegrator):
     name = "bdf"
     stiff = True
     uses_jacobian = True
-    scipy_method = si.BDF
+    scipy_method = "BDF"

@@ -21,7 +21,7 @@ from ..errors import CircuitodeError, NetlistError
 from ..netlist.parts import expose_parts
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
 from ..analysis.measure import figure_unit, measure
-from ..output.report import unit_of_parameter
+from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
@@ -149,13 +149,16 @@ def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
             continue
         source = circuit.by_name.get(element)
         level = field_.split(".", 1)[1]
-        allowed = LEVEL_FIELDS.get(type(getattr(source, "waveform", None)), ())
+        kind = type(getattr(source, "waveform", None))
+        allowed = LEVEL_FIELDS.get(kind, ())
         if not field_.startswith("waveform.") or level not in allowed:
+            from ..netlist.vocabulary import written_field
+
+            words = ", ".join(written_field(kind, a) for a in allowed) or "none for this waveform"
             raise CircuitodeError(
-                f"the tolerance on {level} of source {element} is not supported in batches: "
+                f"the tolerance on {written_field(kind, level)} of source {element} is not supported in batches: "
                 f"switching instants and other timing stay common to every sample; only a "
-                f"source's levels ({', '.join(allowed) or 'none for this waveform'}) may vary — "
-                "remove that tolerance or fix the value"
+                f"source's levels ({words}) may vary — remove that tolerance or fix the value"
             )
 
 
@@ -378,14 +381,31 @@ def _write_waveforms(parts, probes, folder: Path) -> dict:
     return files
 
 
+def _limit_words(result: BatchResult) -> list[str]:
+    """Each limit worded with its unit, as the printed table has it ("peak of current through R1 < 6 A")."""
+    units = dict(zip(result.figure_keys, result.figure_units))
+    return [requirement_words(r, units.get((r.figure, r.probe.label), "")) for r in result.requirements]
+
+
+def _limit_passes(result: BatchResult) -> np.ndarray:
+    """(N, number of limits) bools: does each sample meet each limit (False when it failed to run)."""
+    if not result.requirements:
+        return np.zeros((result.samples.count, 0), dtype=bool)
+    fig_map = {k: result.figures[:, j] for j, k in enumerate(result.figure_keys)}
+    return check_requirements_batch(tuple(result.requirements), fig_map) & result.ok[:, None]
+
+
 def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
     import csv
 
     files = {}
     table = result.samples
     path = folder / "samples.csv"
+    limit_words = _limit_words(result)
+    passes = _limit_passes(result)
     header = ["sample", "ok", "message"] + [f"{n}" for n in table.names] + [
-        f"{f} of {label} [{u}]" for (f, label), u in zip(result.figure_keys, result.figure_units)]
+        f"{f} of {label} [{u}]" for (f, label), u in zip(result.figure_keys, result.figure_units)] + [
+        f"pass: {words}" for words in limit_words]
     tmp = path.with_name(".samples.csv.tmp")
     with open(tmp, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
@@ -393,7 +413,8 @@ def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
         values = table.values
         rows = np.concatenate([values, result.figures], axis=1)
         for i in range(table.count):  # writing text rows; the numerics are done
-            w.writerow([i, int(result.ok[i]), result.messages[i]] + [repr(float(v)) for v in rows[i]])
+            w.writerow([i, int(result.ok[i]), result.messages[i]] + [repr(float(v)) for v in rows[i]]
+                       + [int(p) for p in passes[i]])
     os.replace(tmp, path)
     files["samples"] = path
     summary = {
@@ -402,12 +423,14 @@ def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
         "yield": {"passed": result.yield_estimate.passed, "total": result.yield_estimate.total,
                   "fraction": result.yield_estimate.fraction, "wilson95": [result.yield_estimate.low,
                                                                           result.yield_estimate.high],
-                  "per_limit": result.yield_estimate.per_limit},
+                  "per_limit": {words: result.yield_estimate.per_limit.get(r.label, 0)
+                                for words, r in zip(limit_words, result.requirements)}},
         "figures": {f"{k[0]} of {k[1]}": {
             "unit": u, "mean": s.mean, "std": s.std, "percentiles": dict(zip(["p1", "p5", "p50", "p95", "p99"], s.percentiles)),
             "min": s.minimum, "min_sample": s.argmin, "max": s.maximum, "max_sample": s.argmax,
             "drivers": [[d.parameter, d.rho] for d in result.sensitivity[k]]}
             for k, u, s in zip(result.figure_keys, result.figure_units, result.summaries.values())},
+        "safety": SAFETY_TEXT,
     }
     path = folder / "batch_summary.json"
     path.write_text(json.dumps(summary, indent=2, default=float).replace("NaN", "null"), encoding="utf-8")

@@ -46,6 +46,18 @@ def _save(plt, fig, ax, path: Path) -> Path:
     return path
 
 
+def _arrow_to_limit(ax, x0: float, x1: float, above: bool, words: str) -> None:
+    """Limit far off the distribution: an arrow at the right (``above``) or left edge, with the words."""
+    free = 0.3  # share of the axis kept clear for the arrow and its words, on the limit's side
+    width = (x1 - x0) / (1.0 - free)
+    ax.set_xlim((x0, x0 + width) if above else (x1 - width, x1))
+    edge, tail = (0.99, 1.0 - free + 0.02) if above else (0.01, free - 0.02)
+    ax.annotate("", xy=(edge, 0.45), xytext=(tail, 0.45), xycoords="axes fraction",
+                arrowprops=dict(arrowstyle="-|>", color=_LIMIT, lw=2))
+    ax.text(tail if above else edge, 0.5, words, transform=ax.transAxes, ha="left", va="bottom", fontsize=8,
+            color=_LIMIT)
+
+
 def write_plots(result, folder: Path) -> dict:
     """Write PNGs into ``folder/plots``; returns name → path."""
     import matplotlib
@@ -74,19 +86,29 @@ def write_plots(result, folder: Path) -> dict:
         vlabel = f"{title} [{vunit}]" if vunit else title
 
         fig, ax = plt.subplots(figsize=(6.4, 4.0), dpi=100)
+        lo, hi = float(np.min(v[good])), float(np.max(v[good]))
         if varies(result.summaries[key]):
             ax.hist(v[good] * vf, bins=min(60, max(10, int(np.sqrt(good.sum())))), color=_BAR)
+            pad = 0.08 * (hi - lo)
         else:  # every sample gives the same value: one bar, said in words
             typical = float(np.median(v[good]))
-            ax.bar([typical * vf], [good.sum()], width=abs(typical * vf) * 0.004 or 1.0, color=_BAR)
+            pad = 10 * (abs(typical) * 1e-3 or 1e-12)
+            lo = hi = typical
+            ax.bar([typical * vf], [good.sum()], width=0.1 * pad * vf, color=_BAR)
             ax.text(0.5, 0.95, f"every sample ≈ {format_si(typical, unit)}", transform=ax.transAxes,
                     ha="center", va="top", fontsize=9)
         if key in limited:
             r = limited[key]
             passed = result.yield_estimate.per_limit.get(r.label, 0)
-            ax.axvline(r.limit * vf, color=_LIMIT, lw=2,
-                       label=f"limit {r.comparison} {format_si(r.limit, unit)} ({passed} of {n} meet it)")
-            ax.legend(frameon=True, framealpha=0.9, fontsize=8, loc="best")
+            words = f"limit {r.comparison} {format_si(r.limit, unit)} ({passed} of {n} meet it)"
+            if lo - 2 * pad - (hi - lo) <= r.limit <= hi + 2 * pad + (hi - lo):  # near the samples: draw it
+                ax.axvline(r.limit * vf, color=_LIMIT, lw=2, label=words)
+                ax.legend(frameon=True, framealpha=0.9, fontsize=8, loc="best")
+            else:  # far away: keep the distribution readable and point to the limit from the edge
+                gap = format_si(abs(r.limit - (hi if r.limit > hi else lo)), unit, 3)
+                _arrow_to_limit(ax, (lo - pad) * vf, (hi + pad) * vf, r.limit > hi,
+                                f"limit {r.comparison} {format_si(r.limit, unit)}\n{gap} beyond the\n"
+                                f"{'largest' if r.limit > hi else 'smallest'} sample;\n{passed} of {n} meet it")
         ax.set_xlabel(vlabel)
         ax.set_ylabel("samples")
         ax.set_title(f"{title}: {n} samples ({result.samples.sampler})", fontsize=10, loc="left")

@@ -250,7 +250,7 @@ def draw_samples(
                 f"the limit is {MAX_CORNER_PARAMETERS} parameters — use --sampler lhs or sobol"
             )
         deviations = _corner_signs(k) * relative[None, :]
-        if samples != 2**k:
+        if samples and samples != 2**k:
             note = f"corners: {2**k} runs (every ± extreme of {k} parameters), not {samples}"
     else:
         if int(samples) < 1:

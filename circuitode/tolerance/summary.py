@@ -19,6 +19,12 @@ __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
 
 #: Relative spread (σ / max(|mean|, |max|)) below which a figure counts as not varying.
 NO_SPREAD = 1e-9
+#: Step figures in % below this are rounding (a charge that ends exactly at its source level).
+PERCENT_NOISE = 1e-6
+#: Overshoot or undershoot above this (in %) says the signal is no step response (an AC bus,
+#: a signal that ends near zero): the number would mislead.
+PERCENT_ABSURD = 1000.0
+_LABEL = 38
 
 _FIGURE_WORDS = {"time_of_peak": "time of peak", "i2t": "I²t", "settling_time": "settling",
                  "rise_time": "rise time", "final": "final value"}
@@ -42,6 +48,45 @@ def varies(summary) -> bool:
     return math.isfinite(summary.std) and summary.std > NO_SPREAD * scale
 
 
+def _meets(requirement, value: float) -> bool:
+    """Does ``value`` meet the requirement's comparison with its limit?"""
+    limit, op = requirement.limit, requirement.comparison
+    return bool({"<": value < limit, "<=": value <= limit, ">": value > limit, ">=": value >= limit}[op])
+
+
+def _state(s, unit: str) -> str:
+    """"absurd" (a % step figure beyond sense), "rounding" (a % figure of rounding size), "fixed"
+    (no spread beyond rounding), "missing" (no finite value) or "varies"."""
+    largest = max(abs(s.minimum), abs(s.maximum))
+    if not math.isfinite(largest):
+        return "missing" if not math.isfinite(s.mean) else "varies"
+    if unit == "%" and largest > PERCENT_ABSURD:
+        return "absurd"
+    if unit == "%" and largest < PERCENT_NOISE:
+        return "rounding"
+    return "varies" if varies(s) else "fixed"
+
+
+def _figure_row(label: str, s, unit: str) -> list[str]:
+    """The statistics row of one figure; a long label gets a line of its own."""
+    width = _LABEL - 1
+    lead = [] if len(label) <= width else textwrap.wrap(label, WIDTH, subsequent_indent="  ")
+    first = f"{label:<{_LABEL}}" if not lead else f"{'':<{_LABEL}}"
+    state = _state(s, unit)
+    if state == "absurd":
+        body = f"{'—':>10}  over {PERCENT_ABSURD:g} %: not a step"
+    elif state == "missing":
+        body = f"{'—':>10}  no value in any sample"
+    elif state == "rounding":
+        body = f"{'0 %':>10}  (below 1e-6 %: rounding)"
+    elif state == "fixed":
+        body = f"{_si(s.mean, unit, 3):>10}  does not vary"
+    else:
+        cells = (s.mean, s.std, s.percentiles[0], s.percentiles[-1])
+        body = "".join(f" {_si(v, unit, 3):>9}" for v in cells)
+    return lead + [(first + body).rstrip()]
+
+
 def format_batch_summary(result) -> str:
     """Statistics per figure, yield with its Wilson interval, closest samples, drivers."""
     t = result.samples
@@ -54,13 +99,10 @@ def format_batch_summary(result) -> str:
     if result.chunks_resumed:
         lines.append(f"  resumed: {result.chunks_resumed} chunk(s) were already on disk")
     lines.append("")
-    head = f"{'figure':<34}" + "".join(f"{h:>11}" for h in ("mean", "σ", "P1", "P99"))
+    head = f"{'figure':<{_LABEL}}" + "".join(f"{h:>10}" for h in ("mean", "σ", "P1", "P99"))
     lines += [head, "─" * len(head)]
     for (key, s), unit in zip(result.summaries.items(), result.figure_units):
-        cells = (s.mean, s.std, s.percentiles[0], s.percentiles[-1])
-        label = figure_label(key)
-        label = label if len(label) <= 33 else label[:32] + "…"
-        lines.append(f"{label:<34}" + "".join(f" {_si(v, unit, 3):>10}" for v in cells))
+        lines.extend(_figure_row(figure_label(key), s, unit))
     lines.append("")
     y = result.yield_estimate
     if result.requirements:
@@ -70,26 +112,38 @@ def format_batch_summary(result) -> str:
         for r in result.requirements:
             unit = units.get((r.figure, r.probe.label), "")
             count = y.per_limit.get(r.label, 0)
-            lines.append(f"  {count:>{len(str(y.total))}} pass  {requirement_words(r, unit)}")
+            head = f"  {count:>{len(str(y.total))}} pass  "
+            lines.extend(textwrap.wrap(head + requirement_words(r, unit), WIDTH,
+                                       subsequent_indent=" " * len(head)))
             if r.label in result.worst:
                 k, value = result.worst[r.label]
                 units_of = getattr(result, "parameter_units", {}) or {}
                 # no-break spaces keep each "name value unit" on one line when wrapped
                 params = ", ".join(f"{n} {format_si(v, units_of.get(n, ''), 4)}".replace(" ", "\u00a0")
                                    for n, v in zip(t.names, t.values[k]))
-                lines.extend(textwrap.wrap(f"closest: {_si(value, unit)} at sample {k} ({params})", WIDTH,
+                word = "closest" if _meets(r, value) else "worst (fails)"
+                lines.extend(textwrap.wrap(f"{word}: {_si(value, unit)} at sample {k} ({params})", WIDTH,
                                            initial_indent=" " * 6, subsequent_indent=" " * 8))
     else:
         lines.append("yield: no 'require' limits in the netlist")
     lines.append("")
     lines.append("strongest driver of each figure (Spearman rank correlation):")
-    for (key, drivers), s in zip(result.sensitivity.items(), result.summaries.values()):
+    for (key, drivers), s, unit in zip(result.sensitivity.items(), result.summaries.values(), result.figure_units):
         label = figure_label(key)
-        label = label if len(label) <= 45 else label[:44] + "…"
-        if not varies(s):
+        if len(label) > 45:
+            lines.append(f"  {label}")
+            label = ""
+        state = _state(s, unit)
+        if state in ("fixed", "rounding"):
             lines.append(f"  {label:<46}does not vary")
+        elif state == "absurd":
+            lines.append(f"  {label:<46}not a step response")
+        elif state == "missing":
+            lines.append(f"  {label:<46}no value")
         elif drivers and np.isfinite(drivers[0].rho):
-            lines.append(f"  {label:<46}{drivers[0].parameter[:20]:<21}{drivers[0].rho:+.2f}")
+            name = drivers[0].parameter  # whole, even when long: a cut name could point at the wrong part
+            lines.append(f"  {label:<46}{name:<21}{drivers[0].rho:+.2f}" if len(name) <= 20
+                         else f"  {label:<46}{name} {drivers[0].rho:+.2f}")
     if result.out_dir is not None:
         plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
         waves = sum(1 for k in result.files if k.startswith("waveform"))
