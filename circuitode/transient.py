@@ -9,8 +9,11 @@ and the circuit is ``x' = A x + B u``, which an integrator from
 and the run restarts with the states carried over — capacitor voltages and
 inductor currents are continuous across every switching instant.
 
-At each switching instant two rows share the same time: the values just before
-and just after, so jumps of currents stay sharp.
+At each switching instant and each source breakpoint (pulse edge, corner of a
+piecewise-linear source) two rows share the same time: the values just before
+and just after, so jumps stay sharp and no corner falls between rows.  The
+integrals of every recorded quantity over the window come from the integrator
+itself (:mod:`circuitode.window_integrals`), not from the rows.
 """
 from __future__ import annotations
 
@@ -28,6 +31,7 @@ from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method,
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from .checks.topology import verify
+from .window_integrals import IntegralTally
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
@@ -62,6 +66,9 @@ class Waveforms:
     "rhs_evaluations", "expm_calls", …).
     configurations : switch-state tuples used, in order of first use.
     warnings : topology warnings (diagnostics of severity "warning"), as text.
+    integrals : label → (∫ y dt, ∫ y² dt) over the window from the integrator
+    (exact with the exact method, error-controlled with the adaptive and implicit
+    ones; for a power probe (∫ p dt, NaN)); empty when the method gives none (rk4).
     """
 
     t: np.ndarray
@@ -77,6 +84,7 @@ class Waveforms:
     counters: dict[str, int]
     configurations: tuple[tuple[bool, ...], ...]
     warnings: tuple[str, ...] = field(default=())
+    integrals: dict[str, tuple[float, float]] = field(default_factory=dict)
 
     def __getitem__(self, label: str) -> np.ndarray:
         if label in self.signals:
@@ -353,6 +361,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     x = np.asarray(initial_state(circuit, s.initial, ss0, u_before), dtype=float)
 
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
+    run.tally = IntegralTally(wanted, row_of)
     run.go(x, start, schedule)
     return run.waveforms(wanted, row_of, name, reason, warnings)
 
@@ -397,9 +406,12 @@ class _Run:
             self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0),
             np.array([c[0] for c in schedule if c[0] > 0], dtype=float), [until]]))
         pending = [k for k, sw in enumerate(circuit.switches) if isinstance(sw.control, ThresholdRule)]
+        corners = self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0)
         queue = list(schedule)
         t = 0.0
+        at_corner = False
         while True:
+            events_before = len(self.events)
             # scheduled changes due now
             while queue and queue[0][0] <= t + self.slack:
                 _, k, state = queue.pop(0)
@@ -409,6 +421,8 @@ class _Run:
                                          _schedule_reason(circuit.switches[k]))
             if t >= until - self.slack:
                 break
+            if at_corner and len(self.events) == events_before:  # a source corner: two rows
+                self.corner(t, x, closed)
             t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
             ss = self.cache.get(closed)
             self.used.setdefault(closed, None)
@@ -428,15 +442,20 @@ class _Run:
             upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
                                    side="right" if last else "left")
             t_out = self.grid[self.next_grid:upto]
-            result = self.integrator.solve(segment, t_out, [ev for _, ev in watch])
+            result = self.integrator.solve(segment, t_out, [ev for _, ev in watch],
+                                           integrals=self.tally.request(ss.C, ss.D))
+            self.tally.add(result.integrals)
             self.counters["segments"] += 1
             for key, value in result.counters.items():
                 self.counters[key] = self.counters.get(key, 0) + int(value)
             self.record(result.t, result.x, segment.input_values(result.t), closed)
             self.next_grid += result.t.size
             x = np.asarray(result.x_end, dtype=float)
+            at_corner = False
             if result.event_time is None:
                 t = t_next
+                at_corner = bool(corners.size) and bool(
+                    np.min(np.abs(corners - t)) <= self.slack)
                 continue
             k = pending.pop(result.event_index)
             te = float(result.event_time)
@@ -444,6 +463,14 @@ class _Run:
             closed = self.switch(te, x, u_end, u_end, closed, k, circuit.switches[k].control.closes,
                                  _threshold_reason(circuit.switches[k]))
             t = te
+
+    def corner(self, t, x, closed):
+        """Record the rows just before and after a source breakpoint at ``t`` (s)."""
+        u_b, u_a = self._inputs_around(t)
+        self.record([t], x[None, :], u_b[None, :], closed)
+        self.record([t], x[None, :], u_a[None, :], closed)
+        while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
+            self.next_grid += 1
 
     def _inputs_around(self, t):
         if not self.bank.m:
@@ -495,4 +522,5 @@ class _Run:
             t=t, signals=signals, units=units, probes=probes, states=states,
             state_names=tuple(circuit.state_names), state_units=tuple(circuit.state_units),
             events=tuple(self.events), method=name, method_reason=reason,
-            counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings)
+            counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings,
+            integrals=self.tally.by_label())

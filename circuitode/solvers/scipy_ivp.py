@@ -15,6 +15,7 @@ import scipy.sparse as sp
 
 from ..errors import IntegrationError
 from .base import Integrator, SegmentResult, generator_matrices
+from .integrals import IntegralValues, quadrature_rates
 
 __all__ = ["ScipyIntegrator", "RK45", "DOP853", "Radau", "BDF", "SPARSE_FROM"]
 
@@ -64,20 +65,36 @@ class ScipyIntegrator(Integrator):
     """Common driver for the solve_ivp methods; subclasses name the scipy class."""
 
     adaptive = True
+    integrates_outputs = True
     scipy_method: type = si.RK45
 
-    def _solve_segment(self, segment, t_out, events):
+    def _solve_segment(self, segment, t_out, events, integrals=None):
         A, B = segment.A, segment.B
+        n = segment.n_states
         held = _constant_inputs(segment)
         if held is not None:  # inputs constant on the segment: no source evaluation per call
             b = B @ held
 
-            def rhs(t, x):
+            def circuit_rhs(t, x):
                 return A @ x + (b[:, None] if x.ndim == 2 else b)
         else:
-            def rhs(t, x):
+            def circuit_rhs(t, x):
                 forced = B @ segment.input_values(np.array([t]))[0]
                 return A @ x + (forced[:, None] if x.ndim == 2 else forced)
+
+        if integrals is None:
+            rhs = circuit_rhs
+        else:  # carry ∫ y and ∫ y_a y_b as extra states under the same error control
+            def rhs(t, xa):
+                x = xa[:n]
+                columns = x if x.ndim == 2 else x[:, None]
+                u = held if held is not None else segment.input_values(np.array([t]))[0]
+                u = np.repeat(u[:, None], columns.shape[1], axis=1)
+                rates = quadrature_rates(integrals, columns, u)
+                dx = circuit_rhs(t, x)
+                if x.ndim == 1:
+                    return np.concatenate([dx, rates[:, 0]])
+                return np.concatenate([dx, rates], axis=0)
 
         tiny = np.finfo(float).tiny
 
@@ -85,6 +102,7 @@ class ScipyIntegrator(Integrator):
             # solve_ivp fires on g = 0 → 0; nudging "not yet met" values off zero makes it
             # fire only when the quantity passes the level (LinearEvent.met), not on a touch.
             def g(t, x):
+                x = x[:n]
                 u = held[None, :] if held is not None else segment.input_values(np.array([t]))
                 value = float(event.value(x, u)[0])
                 if event.rising:
@@ -102,15 +120,23 @@ class ScipyIntegrator(Integrator):
             "max_step": min(self.step, span) if self.step else span,
             "vectorized": True,
         }
+        extra = 0 if integrals is None else integrals.size
         if self.uses_jacobian:
-            options["jac"] = jacobian_for(A)
+            # the extra states never feed back; their Jacobian rows (∂(y_a y_b)/∂x vary with
+            # x) are left out, which the simplified Newton iteration tolerates
+            jac = A
+            if extra:
+                jac = np.zeros((n + extra, n + extra))
+                jac[:n, :n] = A
+                jac[n:n + integrals.C.shape[0], :n] = integrals.C
+            options["jac"] = jacobian_for(jac)
         tally = {"steps": 0}
         # solve_ivp wants strictly increasing t_eval; t1 is last so the end state is known
         t_eval = np.unique(np.append(t_out, segment.t1))
         sol = si.solve_ivp(
             rhs,
             (segment.t0, segment.t1),
-            segment.x0,
+            np.concatenate([segment.x0, np.zeros(extra)]),
             method=_counting(self.scipy_method, tally),
             t_eval=t_eval,
             events=[make_event(e) for e in events] or None,
@@ -131,11 +157,17 @@ class ScipyIntegrator(Integrator):
         else:
             event_time = event_index = None
             x_end = sol.y[:, -1]
-        reached = sol.t[sol.t < event_time] if event_time is not None else sol.t
+        # solve_ivp leaves t and y as empty lists when an event fires before any t_eval
+        times = np.asarray(sol.t, dtype=float).reshape(-1)
+        states = np.asarray(sol.y, dtype=float).reshape(n + extra, times.size)
+        reached = times[times < event_time] if event_time is not None else times
         t_kept = t_out[t_out < event_time] if event_time is not None else t_out
         idx = np.searchsorted(reached, t_kept)
-        return SegmentResult(t_kept.copy(), np.asarray(sol.y[:, idx].T, dtype=float),
-                             event_time, event_index, np.asarray(x_end, dtype=float), counters)
+        found = None if integrals is None else IntegralValues.from_states(
+            x_end[n:], integrals.C.shape[0])
+        return SegmentResult(t_kept.copy(), states[:n, idx].T.copy(),
+                             event_time, event_index, np.asarray(x_end[:n], dtype=float), counters,
+                             found)
 
 
 class RK45(ScipyIntegrator):

@@ -1,0 +1,157 @@
+"""Integrals of outputs carried by the solvers (circuitode.solvers.integrals,
+circuitode.window_integrals): energy, I²t, rms and mean exact to rounding with the exact
+method whatever the output step, and error-controlled with the adaptive methods."""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import quad_vec
+from scipy.linalg import expm
+
+from circuitode.analysis.measure import summarise
+from circuitode.model.circuit import (Capacitor, Circuit, CurrentThrough, Inductor, NodeVoltage,
+                                      PowerIn, Resistor, VoltageSource)
+from circuitode.model.sources import Dc, PulseTrain
+from circuitode.solvers.integrals import output_moments
+from circuitode.transient import simulate
+
+
+def test_output_moments_match_adaptive_quadrature():
+    # Independent reference: scipy.integrate.quad_vec of y(s) = G expm(M s) w0 and its products.
+    rng = np.random.default_rng(7)
+    M = rng.normal(size=(4, 4)) - 1.5 * np.eye(4)
+    w0, G, h = rng.normal(size=4), rng.normal(size=(2, 4)), 2.3
+    pairs = np.array([[0, 0], [0, 1], [1, 1]])
+    got = output_moments(M, w0, h, G, pairs)
+
+    def y(s):
+        return G @ expm(M * s) @ w0
+
+    ref_lin = quad_vec(y, 0, h, epsabs=1e-14, epsrel=1e-13)[0]
+    ref_sq = quad_vec(lambda s: np.array([y(s)[0] ** 2, y(s)[0] * y(s)[1], y(s)[1] ** 2]),
+                      0, h, epsabs=1e-14, epsrel=1e-13)[0]
+    assert np.allclose(got.linear, ref_lin, rtol=1e-11, atol=1e-13)
+    assert np.allclose(got.products, ref_sq, rtol=1e-11, atol=1e-13)
+
+
+def test_output_moments_of_a_stiff_decay_do_not_overflow():
+    # v' = (z − v)/τ with z = 5 held, τ = 1 ns, over 1 s (h|λ| = 1e9): y = z − v = 5 e^(−t/τ),
+    # ∫ y² = 25 τ/2 (closed form of the exponential integral, common practice).
+    tau = 1e-9
+    M = np.array([[-1 / tau, 1 / tau], [0.0, 0.0]])
+    got = output_moments(M, np.array([0.0, 5.0]), 1.0, np.array([[-1.0, 1.0]]), np.array([[0, 0]]))
+    assert got.products[0] == pytest.approx(25 * tau / 2, rel=1e-12)
+
+
+def _rc(R, C, V, until, step):
+    return Circuit("rc", "gnd", (VoltageSource("V1", "in", "gnd", Dc(V)),
+                                 Resistor("R1", "in", "out", R),
+                                 Capacitor("C1", "out", "gnd", C, initial_voltage=0.0)),
+                   records=(NodeVoltage("out"), CurrentThrough("R1"), PowerIn("R1")))
+
+
+@pytest.mark.parametrize("step", [10e-6, 1e-3])
+def test_fast_rc_energy_and_i2t_are_exact_whatever_the_step(step):
+    # 5 V step into 1 Ω and 1 nF (τ = 1 ns) over 1 ms: the resistor dissipates ½CV² and
+    # ∫ i² dt = V²C/(2R) (Nilsson & Riedel, Electric Circuits, ch. 7: step response of RC;
+    # the ½CV² loss in the charging resistor is a classic result).  The rows at a 10 µs or
+    # 1 ms step see nothing of the decay; the figures must not depend on them.
+    R, C, V = 1.0, 1e-9, 5.0
+    w = simulate(_rc(R, C, V, 1e-3, step), until=1e-3, step=step, method="exact")
+    figures = summarise(w)
+    assert figures["power in R1"]["energy"][0] == pytest.approx(0.5 * C * V ** 2, rel=1e-9)
+    assert figures["current through R1"]["i2t"][0] == pytest.approx(V ** 2 * C / (2 * R), rel=1e-9)
+    # rms and mean over the window T: √(∫i²/T) and ∫i/T = CV/T (charge delivered, ch. 7)
+    assert figures["current through R1"]["rms"][0] == pytest.approx(
+        math.sqrt(V ** 2 * C / (2 * R) / 1e-3), rel=1e-9)
+    assert w.integrals["current through R1"][0] / 1e-3 == pytest.approx(C * V / 1e-3, rel=1e-9)
+
+
+def _series_rlc(R, L, C, V):
+    return Circuit("rlc", "gnd", (VoltageSource("V1", "in", "gnd", Dc(V)),
+                                  Resistor("R1", "in", "a", R),
+                                  Inductor("L1", "a", "b", L, initial_current=0.0),
+                                  Capacitor("C1", "b", "gnd", C, initial_voltage=0.0)),
+                   records=(NodeVoltage("b"), CurrentThrough("R1"), PowerIn("R1")))
+
+
+def test_series_rlc_energy_with_a_1_ms_step():
+    # Series RLC charged from rest by a step V: at the end (decay e^(−αT), α = R/2L,
+    # αT = 100) the resistor has dissipated ½CV² and ∫ i² = V²C/(2R) (energy balance;
+    # Nilsson & Riedel ch. 8, step response of series RLC).  Output step 1 ms ≫ the
+    # ringing period 2π√(LC) ≈ 0.2 ms.
+    R, L, C, V = 10.0, 1e-3, 1e-6, 12.0
+    w = simulate(_series_rlc(R, L, C, V), until=20e-3, step=1e-3, method="exact")
+    figures = summarise(w)
+    assert figures["power in R1"]["energy"][0] == pytest.approx(0.5 * C * V ** 2, rel=1e-9)
+    assert figures["current through R1"]["i2t"][0] == pytest.approx(V ** 2 * C / (2 * R), rel=1e-9)
+
+
+def _pulse_train_energy(R, C, V, width, period, count, until):
+    """Sum of per-pulse closed forms for an RC driven by ideal rectangular pulses: charging
+    from v0 towards V for the width dissipates C(V − v0)²/2 · (1 − e^(−2w/τ)); discharging
+    from v1 for the rest dissipates C v1²/2 · (1 − e^(−2 t_off/τ)) (Nilsson & Riedel ch. 7)."""
+    tau, v, total, t = R * C, 0.0, 0.0, 0.0
+    for _ in range(count):
+        total += C * (V - v) ** 2 / 2 * (1 - math.exp(-2 * width / tau))
+        v = V + (v - V) * math.exp(-width / tau)
+        off = min(period, until - t) - width
+        total += C * v ** 2 / 2 * (1 - math.exp(-2 * off / tau))
+        v *= math.exp(-off / tau)
+        t += period
+    return total
+
+
+@pytest.mark.parametrize("count", [4, 20])
+def test_pulse_train_energy_is_the_sum_of_per_pulse_closed_forms(count):
+    # 5 V pulses, 100 µs wide every 300 µs, into 200 Ω and 1 µF (τ = 200 µs); rows every
+    # 12 µs, so no edge falls on a row of the uniform grid.
+    R, C, V, width, period = 200.0, 1e-6, 5.0, 100e-6, 300e-6
+    until = count * period
+    c = Circuit("train", "gnd", (
+        VoltageSource("V1", "in", "gnd", PulseTrain(low=0.0, high=V, delay=0.0, rise=0.0, fall=0.0,
+                                                    width=width, period=period, count=count)),
+        Resistor("R1", "in", "out", R), Capacitor("C1", "out", "gnd", C, initial_voltage=0.0)),
+        records=(PowerIn("R1"),))
+    w = simulate(c, until=until, step=12e-6, method="exact")
+    expected = _pulse_train_energy(R, C, V, width, period, count, until)
+    assert summarise(w)["power in R1"]["energy"][0] == pytest.approx(expected, rel=1e-9)
+
+
+@pytest.mark.parametrize("method", ["rk45", "dop853", "radau", "bdf"])
+def test_adaptive_methods_carry_the_integrals_under_their_error_control(method):
+    # Same closed forms as above (Nilsson & Riedel ch. 7); τ = 1 ms, window 20 τ.  The
+    # integrals are extra states of the integrator, so their error follows rtol = 1e-6.
+    R, C, V = 1e3, 1e-6, 10.0
+    w = simulate(_rc(R, C, V, 20e-3, 1e-3), until=20e-3, step=1e-3, method=method)
+    figures = summarise(w)
+    assert figures["power in R1"]["energy"][0] == pytest.approx(0.5 * C * V ** 2, rel=1e-4)
+    assert figures["current through R1"]["i2t"][0] == pytest.approx(V ** 2 * C / (2 * R), rel=1e-4)
+
+
+def test_rk4_has_no_carried_integrals_and_falls_back_to_the_rows():
+    # rk4 steps at the output step and carries no integrals: the figures are the trapezoid
+    # over its rows, close to ½CV² at a fine step (same closed form, ch. 7).
+    R, C, V = 1e3, 1e-6, 10.0
+    w = simulate(_rc(R, C, V, 20e-3, 10e-6), until=20e-3, step=10e-6, method="rk4")
+    assert w.integrals == {}
+    assert summarise(w)["power in R1"]["energy"][0] == pytest.approx(0.5 * C * V ** 2, rel=1e-3)
+
+
+def test_every_source_edge_is_a_pair_of_rows():
+    # Edges of a pulse train at 0, 100 µs, 300 µs, 400 µs … with rows every 12 µs: each edge
+    # gets the rows just before and just after (as switch instants do), so the source jumps
+    # between two rows at the edge instant (definition of an ideal pulse, IEEE Std 181 terms).
+    c = Circuit("train", "gnd", (
+        VoltageSource("V1", "in", "gnd", PulseTrain(low=0.0, high=5.0, delay=0.0, rise=0.0, fall=0.0,
+                                                    width=100e-6, period=300e-6, count=4)),
+        Resistor("R1", "in", "out", 200.0), Capacitor("C1", "out", "gnd", 1e-6, initial_voltage=0.0)),
+        records=(NodeVoltage("in"),))
+    w = simulate(c, until=1.2e-3, step=12e-6, method="exact")
+    for edge, (before, after) in {100e-6: (5.0, 0.0), 300e-6: (0.0, 5.0), 700e-6: (5.0, 0.0)}.items():
+        rows = np.flatnonzero(np.abs(w.t - edge) < 1e-15)
+        assert rows.size == 2
+        assert w["voltage at in"][rows].tolist() == [before, after]
+    assert np.all(np.diff(w.t) >= 0)
