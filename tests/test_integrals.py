@@ -37,12 +37,14 @@ def test_output_moments_match_adaptive_quadrature():
 
 
 def test_output_moments_of_a_stiff_decay_do_not_overflow():
-    # v' = (z − v)/τ with z = 5 held, τ = 1 ns, over 1 s (h|λ| = 1e9): y = z − v = 5 e^(−t/τ),
-    # ∫ y² = 25 τ/2 (closed form of the exponential integral, common practice).
+    # v' = (z − v)/τ with z = 5 held, τ = 1 ns, over 1 ms (h|λ| = 1e6): y = z − v = 5 e^(−t/τ),
+    # ∫ y² = 25 τ/2 (closed form of the exponential integral, common practice).  The
+    # documented rounding bound is about eps·h‖M‖₁ (2e-10 here).
     tau = 1e-9
     M = np.array([[-1 / tau, 1 / tau], [0.0, 0.0]])
-    got = output_moments(M, np.array([0.0, 5.0]), 1.0, np.array([[-1.0, 1.0]]), np.array([[0, 0]]))
-    assert got.products[0] == pytest.approx(25 * tau / 2, rel=1e-12)
+    got = output_moments(M, np.array([0.0, 5.0]), 1e-3, np.array([[-1.0, 1.0]]), np.array([[0, 0]]))
+    assert got.products[0] == pytest.approx(25 * tau / 2, rel=1e-9)
+    assert got.linear[0] == pytest.approx(5 * tau, rel=1e-9)
 
 
 def _rc(R, C, V, until, step):
@@ -155,3 +157,34 @@ def test_every_source_edge_is_a_pair_of_rows():
         assert rows.size == 2
         assert w["voltage at in"][rows].tolist() == [before, after]
     assert np.all(np.diff(w.t) >= 0)
+
+
+FAST_RC_BATCH = """
+circuit "fast RC, spread capacitor"
+param C_x = 1 nF ± 20 % uniform
+ground gnd
+voltage_source V1 in -- gnd  dc 5 V
+resistor  R1  in -- out      1 Ω
+capacitor C1  out -- gnd     C_x  initial 0 V
+transient until 1 ms step 10 us method exact initial given
+record current through R1, power in R1
+"""
+
+
+def test_batch_energy_and_i2t_are_exact_per_sample():
+    # Each sample: ½ C V² dissipated and ∫ i² = V²C/(2R) (Nilsson & Riedel ch. 7), with the
+    # sample's own C, though the 10 µs rows never see the 1 ns decay.
+    from circuitode.netlist import loads
+    from circuitode.tolerance.batch import batch_figure_keys, run_chunk
+    from circuitode.tolerance.sampling import draw_samples, spreads_with_overrides
+
+    circuit = loads(FAST_RC_BATCH)
+    table = draw_samples(spreads_with_overrides(circuit), 16, "mc", 3)
+    probes, keys = batch_figure_keys(circuit)
+    res = run_chunk({"circuit": circuit, "names": table.names, "values": table.values, "start": 0,
+                     "keys": keys, "probes": probes, "method": "exact"})
+    C = table.values[:, table.names.index("C_x")]
+    energy = res["figures"][:, keys.index(("energy", "power in R1"))]
+    i2t = res["figures"][:, keys.index(("i2t", "current through R1"))]
+    assert np.allclose(energy, 0.5 * C * 25.0, rtol=1e-9, atol=0)
+    assert np.allclose(i2t, 25.0 * C / 2.0, rtol=1e-9, atol=0)

@@ -10,13 +10,42 @@ rms), the figures fall back to the trapezoid over the rows
 """
 from __future__ import annotations
 
-import math
 from typing import Any
 
-__all__ = ["INTEGRAL_FIGURES", "integral_figure"]
+import numpy as np
+
+__all__ = ["INTEGRAL_FIGURES", "figure_from_integrals", "integral_figure"]
 
 #: Figures that are integrals over the whole window.
 INTEGRAL_FIGURES = ("mean", "rms", "i2t", "energy")
+
+
+def figure_from_integrals(figure: str, first, square, length, unit: str):
+    """``figure`` from ∫ y dt and ∫ y² dt over a window of ``length`` s, or None.
+
+    first, square : scalars or arrays (one per sample), in unit·s and unit²·s; a NaN
+    ``square`` (a power signal, whose ∫ p² dt is not carried) gives None for rms and i2t.
+    Returns a float or an array in the figure's SI unit; None when the figure is not an
+    integral or cannot be formed from these (energy of a signal that is not a power).
+    """
+    if figure not in INTEGRAL_FIGURES or (figure == "energy" and unit != "W"):
+        return None
+    first = np.asarray(first, dtype=float)
+    square = np.asarray(square, dtype=float)
+    length = np.asarray(length, dtype=float)
+    if np.any(length <= 0):
+        return None
+    if figure == "energy":
+        value = first
+    elif figure == "mean":
+        value = first / length
+    elif np.all(np.isnan(square)):
+        return None
+    elif figure == "i2t":
+        value = square
+    else:
+        value = np.sqrt(np.maximum(square, 0.0) / length)
+    return float(value) if value.ndim == 0 else value
 
 
 def integral_figure(figure: str, waveforms: Any, label: str) -> float | None:
@@ -34,19 +63,8 @@ def integral_figure(figure: str, waveforms: Any, label: str) -> float | None:
     (then measure it on the rows).
     """
     integrals = getattr(waveforms, "integrals", None) or {}
-    if figure not in INTEGRAL_FIGURES or label not in integrals:
+    if label not in integrals:
         return None
-    unit = waveforms.units.get(label, "")
-    if figure == "energy" and unit != "W":
-        return None  # measure() explains why energy needs a power signal
     first, square = integrals[label]
     length = float(waveforms.t[-1] - waveforms.t[0])
-    if figure == "energy":
-        return float(first)
-    if figure == "mean":
-        return float(first) / length if length > 0 else None
-    if math.isnan(square):
-        return None
-    if figure == "i2t":
-        return float(square)
-    return math.sqrt(max(float(square), 0.0) / length) if length > 0 else None
+    return figure_from_integrals(figure, first, square, length, waveforms.units.get(label, ""))
