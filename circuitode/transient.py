@@ -31,6 +31,7 @@ from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method,
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from .checks.topology import verify
+from .extrema import refine_extrema
 from .window_integrals import IntegralTally
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
@@ -69,6 +70,8 @@ class Waveforms:
     integrals : label → (∫ y dt, ∫ y² dt) over the window from the integrator
     (exact with the exact method, error-controlled with the adaptive and implicit
     ones; for a power probe (∫ p dt, NaN)); empty when the method gives none (rk4).
+    extrema : label → :class:`~circuitode.extrema.Extremum`, the maximum and minimum of
+    each recorded voltage or current located between the rows (power: from the rows).
     """
 
     t: np.ndarray
@@ -85,6 +88,7 @@ class Waveforms:
     configurations: tuple[tuple[bool, ...], ...]
     warnings: tuple[str, ...] = field(default=())
     integrals: dict[str, tuple[float, float]] = field(default_factory=dict)
+    extrema: dict[str, object] = field(default_factory=dict)
 
     def __getitem__(self, label: str) -> np.ndarray:
         if label in self.signals:
@@ -508,6 +512,7 @@ class _Run:
                 y = y + uc.reshape(tc.size, -1) @ ss.D.T
             outputs[start:start + tc.size] = y
             start += tc.size
+        configs = [self.cache.get(c[3]) for c in self.chunks for _ in range(c[0].size)]
         signals, units, probes = {}, {}, {}
         for p in wanted:
             if isinstance(p, PowerIn):
@@ -523,4 +528,7 @@ class _Run:
             state_names=tuple(circuit.state_names), state_units=tuple(circuit.state_units),
             events=tuple(self.events), method=name, method_reason=reason,
             counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings,
-            integrals=self.tally.by_label())
+            integrals=self.tally.by_label(),
+            extrema=refine_extrema(t, states, configs, {
+                label: (row_of[label], signals[label]) for label in signals
+                if not isinstance(probes[label], PowerIn)}, self.bank, self.integrator.event_tol))

@@ -188,3 +188,23 @@ def test_batch_energy_and_i2t_are_exact_per_sample():
     i2t = res["figures"][:, keys.index(("i2t", "current through R1"))]
     assert np.allclose(energy, 0.5 * C * 25.0, rtol=1e-9, atol=0)
     assert np.allclose(i2t, 25.0 * C / 2.0, rtol=1e-9, atol=0)
+
+
+def test_series_rlc_peak_time_and_overshoot_located_between_rows():
+    # Series RLC step response of the capacitor voltage (underdamped): the peak comes at
+    # t_p = π/ω_d with overshoot exp(−ζπ/√(1−ζ²)) (Ogata, Modern Control Engineering, ch. 5;
+    # Nilsson & Riedel ch. 8), ω_n = 1/√(LC), ζ = (R/2)√(C/L).  Rows every T_d/7 with an
+    # offset, so no row falls on the peak.
+    R, L, C, V = 10.0, 1e-3, 1e-6, 12.0
+    wn, zeta = 1 / math.sqrt(L * C), R / 2 * math.sqrt(C / L)
+    wd = wn * math.sqrt(1 - zeta ** 2)
+    Td = 2 * math.pi / wd
+    w = simulate(_series_rlc(R, L, C, V), until=40 * Td + 0.3 * Td / 7, step=Td / 7, method="exact")
+    figures = summarise(w)["voltage at b"]
+    assert figures["time_of_peak"][0] == pytest.approx(math.pi / wd, rel=1e-9)
+    assert figures["peak"][0] == pytest.approx(V * (1 + math.exp(-zeta * math.pi / math.sqrt(1 - zeta ** 2))),
+                                               rel=1e-9)
+    assert figures["overshoot"][0] == pytest.approx(
+        100 * math.exp(-zeta * math.pi / math.sqrt(1 - zeta ** 2)), rel=1e-9)
+    # the rows alone miss it: the largest row is below the located peak
+    assert np.max(w["voltage at b"]) < figures["peak"][0] * (1 - 1e-4)

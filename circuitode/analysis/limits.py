@@ -21,7 +21,7 @@ import numpy as np
 
 from ..errors import CircuitodeError
 from .measure import FIGURE_UNITS, figure_unit, measure
-from .window_integrals import integral_figure
+from .between_rows import carried_figure
 
 __all__ = [
     "LimitError",
@@ -138,7 +138,7 @@ def check_requirements(requirements: Sequence[Any], waveforms: Any) -> list[Limi
                 f"{recorded}; record {label} as well"
             )
         unit = waveforms.units.get(label, getattr(requirement.probe, "unit", ""))
-        value = integral_figure(figure, waveforms, label)  # the run's own integrals, if any
+        value = carried_figure(figure, waveforms, label)  # integrals, located extrema
         if value is None:
             value = measure(figure, waveforms.t, waveforms.signals[label], signal_unit=unit)
         if np.ndim(value) != 0:

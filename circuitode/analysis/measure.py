@@ -36,7 +36,7 @@ from .figures import (
     undershoot,
 )
 from .figures._common import _checked
-from .window_integrals import integral_figure
+from .between_rows import carried_figure
 
 __all__ = [
     "MeasurementError",
@@ -264,7 +264,7 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
 def _whole_window(name: str, waveforms: Any, label: str, t, y, unit: str) -> Any:
     """A figure over the whole run: integrals from the run's own (exact or error-controlled)
     integrals when it carries them, anything else from the rows."""
-    carried = integral_figure(name, waveforms, label) if np.ndim(y) == 1 else None
+    carried = carried_figure(name, waveforms, label) if np.ndim(y) == 1 else None
     return carried if carried is not None else measure(name, t, y, signal_unit=unit)
 
 
