@@ -54,6 +54,32 @@ class Extremum:
         return abs(self.maximum), self.t_maximum
 
 
+def _solution(M: np.ndarray, w: np.ndarray, g: np.ndarray):
+    """(y(s), dy/ds(s)) for y = g·e^{Ms} w: by the eigenvectors of M when they are well
+    conditioned (a sum of exponentials, cheap to evaluate many times), else by expm."""
+    if M.shape[0]:
+        lam, V = np.linalg.eig(M)
+        if np.linalg.cond(V) < 1e4:
+            coef = (g @ V) * np.linalg.solve(V, w)
+
+            def value(s):
+                return float(np.real(np.sum(coef * np.exp(lam * s))))
+
+            def slope(s):
+                return float(np.real(np.sum(coef * lam * np.exp(lam * s))))
+
+            return value, slope
+    gM = g @ M
+
+    def value(s):
+        return float(g @ (expm(M * s) @ w))
+
+    def slope(s):
+        return float(gM @ (expm(M * s) @ w))
+
+    return value, slope
+
+
 def _candidates(y: np.ndarray) -> np.ndarray:
     """Rows (indices) of the largest discrete local maxima of y (a row no lower than
     its neighbours); at most CANDIDATES, largest first."""
@@ -120,18 +146,12 @@ def refine_extrema(t: np.ndarray, states: np.ndarray, configs: Sequence,
                     if found_system is None:
                         continue
                     M, w, G = found_system
-                    g = G[j]
-                    gM = g @ M
+                    value_at, slope_at = _solution(M, w, G[j])
                     h = float(gaps[i])
-
-                    def slope(s, gM=gM, M=M, w=w):
-                        return float(gM @ (expm(M * s) @ w)) * sign
-
-                    a, b = slope(0.0), slope(h)
-                    if not (a > 0 > b):
+                    if not (sign * slope_at(0.0) > 0 > sign * slope_at(h)):
                         continue
-                    s = brentq(slope, 0.0, h, xtol=xtol, rtol=4 * np.finfo(float).eps)
-                    found = float(g @ (expm(M * s) @ w))
+                    s = brentq(slope_at, 0.0, h, xtol=xtol, rtol=4 * np.finfo(float).eps)
+                    found = value_at(s)
                     if sign * found > sign * value:
                         value, when = found, float(t[i]) + s
             best[sign] = (value, when)  # value is y itself (sign only chose the direction)

@@ -512,7 +512,7 @@ class _Run:
                 y = y + uc.reshape(tc.size, -1) @ ss.D.T
             outputs[start:start + tc.size] = y
             start += tc.size
-        configs = [self.cache.get(c[3]) for c in self.chunks for _ in range(c[0].size)]
+        configs = [ss for c in self.chunks for ss in [self.cache.get(c[3])] * c[0].size]
         signals, units, probes = {}, {}, {}
         for p in wanted:
             if isinstance(p, PowerIn):
