@@ -9,11 +9,8 @@ and the circuit is ``x' = A x + B u``, which an integrator from
 and the run restarts with the states carried over — capacitor voltages and
 inductor currents are continuous across every switching instant.
 
-At each switching instant and each source breakpoint (pulse edge, corner of a
-piecewise-linear source) two rows share the same time: the values just before
-and just after, so jumps stay sharp and no corner falls between rows.  The
-integrals of every recorded quantity over the window come from the integrator
-itself (:mod:`circuitode.window_integrals`), not from the rows.
+At each switching instant and source breakpoint two rows share the same time:
+the values just before and just after, so jumps of currents stay sharp.
 """
 from __future__ import annotations
 
@@ -23,7 +20,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .model.circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from .model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from .model.configurations import reachable_configurations
 from .errors import CircuitodeError
@@ -31,13 +28,12 @@ from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method,
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from .checks.topology import verify
-from .extrema import refine_extrema
+from .carried import carried_by_run
+from .run_settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
 from .window_integrals import IntegralTally
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
-#: Output points when neither a step nor a number of points is given.
-DEFAULT_POINTS = 2001
 #: Threshold instants are located to this fraction of the window (or better).
 EVENT_TOL_FRACTION = 1e-12
 
@@ -67,11 +63,8 @@ class Waveforms:
     "rhs_evaluations", "expm_calls", …).
     configurations : switch-state tuples used, in order of first use.
     warnings : topology warnings (diagnostics of severity "warning"), as text.
-    integrals : label → (∫ y dt, ∫ y² dt) over the window from the integrator
-    (exact with the exact method, error-controlled with the adaptive and implicit
-    ones; for a power probe (∫ p dt, NaN)); empty when the method gives none (rk4).
-    extrema : label → :class:`~circuitode.extrema.Extremum`, the maximum and minimum of
-    each recorded voltage or current located between the rows (power: from the rows).
+    integrals, extrema, fastest_seen_rate : what the run carries beyond its rows
+    (window integrals, located extrema, fastest mode seen; :mod:`circuitode.carried`).
     """
 
     t: np.ndarray
@@ -89,6 +82,7 @@ class Waveforms:
     warnings: tuple[str, ...] = field(default=())
     integrals: dict[str, tuple[float, float]] = field(default_factory=dict)
     extrema: dict[str, object] = field(default_factory=dict)
+    fastest_seen_rate: float = 0.0
 
     def __getitem__(self, label: str) -> np.ndarray:
         if label in self.signals:
@@ -109,81 +103,6 @@ class Waveforms:
         with open(path, "w", newline="", encoding="utf-8") as handle:
             csv.writer(handle).writerow(header)
             np.savetxt(handle, data, delimiter=",", fmt="%.12g")
-
-
-# --------------------------------------------------------------------------
-# Settings
-# --------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class _Settings:
-    until: float
-    step: float | None
-    points: int
-    method: str
-    initial: str
-
-
-def _number(value, what: str) -> float | None:
-    """``value`` as a float (None stays None), or our error naming the setting."""
-    if value is None:
-        return None
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise CircuitodeError(f"{what} must be a number, got {value!r}") from None
-    if not np.isfinite(number):
-        raise CircuitodeError(f"{what} must be a finite number, got {value!r}")
-    return number
-
-
-def _settings(circuit: Circuit, method, step, until, points, initial) -> _Settings:
-    if not isinstance(circuit, Circuit):
-        raise CircuitodeError(
-            f"simulate needs a Circuit (from circuitode.load), got {type(circuit).__name__}")
-    a = circuit.analysis
-    until = until if until is not None else (a.until if a is not None else None)
-    if until is None:
-        raise CircuitodeError(
-            "no end time for the transient: add `transient until …` to the netlist or pass --until")
-    step = step if step is not None else (a.step if a is not None else None)
-    points = points if points is not None else (a.points if a is not None else None)
-    method = method if method is not None else (a.method if a is not None else "auto")
-    initial = initial if initial is not None else (a.initial if a is not None else "given")
-    until, step, points = (_number(until, "the end time (until)"), _number(step, "the step"),
-                           _number(points, "points"))
-    if not until > 0:
-        raise CircuitodeError(f"the transient end time must be a positive number of seconds, got {until!r}")
-    if step is not None and not (0 < step <= until):
-        raise CircuitodeError(
-            f"the step must be a positive time no longer than the window ({until:g} s), got {step!r}")
-    if points is None:
-        points = DEFAULT_POINTS
-    if int(points) != points or points < 2:
-        raise CircuitodeError(f"points must be a whole number of at least 2, got {points!r}")
-    if step is not None and until / step > 5e7:
-        raise CircuitodeError(
-            f"step {step:g} s over {until:g} s would record {until / step:.3g} points; use a larger step")
-    if initial not in INITIAL_STATES:
-        raise CircuitodeError(
-            f"unknown initial state {initial!r}; choose one of: {', '.join(INITIAL_STATES)}")
-    return _Settings(float(until), None if step is None else float(step), int(points),
-                     str(method).strip().lower(), initial)
-
-
-def _output_grid(s: _Settings) -> np.ndarray:
-    """Requested output times (s): every step from 0 (and ``until``), else ``points`` evenly."""
-    if s.step is None:
-        return np.linspace(0.0, s.until, s.points)
-    count = int(np.floor(s.until / s.step * (1 + 1e-12)))
-    grid = s.step * np.arange(count + 1)
-    grid = grid[grid <= s.until]
-    if s.until - grid[-1] > 1e-9 * s.step:
-        grid = np.append(grid, s.until)
-    else:
-        grid[-1] = s.until
-    return grid
 
 
 # --------------------------------------------------------------------------
@@ -410,12 +329,10 @@ class _Run:
             self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0),
             np.array([c[0] for c in schedule if c[0] > 0], dtype=float), [until]]))
         pending = [k for k, sw in enumerate(circuit.switches) if isinstance(sw.control, ThresholdRule)]
-        corners = self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0)
+        self.corners = self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0)
         queue = list(schedule)
         t = 0.0
-        at_corner = False
         while True:
-            events_before = len(self.events)
             # scheduled changes due now
             while queue and queue[0][0] <= t + self.slack:
                 _, k, state = queue.pop(0)
@@ -425,8 +342,6 @@ class _Run:
                                          _schedule_reason(circuit.switches[k]))
             if t >= until - self.slack:
                 break
-            if at_corner and len(self.events) == events_before:  # a source corner: two rows
-                self.corner(t, x, closed)
             t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
             ss = self.cache.get(closed)
             self.used.setdefault(closed, None)
@@ -455,11 +370,9 @@ class _Run:
             self.record(result.t, result.x, segment.input_values(result.t), closed)
             self.next_grid += result.t.size
             x = np.asarray(result.x_end, dtype=float)
-            at_corner = False
             if result.event_time is None:
                 t = t_next
-                at_corner = bool(corners.size) and bool(
-                    np.min(np.abs(corners - t)) <= self.slack)
+                self.corner(t, x, closed, queue)
                 continue
             k = pending.pop(result.event_index)
             te = float(result.event_time)
@@ -468,11 +381,13 @@ class _Run:
                                  _threshold_reason(circuit.switches[k]))
             t = te
 
-    def corner(self, t, x, closed):
-        """Record the rows just before and after a source breakpoint at ``t`` (s)."""
+    def corner(self, t, x, closed, queue):
+        """Rows just before and after a source breakpoint at ``t`` (s), unless a switch acts then."""
+        if not (self.corners.size and np.min(np.abs(self.corners - t)) <= self.slack) or any(
+                c[0] <= t + self.slack and closed[c[1]] != c[2] for c in queue):
+            return
         u_b, u_a = self._inputs_around(t)
-        self.record([t], x[None, :], u_b[None, :], closed)
-        self.record([t], x[None, :], u_a[None, :], closed)
+        self.record([t, t], np.stack([x, x]), np.stack([u_b, u_a]), closed)
         while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
             self.next_grid += 1
 
@@ -512,7 +427,6 @@ class _Run:
                 y = y + uc.reshape(tc.size, -1) @ ss.D.T
             outputs[start:start + tc.size] = y
             start += tc.size
-        configs = [ss for c in self.chunks for ss in [self.cache.get(c[3])] * c[0].size]
         signals, units, probes = {}, {}, {}
         for p in wanted:
             if isinstance(p, PowerIn):
@@ -528,7 +442,6 @@ class _Run:
             state_names=tuple(circuit.state_names), state_units=tuple(circuit.state_units),
             events=tuple(self.events), method=name, method_reason=reason,
             counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings,
-            integrals=self.tally.by_label(),
-            extrema=refine_extrema(t, states, configs, {
-                label: (row_of[label], signals[label]) for label in signals
-                if not isinstance(probes[label], PowerIn)}, self.bank, self.integrator.event_tol))
+            **carried_by_run(t, states, [ss for c in self.chunks for ss in [self.cache.get(c[3])] * c[0].size],
+                             [self.cache.get(c) for c in self.used], signals, probes, row_of, self.tally,
+                             self.bank, self.integrator.event_tol))
