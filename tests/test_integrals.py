@@ -208,3 +208,45 @@ def test_series_rlc_peak_time_and_overshoot_located_between_rows():
         100 * math.exp(-zeta * math.pi / math.sqrt(1 - zeta ** 2)), rel=1e-9)
     # the rows alone miss it: the largest row is below the located peak
     assert np.max(w["voltage at b"]) < figures["peak"][0] * (1 - 1e-4)
+
+
+def test_coarse_step_warns_with_the_step_that_resolves_it(tmp_path, capsys):
+    # The 1 Ω / 1 nF case at a 10 µs step, as a new user runs it: exact energy and I²t
+    # printed (½CV² = 12.5 nJ, V²C/2R = 12.5 nA²s; Nilsson & Riedel ch. 7) and a warning,
+    # under the table and in summary.json, naming the 1 ns time constant as the step to use.
+    import json
+
+    from circuitode.cli import main
+
+    netlist = tmp_path / "fast.cnet"
+    netlist.write_text('circuit "fast"\nground gnd\nvoltage_source V1 in -- gnd dc 5 V\n'
+                       "resistor R1 in -- out 1 Ω\ncapacitor C1 out -- gnd 1 nF initial 0 V\n"
+                       "transient until 1 ms step 10 us\nrecord current through R1, power in R1\n",
+                       encoding="utf-8")
+    assert main(["run", str(netlist), "--out", str(tmp_path / "o"), "--no-plots"]) == 0
+    text = capsys.readouterr().out
+    assert "energy 12.5 nJ" in text and "I²t 12.5 nA²s" in text
+    table_end = text.index("power in R1")
+    warning = text.index("warning: the output step 10 µs")
+    assert warning > table_end and "a step of 1 ns or less" in text.replace("\n", " ")
+    summary = json.loads((tmp_path / "o" / "summary.json").read_text(encoding="utf-8"))
+    assert any("time constant 1 ns" in w for w in summary["warnings"])
+
+
+def test_a_resolving_step_gives_no_warning():
+    # Same RC with τ = 1 ms and a 10 µs step: h·|λ| = 0.01, nothing to warn about.
+    from circuitode.analysis.resolution import resolution_warnings
+
+    w = simulate(_rc(1e3, 1e-6, 10.0, 5e-3, 10e-6), until=5e-3, step=10e-6, method="exact")
+    assert w.fastest_seen_rate == pytest.approx(1e3, rel=1e-12)
+    assert resolution_warnings(w) == []
+
+
+def test_final_carries_a_settled_flag():
+    # A series RLC still ringing at the end of a short window has not settled; the same
+    # circuit after 40 decay constants has (decay e^(−αt), α = R/2L; Nilsson & Riedel ch. 8).
+    R, L, C, V = 10.0, 1e-3, 1e-6, 12.0
+    short = summarise(simulate(_series_rlc(R, L, C, V), until=0.5e-3, step=1e-6, method="exact"))
+    long = summarise(simulate(_series_rlc(R, L, C, V), until=8e-3, step=1e-6, method="exact"))
+    assert short["voltage at b"]["settled"][0] is False
+    assert long["voltage at b"]["settled"][0] is True

@@ -31,6 +31,7 @@ from .figures import (
     peak,
     rise_time,
     rms,
+    settled,
     settling_time,
     time_of_peak,
     undershoot,
@@ -231,7 +232,9 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
     numpy values (floats for a single run); figures that do not apply are NaN —
     in particular the step figures (overshoot, undershoot, rise and settling time)
     of a signal that returns to where it began, such as an inrush current pulse,
-    or that has not settled by the end of the run (AC, still ringing).  Mean, rms, I²t
+    or that has not settled by the end of the run (AC, still ringing).  ``settled``
+    (a bool, unit "") says whether ``final`` is a final state level (see
+    :func:`~circuitode.analysis.figures.levels.settled`).  Mean, rms, I²t
     and energy come from the run's own integrals when it carries them
     (``waveforms.integrals``; exact with the exact method), else from the rows.  Default options
     throughout: the time of peak is an instant on the run's clock, and the settling
@@ -257,6 +260,8 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
             if name in _STEP_FIGURES:
                 value = np.where(no_step, np.nan, value)
             row[name] = (_plain(value), figure_unit(name, unit))
+        flag = settled(t, y)  # is `final` a final state level or a snapshot of motion?
+        row["settled"] = (bool(flag) if np.ndim(flag) == 0 else flag, "")
         out[label] = row
     return out
 

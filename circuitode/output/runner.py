@@ -125,6 +125,7 @@ def run_job(
 def summary_of(result: JobResult) -> dict[str, Any]:
     """The JSON summary body of a run (numbers in SI, units beside them)."""
     from ..analysis.modes import mode_rows
+    from ..analysis.resolution import resolution_warnings
     from .report import requirement_words
 
     w = result.waveforms
@@ -164,6 +165,7 @@ def summary_of(result: JobResult) -> dict[str, Any]:
             }
             for cfg in result.modes
         ],
+        "warnings": list(w.warnings) + resolution_warnings(w),
         "files": {k: str(v) for k, v in result.files.items()},
         "problems": list(result.problems),
     }
