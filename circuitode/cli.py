@@ -85,6 +85,8 @@ def build_parser() -> argparse.ArgumentParser:
                    metavar="NAME=VALUE", help="replace a param value, e.g. --set R_pre=47Ω (repeatable)")
     p.add_argument("--out", type=Path, help="run folder (default: <netlist>-results next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+    p.add_argument("--insist", action="store_true",
+                   help="run rk45 or dop853 even on a circuit too stiff for them (refused otherwise)")
 
     p = sub.add_parser("modes", help="damping table (ζ, ωn, Q, τ) of every switch configuration")
     p.add_argument("netlist", help="a .cnet file")
@@ -145,7 +147,7 @@ def _run(args: argparse.Namespace) -> int:
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
     result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
-                     plots=not args.no_plots)
+                     plots=not args.no_plots, insist=args.insist)
     print(run_text(circuit, result.waveforms, result.figures, result.limits, result.files, path=args.netlist))
     for problem in result.problems:
         print(f"warning: {problem}", file=sys.stderr)

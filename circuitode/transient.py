@@ -25,6 +25,7 @@ from .model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedu
 from .model.configurations import reachable_configurations
 from .errors import CircuitodeError
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
+from .solvers.explicit_guard import check_explicit_work
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from .checks.topology import verify
@@ -193,9 +194,9 @@ def _schedule_reason(sw: Switch) -> str:
     return f"{sw.name} follows its {kind} schedule"
 
 
-def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, atol):
-    """(integrator, name, reason); for rk4, the step is first checked against every
-    configuration the run may reach."""
+def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, atol, insist=False):
+    """(integrator, name, reason); for rk4 the step, for rk45/dop853 the least step count
+    (unless ``insist``), is first checked against every configuration the run may reach."""
     rk4_step = s.step if s.step is not None else s.until / (s.points - 1)
     if n == 0:
         name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
@@ -211,12 +212,17 @@ def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, ato
         confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until)]))
         for conf, eig in _eigenvalue_sets(cache, confs):
             check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
+    if integrator.adaptive and not integrator.stiff and n and not insist and s.method != "auto":
+        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until)]))
+        for conf, eig in _eigenvalue_sets(cache, confs):
+            check_explicit_work(name, eig, s.until, where=describe_configuration(circuit, conf))
     return integrator, name, reason
 
 
 def simulate(circuit: Circuit, *, method: str | None = None, step: float | None = None,
              until: float | None = None, points: int | None = None, initial: str | None = None,
-             rtol: float = 1e-6, atol: float = 1e-9, probes: Sequence | None = None) -> Waveforms:
+             rtol: float = 1e-6, atol: float = 1e-9, probes: Sequence | None = None,
+             insist: bool = False) -> Waveforms:
     """Simulate the transient of ``circuit`` from t = 0 to ``until``.
 
     Parameters
@@ -230,6 +236,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     rtol, atol : error tolerances of the adaptive and implicit methods.
     probes : what to record instead of ``circuit.records`` (requirement and
         threshold probes are always added).
+    insist : run rk45 or dop853 even when a stiff circuit makes them hopeless.
 
     Returns
     -------
@@ -239,7 +246,8 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     ------
     CircuitodeError (exit code 2) for bad settings, TopologyError for a circuit
     that cannot be simulated, UnstableStepError (exit code 3) for an rk4 step
-    outside the stability region of any reachable configuration.
+    outside the stability region of any reachable configuration, or an rk45/dop853
+    run a stiff circuit makes hopeless (see :mod:`circuitode.solvers.explicit_guard`).
 
     Examples
     --------
@@ -277,7 +285,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     ss0 = cache.get(start)
     n = ss0.n_states
 
-    integrator, name, reason = _pick_integrator(circuit, cache, s, start, schedule, n, rtol, atol)
+    integrator, name, reason = _pick_integrator(circuit, cache, s, start, schedule, n, rtol, atol, insist)
 
     # -- initial state ---------------------------------------------------
     u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)

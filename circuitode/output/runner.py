@@ -69,6 +69,7 @@ def run_job(
     until: float | None = None,
     plots: bool = True,
     with_modes: bool = True,
+    insist: bool = False,
 ) -> JobResult:
     """Simulate a netlist, measure it, check its limits and write its run folder.
 
@@ -80,6 +81,7 @@ def run_job(
     method, step (s), until (s) : override the netlist's transient statement.
     plots : draw the PNG.
     with_modes : include the modal damping table of every reachable configuration.
+    insist : run rk45/dop853 even when the circuit is too stiff for them.
 
     Raises
     ------
@@ -91,7 +93,7 @@ def run_job(
     from ..transient import simulate
 
     circuit = load_any(source, overrides)
-    waveforms = simulate(circuit, method=method, step=step, until=until)
+    waveforms = simulate(circuit, method=method, step=step, until=until, insist=insist)
     result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
 
     out = Path(out_dir) if out_dir is not None else None
