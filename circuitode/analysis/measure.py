@@ -267,7 +267,7 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
 
 
 def _whole_window(name: str, waveforms: Any, label: str, t, y, unit: str) -> Any:
-    """A figure over the whole run: integrals from the run's own (exact or error-controlled)
+    """A figure over the whole run: integrals from the run's own (exact, or over the method's dense output)
     integrals when it carries them, anything else from the rows."""
     carried = carried_figure(name, waveforms, label) if np.ndim(y) == 1 else None
     return carried if carried is not None else measure(name, t, y, signal_unit=unit)

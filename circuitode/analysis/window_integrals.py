@@ -2,8 +2,8 @@
 
 A transient run keeps, for every recorded quantity, ∫ y dt and ∫ y² dt over its
 window as computed by the integrator (``Waveforms.integrals``): exact to rounding
-with the exact method, under the solver's error control with the adaptive and
-implicit ones.  These figures then do not depend on the output step.  Where the
+with the exact method, over the method's own dense output with the adaptive
+and implicit ones.  These figures then do not depend on the output step.  Where the
 run has no such integrals (rk4, a hand-made waveform object, a power signal's
 rms), the figures fall back to the trapezoid over the rows
 (:mod:`circuitode.analysis.figures.integrals`).

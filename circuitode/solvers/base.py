@@ -222,7 +222,7 @@ class Integrator:
     exact = False
     uses_jacobian = False
     #: True when the method can integrate outputs (``solve(..., integrals=...)``): exactly
-    #: (``exact``) or as extra states under its own error control.
+    #: (``exact``) or over its own dense output (the adaptive and implicit methods).
     integrates_outputs = False
 
     def __init__(self, *, step: float | None = None, rtol: float = 1e-6, atol: float = 1e-9,

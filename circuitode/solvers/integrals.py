@@ -1,4 +1,4 @@
-"""Integrals of outputs over a segment: ∫ y dt and ∫ y_a y_b dt, exactly or as extra states.
+"""Integrals of outputs over a segment: ∫ y dt and ∫ y_a y_b dt, from the solution itself.
 
 A run's energy, I²t, rms and mean are integrals of the outputs ``y = C x + D u``
 (and of products of two outputs: ``p = v·i``).  Computed from the sampled rows
@@ -34,9 +34,10 @@ Automatic Control, 1978 — cited from memory.)
 
 Other methods
 -------------
-:func:`quadrature_rates` gives the derivatives of the extra states
-``r = ∫ y dt`` and ``s = ∫ y_a y_b dt`` so an integrator can carry them along
-with ``x`` under its own error control.
+The adaptive and implicit methods integrate the same outputs over their own
+dense output (:func:`circuitode.solvers.scipy_ivp._interpolant_integrals`):
+what the method says the solution is between its steps, so the integrals
+carry the method's error, not the output step's.
 """
 from __future__ import annotations
 
@@ -45,7 +46,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["OutputIntegrals", "IntegralValues", "moment_operators", "apply_moments", "output_moments",
-           "exact_output_integrals", "quadrature_rates"]
+           "exact_output_integrals"]
 
 #: ‖M‖₁ h₀ at most this on the first short interval; the rest is done by doubling.
 _SHORT = 0.5
@@ -72,11 +73,6 @@ class OutputIntegrals:
         object.__setattr__(self, "D", D)
         object.__setattr__(self, "pairs", pairs)
 
-    @property
-    def size(self) -> int:
-        """Number of extra states: k outputs plus p products."""
-        return self.C.shape[0] + self.pairs.shape[0]
-
 
 @dataclass(frozen=True)
 class IntegralValues:
@@ -88,11 +84,6 @@ class IntegralValues:
     def __add__(self, other: "IntegralValues") -> "IntegralValues":
         return IntegralValues(self.linear + other.linear, self.products + other.products)
 
-    @classmethod
-    def from_states(cls, extra: np.ndarray, k: int) -> "IntegralValues":
-        """Split the extra states [r; s] of :func:`quadrature_rates` (k + p,)."""
-        extra = np.asarray(extra, dtype=float).reshape(-1)
-        return cls(extra[:k].copy(), extra[k:].copy())
 
 
 def _short_exponentials(M: np.ndarray, s: np.ndarray) -> np.ndarray:
@@ -179,15 +170,3 @@ def exact_output_integrals(request: OutputIntegrals, M: np.ndarray, w0: np.ndarr
     if q and request.D.size:
         G[:, n:] = request.D @ H
     return output_moments(M, np.asarray(w0, dtype=float), float(h), G, request.pairs)
-
-
-def quadrature_rates(request: OutputIntegrals, x: np.ndarray, u: np.ndarray) -> np.ndarray:
-    """Derivatives of the extra states [∫ y; ∫ y_a y_b] for states in columns.
-
-    x : (n, c) states.  u : (m, c) inputs.  Returns (k + p, c).
-    """
-    y = request.C @ x
-    if request.D.size:
-        y = y + request.D @ u
-    a, b = request.pairs[:, 0], request.pairs[:, 1]
-    return np.concatenate([y, y[a] * y[b]], axis=0)

@@ -15,10 +15,19 @@ import scipy.sparse as sp
 
 from ..errors import IntegrationError
 from .base import Integrator, SegmentResult, generator_matrices
-from .integrals import IntegralValues, quadrature_rates
+from .integrals import IntegralValues
 
-__all__ = ["ScipyIntegrator", "RK45", "DOP853", "Radau", "BDF", "SPARSE_FROM"]
+__all__ = ["ScipyIntegrator", "RK45", "DOP853", "Radau", "BDF", "SPARSE_FROM", "INTERPOLATION_REACH",
+           "ROW_ERROR_FACTOR"]
 
+#: The largest step is at most this many output steps: the rows come from the
+#: method's dense interpolant, whose error over a step as long as a whole segment
+#: reached 10× rtol (DOP853 on an RC charge over 40 ms); with this bound the
+#: worst row error on the RC, RLC and coupled-inductor checks is below
+#: ROW_ERROR_FACTOR × (rtol·max|y| + atol) (tests/test_method_accuracy.py).
+INTERPOLATION_REACH = 100
+#: The documented bound on row errors, in units of rtol·max|y| + atol (see above).
+ROW_ERROR_FACTOR = 10.0
 #: Systems with at least this many states and at most 10 % nonzeros get a sparse Jacobian.
 SPARSE_FROM = 200
 
@@ -61,6 +70,37 @@ def _constant_inputs(segment) -> np.ndarray | None:
     return H @ z0 if not np.any(F) else None
 
 
+#: Gauss–Legendre nodes per accepted step for the output integrals: exact for the
+#: polynomial interpolants (degree ≤ 7 for DOP853, so y² has degree ≤ 14 < 2·8).
+_QUADRATURE_NODES = 8
+
+
+def _interpolant_integrals(dense, segment, held, request, end: float) -> IntegralValues:
+    """∫ y dt and ∫ y_a y_b dt from t0 to ``end`` over the method's own dense output
+    (its interpolant between accepted steps), by Gauss–Legendre per step.
+
+    The interpolant is what the method itself says the solution is between its steps,
+    so the integrals carry the method's error (not the output step's); the steps and
+    their error control are those of the plain run.
+    """
+    ts = np.asarray(dense.ts, dtype=float)
+    ts = np.unique(np.clip(ts, segment.t0, end))
+    a, b = ts[:-1], ts[1:]
+    x, w = np.polynomial.legendre.leggauss(_QUADRATURE_NODES)
+    nodes = (0.5 * (a[:, None] + b[:, None]) + 0.5 * (b - a)[:, None] * x[None, :]).reshape(-1)
+    weights = (0.5 * (b - a)[:, None] * w[None, :]).reshape(-1)
+    if nodes.size == 0:
+        return IntegralValues(np.zeros(request.C.shape[0]), np.zeros(request.pairs.shape[0]))
+    states = np.asarray(dense(nodes), dtype=float).reshape(segment.n_states, nodes.size)
+    y = request.C @ states
+    if request.D.size:
+        u = np.broadcast_to(held[:, None], (held.size, nodes.size)) if held is not None \
+            else segment.input_values(nodes).T
+        y = y + request.D @ u
+    products = y[request.pairs[:, 0]] * y[request.pairs[:, 1]]
+    return IntegralValues(y @ weights, products @ weights)
+
+
 class ScipyIntegrator(Integrator):
     """Common driver for the solve_ivp methods; subclasses name the scipy class."""
 
@@ -75,26 +115,12 @@ class ScipyIntegrator(Integrator):
         if held is not None:  # inputs constant on the segment: no source evaluation per call
             b = B @ held
 
-            def circuit_rhs(t, x):
+            def rhs(t, x):
                 return A @ x + (b[:, None] if x.ndim == 2 else b)
         else:
-            def circuit_rhs(t, x):
+            def rhs(t, x):
                 forced = B @ segment.input_values(np.array([t]))[0]
                 return A @ x + (forced[:, None] if x.ndim == 2 else forced)
-
-        if integrals is None:
-            rhs = circuit_rhs
-        else:  # carry ∫ y and ∫ y_a y_b as extra states under the same error control
-            def rhs(t, xa):
-                x = xa[:n]
-                columns = x if x.ndim == 2 else x[:, None]
-                u = held if held is not None else segment.input_values(np.array([t]))[0]
-                u = np.repeat(u[:, None], columns.shape[1], axis=1)
-                rates = quadrature_rates(integrals, columns, u)
-                dx = circuit_rhs(t, x)
-                if x.ndim == 1:
-                    return np.concatenate([dx, rates[:, 0]])
-                return np.concatenate([dx, rates], axis=0)
 
         tiny = np.finfo(float).tiny
 
@@ -102,7 +128,6 @@ class ScipyIntegrator(Integrator):
             # solve_ivp fires on g = 0 → 0; nudging "not yet met" values off zero makes it
             # fire only when the quantity passes the level (LinearEvent.met), not on a touch.
             def g(t, x):
-                x = x[:n]
                 u = held[None, :] if held is not None else segment.input_values(np.array([t]))
                 value = float(event.value(x, u)[0])
                 if event.rising:
@@ -114,32 +139,28 @@ class ScipyIntegrator(Integrator):
             return g
 
         span = segment.t1 - segment.t0
+        longest = min(self.step, span) if self.step else span
+        if t_out.size > 1:  # keep the interpolant that gives the rows within reach of steps
+            longest = min(longest, INTERPOLATION_REACH * float(np.max(np.diff(t_out))))
         options = {
             "rtol": self.rtol,
             "atol": self.atol,
-            "max_step": min(self.step, span) if self.step else span,
+            "max_step": longest,
             "vectorized": True,
         }
-        extra = 0 if integrals is None else integrals.size
         if self.uses_jacobian:
-            # the extra states never feed back; their Jacobian rows (∂(y_a y_b)/∂x vary with
-            # x) are left out, which the simplified Newton iteration tolerates
-            jac = A
-            if extra:
-                jac = np.zeros((n + extra, n + extra))
-                jac[:n, :n] = A
-                jac[n:n + integrals.C.shape[0], :n] = integrals.C
-            options["jac"] = jacobian_for(jac)
+            options["jac"] = jacobian_for(A)
         tally = {"steps": 0}
         # solve_ivp wants strictly increasing t_eval; t1 is last so the end state is known
         t_eval = np.unique(np.append(t_out, segment.t1))
         sol = si.solve_ivp(
             rhs,
             (segment.t0, segment.t1),
-            np.concatenate([segment.x0, np.zeros(extra)]),
+            segment.x0,
             method=_counting(self.scipy_method, tally),
             t_eval=t_eval,
             events=[make_event(e) for e in events] or None,
+            dense_output=integrals is not None,
             **options,
         )
         if sol.status < 0:
@@ -159,14 +180,16 @@ class ScipyIntegrator(Integrator):
             x_end = sol.y[:, -1]
         # solve_ivp leaves t and y as empty lists when an event fires before any t_eval
         times = np.asarray(sol.t, dtype=float).reshape(-1)
-        states = np.asarray(sol.y, dtype=float).reshape(n + extra, times.size)
+        states = np.asarray(sol.y, dtype=float).reshape(n, times.size)
         reached = times[times < event_time] if event_time is not None else times
         t_kept = t_out[t_out < event_time] if event_time is not None else t_out
         idx = np.searchsorted(reached, t_kept)
-        found = None if integrals is None else IntegralValues.from_states(
-            x_end[n:], integrals.C.shape[0])
-        return SegmentResult(t_kept.copy(), states[:n, idx].T.copy(),
-                             event_time, event_index, np.asarray(x_end[:n], dtype=float), counters,
+        found = None
+        if integrals is not None:
+            end = event_time if event_time is not None else segment.t1
+            found = _interpolant_integrals(sol.sol, segment, held, integrals, end)
+        return SegmentResult(t_kept.copy(), states[:, idx].T.copy(),
+                             event_time, event_index, np.asarray(x_end, dtype=float), counters,
                              found)
 
 
