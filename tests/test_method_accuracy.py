@@ -86,6 +86,11 @@ def _event_bound(method, level):
     return ROW_ERROR_FACTOR * (RTOL * level + ATOL) / slope
 
 
+#: Event-time errors measured when this was written (s); the README table quotes them.
+MEASURED_EVENT_ERROR = {"exact": 9e-18, "rk4": 1e-17, "rk45": 2.2e-12, "dop853": 6e-18,
+                        "radau": 4.1e-11, "bdf": 5.5e-10}
+
+
 @pytest.mark.parametrize("method", ["exact", "rk4", "rk45", "dop853", "radau", "bdf"])
 def test_threshold_instants_meet_the_documented_bound(method):
     level = 5.0
@@ -93,3 +98,5 @@ def test_threshold_instants_meet_the_documented_bound(method):
     expected = R * C * math.log(V / (V - level))
     error = abs(w.events[0].time - expected)
     assert error < _event_bound(method, level)
+    # the README's number is still the truth (rounding-level values: within 1e-16 s)
+    assert error < max(2 * MEASURED_EVENT_ERROR[method], 1e-16)
