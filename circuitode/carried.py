@@ -12,7 +12,7 @@ from typing import Sequence
 
 import numpy as np
 
-from .extrema import refine_extrema
+from .extrema import BetweenRows, refine_extrema
 from .model.circuit import PowerIn
 from .solvers.visibility import fastest_seen_rate
 from .window_integrals import IntegralTally
@@ -22,7 +22,8 @@ __all__ = ["carried_by_run"]
 
 def carried_by_run(t: np.ndarray, states: np.ndarray, configs: Sequence, used: Sequence, signals: dict,
                    probes: dict, row_of: dict, tally: IntegralTally, bank, event_tol: float) -> dict:
-    """The keyword fields ``integrals``, ``extrema`` and ``fastest_seen_rate`` of ``Waveforms``.
+    """The keyword fields ``integrals``, ``extrema``, ``between`` and ``fastest_seen_rate`` of
+    ``Waveforms``.
 
     t : (nt,) s.  states : (nt, n).  configs : (nt,) StateSpace in force after each row.
     used : the StateSpaces of the configurations used.  signals, probes : by label.
@@ -34,5 +35,6 @@ def carried_by_run(t: np.ndarray, states: np.ndarray, configs: Sequence, used: S
     return {
         "integrals": tally.by_label(),
         "extrema": refine_extrema(t, states, configs, linear, bank, event_tol),
+        "between": BetweenRows(t, states, configs, {label: j for label, (j, _) in linear.items()}, bank),
         "fastest_seen_rate": max((fastest_seen_rate(ss.A, ss.C) for ss in used), default=0.0),
     }

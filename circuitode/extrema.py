@@ -31,7 +31,7 @@ from scipy.optimize import brentq
 from .solvers.base import generator_matrices
 from .solvers.exact import augmented_matrix
 
-__all__ = ["CANDIDATES", "Extremum", "refine_extrema"]
+__all__ = ["CANDIDATES", "Extremum", "BetweenRows", "refine_extrema"]
 
 #: Discrete local maxima (and minima) of the rows refined per quantity.
 CANDIDATES = 6
@@ -90,6 +90,51 @@ def _candidates(y: np.ndarray) -> np.ndarray:
     return local[order[:CANDIDATES]]
 
 
+class BetweenRows:
+    """Values of linear recorded quantities at any instant of the window, from the row
+    before it by the exact propagation of its segment (see the module docstring).
+
+    t : (nt,) s.  states : (nt, n).  configs : (nt,) StateSpace in force after each row.
+    rows : label → output row of C, D.  bank : the sources.
+    """
+
+    def __init__(self, t, states, configs, rows: dict[str, int], bank):
+        self.t, self.states, self.configs, self.rows, self.bank = t, states, configs, rows, bank
+        self._systems: dict = {}
+
+    def knows(self, label: str) -> bool:
+        return label in self.rows
+
+    def function(self, label: str, i: int):
+        """y(τ) of ``label`` for t[i] ≤ t[i] + τ ≤ t[i + 1] (τ in s), or None when the interval
+        is empty or its inputs have no linear generator."""
+        t = self.t
+        if i < 0 or i >= t.size - 1 or not t[i + 1] > t[i]:
+            return None
+        if i not in self._systems:
+            self._systems[i] = _interval_system(self.configs[i], self.bank, float(t[i]), float(t[i + 1]))
+        found = self._systems[i]
+        if found is None:
+            return None
+        M, z0, G = found
+        value, _ = _solution(M, np.concatenate([self.states[i], z0]), G[self.rows[label]])
+        return value
+
+
+def _interval_system(ss, bank, t0: float, t1: float):
+    """(M, z0, G) of the configuration ss on [t0, t1] (no breakpoint inside), or None."""
+    if bank.m:
+        gen = bank.generators(t0, t1)
+        if gen is None:
+            return None
+        F, z0, H = generator_matrices(gen, bank.m)
+    else:
+        F, z0, H = np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0))
+    M = augmented_matrix(ss.A, ss.B, F, H)
+    G = np.concatenate([ss.C, ss.D @ H if H.size else np.zeros((ss.C.shape[0], F.shape[0]))], axis=1)
+    return M, z0, G
+
+
 def refine_extrema(t: np.ndarray, states: np.ndarray, configs: Sequence,
                    signals: dict[str, tuple[int, np.ndarray]], bank, xtol: float) -> dict[str, Extremum]:
     """Refined extrema of linear recorded quantities.
@@ -114,20 +159,8 @@ def refine_extrema(t: np.ndarray, states: np.ndarray, configs: Sequence,
     def system(i):
         """(M, w_i, G) for the interval from row i to row i + 1."""
         key = (id(configs[i]), float(t[i]), float(t[i + 1]))
-        ss = configs[i]
-        if key not in cache:
-            if bank.m:
-                gen = bank.generators(float(t[i]), float(t[i + 1]))
-                if gen is None:  # inputs without a linear generator: keep the rows' value
-                    cache[key] = None
-                    return None
-                F, z0, H = generator_matrices(gen, bank.m)
-            else:
-                F, z0, H = np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0))
-            M = augmented_matrix(ss.A, ss.B, F, H)
-            G = np.concatenate([ss.C, ss.D @ H if H.size else np.zeros((ss.C.shape[0], F.shape[0]))],
-                               axis=1)
-            cache[key] = (M, z0, G)
+        if key not in cache:  # None: inputs without a linear generator, keep the rows' value
+            cache[key] = _interval_system(configs[i], bank, float(t[i]), float(t[i + 1]))
         if cache[key] is None:
             return None
         M, z0, G = cache[key]

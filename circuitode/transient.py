@@ -64,8 +64,9 @@ class Waveforms:
     "rhs_evaluations", "expm_calls", …).
     configurations : switch-state tuples used, in order of first use.
     warnings : topology warnings (diagnostics of severity "warning"), as text.
-    integrals, extrema, fastest_seen_rate : what the run carries beyond its rows
-    (window integrals, located extrema, fastest mode seen; :mod:`circuitode.carried`).
+    integrals, extrema, between, fastest_seen_rate : what the run carries beyond its rows
+    (window integrals, located extrema, values between rows, fastest mode seen;
+    :mod:`circuitode.carried`).
     """
 
     t: np.ndarray
@@ -84,6 +85,7 @@ class Waveforms:
     integrals: dict[str, tuple[float, float]] = field(default_factory=dict)
     extrema: dict[str, object] = field(default_factory=dict)
     fastest_seen_rate: float = 0.0
+    between: object = None
 
     def __getitem__(self, label: str) -> np.ndarray:
         if label in self.signals:

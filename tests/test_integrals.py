@@ -251,3 +251,14 @@ def test_final_carries_a_settled_flag():
     long = summarise(simulate(_series_rlc(R, L, C, V), until=8e-3, step=1e-6, method="exact"))
     assert short["voltage at b"]["settled"][0] is False
     assert long["voltage at b"]["settled"][0] is True
+
+
+def test_fast_rc_rise_and_settling_located_on_the_solution():
+    # First-order step response: 10–90 % rise time τ ln 9 and 2 % settling time τ ln 50
+    # (Ogata, Modern Control Engineering, ch. 5, first-order systems), τ = 1 ns, though
+    # the rows are 10 µs apart.
+    tau = 1.0 * 1e-9
+    w = simulate(_rc(1.0, 1e-9, 5.0, 1e-3, 10e-6), until=1e-3, step=10e-6, method="exact")
+    figures = summarise(w)["voltage at out"]
+    assert figures["rise_time"][0] == pytest.approx(tau * math.log(9), rel=1e-9)
+    assert figures["settling_time"][0] == pytest.approx(tau * math.log(50), rel=1e-9)

@@ -4,11 +4,10 @@ the fastest mode the recorded quantities see.
 With an output step h and a mode of rate |λ| (1/s) seen by a recorded quantity,
 h·|λ| > 1 means the rows are further apart than the mode's time constant (or
 1/ω of its ringing): what happens between two rows is not in the rows.  The
-figures computed from the solution itself — the window integrals and the
-located extrema (:mod:`.between_rows`) — do not depend on h; every figure read
-from the rows does (rise and settling time, damping ratio and frequency,
-undershoot, the rms and peak of a power, and any integral or extremum the
-method could not carry).  The warning names those and the step that resolves
+figures computed from the solution itself — the window integrals, the located
+extrema and crossings (:mod:`.between_rows`) — do not depend on h; every figure
+read from the rows does (damping ratio and frequency, undershoot, the rms, peak
+and step figures of a power, and anything the run could not carry).  The warning names those and the step that resolves
 the mode (h ≤ 1/|λ|).
 """
 from __future__ import annotations
@@ -37,16 +36,16 @@ def resolution_warnings(waveforms: Any) -> list[str]:
         return []
     exact_integrals = bool(getattr(waveforms, "integrals", None))
     located = bool(getattr(waveforms, "extrema", None))
-    from_rows = ["rise and settling times", "damping ratio and frequency", "undershoot"]
+    from_rows = ["damping ratio and frequency", "undershoot"]
     if not located:
-        from_rows.insert(0, "peaks, their instants and minima")
+        from_rows[:0] = ["peaks, their instants and minima", "rise and settling times"]
     if not exact_integrals:
         from_rows.append("energy, I²t, rms and mean")
     carried = []
     if exact_integrals:
         carried.append("energy, I²t, rms and mean" + (", exact" if waveforms.method == "exact" else ""))
     if located:
-        carried.append("the peaks and minima of voltages and currents")
+        carried.append("the peaks, minima, rise and settling times of voltages and currents")
     text = (f"the output step {format_si(step, 's')} is coarser than the fastest mode the recorded "
             f"quantities see (time constant {format_si(1.0 / rate, 's')}, h·|λ| = {step * rate:.3g}): "
             f"{', '.join(from_rows)} and the rms and peak of a power are read from the rows and may "
