@@ -147,6 +147,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--running", action="append", default=[], metavar="QUANTITY",
                    help='also plot the running I²t of a recorded current (or energy of a power), e.g. '
                         '--running "current through K_main" (repeatable; limited ones are drawn anyway)')
+    p.add_argument("--insist", action="store_true",
+                   help="run rk45 or dop853 even on a circuit too stiff for them (refused otherwise)")
 
     p = sub.add_parser("modes", help="damping table (ζ, ωn, Q, τ) of every switch configuration",
                        epilog=COMMAND_EXAMPLES["modes"], formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -243,7 +245,7 @@ def _run(args: argparse.Namespace) -> int:
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
     result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
-                     plots=not args.no_plots, running=tuple(args.running))
+                     plots=not args.no_plots, running=tuple(args.running), insist=args.insist)
     print(run_text(circuit, result.waveforms, result.figures, result.limits, result.files, path=args.netlist))
     for problem in result.problems:
         print(f"warning: {problem}", file=sys.stderr)

@@ -9,8 +9,8 @@ and the circuit is ``x' = A x + B u``, which an integrator from
 and the run restarts with the states carried over — capacitor voltages and
 inductor currents are continuous across every switching instant.
 
-At each switching instant two rows share the same time: the values just before
-and just after, so jumps of currents stay sharp.
+At each switching instant and source breakpoint two rows share the same time:
+the values just before and just after, so jumps of currents stay sharp.
 """
 from __future__ import annotations
 
@@ -20,20 +20,22 @@ from typing import Sequence
 
 import numpy as np
 
-from .model.circuit import (INITIAL_STATES, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from .model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from .model.configurations import reachable_configurations
 from .errors import CircuitodeError
 from .notebook import WaveformsView
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
+from .solvers.explicit_guard import check_explicit_work
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from .checks.topology import verify
+from .carried import carried_by_run
+from .run_settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
+from .window_integrals import IntegralTally
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
-#: Output points when neither a step nor a number of points is given.
-DEFAULT_POINTS = 2001
 #: Threshold instants are located to this fraction of the window (or better).
 EVENT_TOL_FRACTION = 1e-12
 
@@ -63,6 +65,9 @@ class Waveforms(WaveformsView):
     "rhs_evaluations", "expm_calls", …).
     configurations : switch-state tuples used, in order of first use.
     warnings : topology warnings (diagnostics of severity "warning"), as text.
+    integrals, extrema, between, fastest_seen_rate : what the run carries beyond its rows
+    (window integrals, located extrema, values between rows, fastest mode seen;
+    :mod:`circuitode.carried`).
     """
 
     t: np.ndarray
@@ -78,6 +83,10 @@ class Waveforms(WaveformsView):
     counters: dict[str, int]
     configurations: tuple[tuple[bool, ...], ...]
     warnings: tuple[str, ...] = field(default=())
+    integrals: dict[str, tuple[float, float]] = field(default_factory=dict)
+    extrema: dict[str, object] = field(default_factory=dict)
+    fastest_seen_rate: float = 0.0
+    between: object = None
 
     def __getitem__(self, label: str) -> np.ndarray:
         if label in self.signals:
@@ -98,81 +107,6 @@ class Waveforms(WaveformsView):
         with open(path, "w", newline="", encoding="utf-8") as handle:
             csv.writer(handle).writerow(header)
             np.savetxt(handle, data, delimiter=",", fmt="%.12g")
-
-
-# --------------------------------------------------------------------------
-# Settings
-# --------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class _Settings:
-    until: float
-    step: float | None
-    points: int
-    method: str
-    initial: str
-
-
-def _number(value, what: str) -> float | None:
-    """``value`` as a float (None stays None), or our error naming the setting."""
-    if value is None:
-        return None
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise CircuitodeError(f"{what} must be a number, got {value!r}") from None
-    if not np.isfinite(number):
-        raise CircuitodeError(f"{what} must be a finite number, got {value!r}")
-    return number
-
-
-def _settings(circuit: Circuit, method, step, until, points, initial) -> _Settings:
-    if not isinstance(circuit, Circuit):
-        raise CircuitodeError(
-            f"simulate needs a Circuit (from circuitode.load), got {type(circuit).__name__}")
-    a = circuit.analysis
-    until = until if until is not None else (a.until if a is not None else None)
-    if until is None:
-        raise CircuitodeError(
-            "no end time for the transient: add `transient until …` to the netlist or pass --until")
-    step = step if step is not None else (a.step if a is not None else None)
-    points = points if points is not None else (a.points if a is not None else None)
-    method = method if method is not None else (a.method if a is not None else "auto")
-    initial = initial if initial is not None else (a.initial if a is not None else "given")
-    until, step, points = (_number(until, "the end time (until)"), _number(step, "the step"),
-                           _number(points, "points"))
-    if not until > 0:
-        raise CircuitodeError(f"the transient end time must be a positive number of seconds, got {until!r}")
-    if step is not None and not (0 < step <= until):
-        raise CircuitodeError(
-            f"the step must be a positive time no longer than the window ({until:g} s), got {step!r}")
-    if points is None:
-        points = DEFAULT_POINTS
-    if int(points) != points or points < 2:
-        raise CircuitodeError(f"points must be a whole number of at least 2, got {points!r}")
-    if step is not None and until / step > 5e7:
-        raise CircuitodeError(
-            f"step {step:g} s over {until:g} s would record {until / step:.3g} points; use a larger step")
-    if initial not in INITIAL_STATES:
-        raise CircuitodeError(
-            f"unknown initial state {initial!r}; choose one of: {', '.join(INITIAL_STATES)}")
-    return _Settings(float(until), None if step is None else float(step), int(points),
-                     str(method).strip().lower(), initial)
-
-
-def _output_grid(s: _Settings) -> np.ndarray:
-    """Requested output times (s): every step from 0 (and ``until``), else ``points`` evenly."""
-    if s.step is None:
-        return np.linspace(0.0, s.until, s.points)
-    count = int(np.floor(s.until / s.step * (1 + 1e-12)))
-    grid = s.step * np.arange(count + 1)
-    grid = grid[grid <= s.until]
-    if s.until - grid[-1] > 1e-9 * s.step:
-        grid = np.append(grid, s.until)
-    else:
-        grid[-1] = s.until
-    return grid
 
 
 # --------------------------------------------------------------------------
@@ -263,9 +197,9 @@ def _schedule_reason(sw: Switch) -> str:
     return f"{sw.name} follows its {kind} schedule"
 
 
-def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, atol):
-    """(integrator, name, reason); for rk4, the step is first checked against every
-    configuration the run may reach."""
+def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, atol, insist=False):
+    """(integrator, name, reason); for rk4 the step, for rk45/dop853 the least step count
+    (unless ``insist``), is first checked against every configuration the run may reach."""
     rk4_step = s.step if s.step is not None else s.until / (s.points - 1)
     if n == 0:
         name, reason = "exact", "exact: the circuit stores no energy (no capacitor or inductor)"
@@ -281,12 +215,17 @@ def _pick_integrator(circuit, cache, s: _Settings, start, schedule, n, rtol, ato
         confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until)]))
         for conf, eig in _eigenvalue_sets(cache, confs):
             check_rk4_step(eig, integrator.step, where=describe_configuration(circuit, conf))
+    if integrator.adaptive and not integrator.stiff and n and not insist and s.method != "auto":
+        confs = list(dict.fromkeys([start, *_configurations_to_check(circuit, s.until)]))
+        for conf, eig in _eigenvalue_sets(cache, confs):
+            check_explicit_work(name, eig, s.until, where=describe_configuration(circuit, conf))
     return integrator, name, reason
 
 
 def simulate(circuit: Circuit, *, method: str | None = None, step: float | None = None,
              until: float | None = None, points: int | None = None, initial: str | None = None,
-             rtol: float = 1e-6, atol: float = 1e-9, probes: Sequence | None = None) -> Waveforms:
+             rtol: float = 1e-6, atol: float = 1e-9, probes: Sequence | None = None,
+             insist: bool = False) -> Waveforms:
     """Simulate the transient of ``circuit`` from t = 0 to ``until``.
 
     Parameters
@@ -300,6 +239,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     rtol, atol : error tolerances of the adaptive and implicit methods.
     probes : what to record instead of ``circuit.records`` (requirement and
         threshold probes are always added).
+    insist : run rk45 or dop853 even when a stiff circuit makes them hopeless.
 
     Returns
     -------
@@ -309,7 +249,8 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     ------
     CircuitodeError (exit code 2) for bad settings, TopologyError for a circuit
     that cannot be simulated, UnstableStepError (exit code 3) for an rk4 step
-    outside the stability region of any reachable configuration.
+    outside the stability region of any reachable configuration, or an rk45/dop853
+    run a stiff circuit makes hopeless (see :mod:`circuitode.solvers.explicit_guard`).
 
     Examples
     --------
@@ -347,13 +288,14 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     ss0 = cache.get(start)
     n = ss0.n_states
 
-    integrator, name, reason = _pick_integrator(circuit, cache, s, start, schedule, n, rtol, atol)
+    integrator, name, reason = _pick_integrator(circuit, cache, s, start, schedule, n, rtol, atol, insist)
 
     # -- initial state ---------------------------------------------------
     u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)
     x = np.asarray(initial_state(circuit, s.initial, ss0, u_before), dtype=float)
 
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
+    run.tally = IntegralTally(wanted, row_of)
     run.go(x, start, schedule)
     return run.waveforms(wanted, row_of, name, reason, warnings)
 
@@ -398,6 +340,7 @@ class _Run:
             self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0),
             np.array([c[0] for c in schedule if c[0] > 0], dtype=float), [until]]))
         pending = [k for k, sw in enumerate(circuit.switches) if isinstance(sw.control, ThresholdRule)]
+        self.corners = self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0)
         queue = list(schedule)
         t = 0.0
         while True:
@@ -429,7 +372,9 @@ class _Run:
             upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
                                    side="right" if last else "left")
             t_out = self.grid[self.next_grid:upto]
-            result = self.integrator.solve(segment, t_out, [ev for _, ev in watch])
+            result = self.integrator.solve(segment, t_out, [ev for _, ev in watch],
+                                           integrals=self.tally.request(ss.C, ss.D))
+            self.tally.add(result.integrals)
             self.counters["segments"] += 1
             for key, value in result.counters.items():
                 self.counters[key] = self.counters.get(key, 0) + int(value)
@@ -438,6 +383,7 @@ class _Run:
             x = np.asarray(result.x_end, dtype=float)
             if result.event_time is None:
                 t = t_next
+                self.corner(t, x, closed, queue)
                 continue
             k = pending.pop(result.event_index)
             te = float(result.event_time)
@@ -445,6 +391,16 @@ class _Run:
             closed = self.switch(te, x, u_end, u_end, closed, k, circuit.switches[k].control.closes,
                                  _threshold_reason(circuit.switches[k]))
             t = te
+
+    def corner(self, t, x, closed, queue):
+        """Rows just before and after a source breakpoint at ``t`` (s), unless a switch acts then."""
+        if not (self.corners.size and np.min(np.abs(self.corners - t)) <= self.slack) or any(
+                c[0] <= t + self.slack and closed[c[1]] != c[2] for c in queue):
+            return
+        u_b, u_a = self._inputs_around(t)
+        self.record([t, t], np.stack([x, x]), np.stack([u_b, u_a]), closed)
+        while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
+            self.next_grid += 1
 
     def _inputs_around(self, t):
         if not self.bank.m:
@@ -496,4 +452,7 @@ class _Run:
             t=t, signals=signals, units=units, probes=probes, states=states,
             state_names=tuple(circuit.state_names), state_units=tuple(circuit.state_units),
             events=tuple(self.events), method=name, method_reason=reason,
-            counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings)
+            counters=dict(self.counters), configurations=tuple(self.used), warnings=warnings,
+            **carried_by_run(t, states, [ss for c in self.chunks for ss in [self.cache.get(c[3])] * c[0].size],
+                             [self.cache.get(c) for c in self.used], signals, probes, row_of, self.tally,
+                             self.bank, self.integrator.event_tol))

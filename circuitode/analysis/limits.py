@@ -21,6 +21,7 @@ import numpy as np
 
 from ..errors import CircuitodeError
 from .measure import FIGURE_UNITS, figure_unit, measure
+from .between_rows import carried_figure
 
 __all__ = [
     "LimitError",
@@ -137,7 +138,9 @@ def check_requirements(requirements: Sequence[Any], waveforms: Any) -> list[Limi
                 f"{recorded}; record {label} as well"
             )
         unit = waveforms.units.get(label, getattr(requirement.probe, "unit", ""))
-        value = measure(figure, waveforms.t, waveforms.signals[label], signal_unit=unit)
+        value = carried_figure(figure, waveforms, label)  # integrals, located extrema
+        if value is None:
+            value = measure(figure, waveforms.t, waveforms.signals[label], signal_unit=unit)
         if np.ndim(value) != 0:
             raise LimitError(
                 f"requirement {_label(requirement)}: the {label!r} waveform holds several runs "

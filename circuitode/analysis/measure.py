@@ -31,11 +31,13 @@ from .figures import (
     peak,
     rise_time,
     rms,
+    settled,
     settling_time,
     time_of_peak,
     undershoot,
 )
 from .figures._common import _checked
+from .between_rows import carried_figure
 
 __all__ = [
     "MeasurementError",
@@ -230,7 +232,11 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
     numpy values (floats for a single run); figures that do not apply are NaN —
     in particular the step figures (overshoot, undershoot, rise and settling time)
     of a signal that returns to where it began, such as an inrush current pulse,
-    or that has not settled by the end of the run (AC, still ringing).  Default options
+    or that has not settled by the end of the run (AC, still ringing).  ``settled``
+    (a bool, unit "") says whether ``final`` is a final state level (see
+    :func:`~circuitode.analysis.figures.levels.settled`).  Mean, rms, I²t
+    and energy come from the run's own integrals when it carries them
+    (``waveforms.integrals``; exact with the exact method), else from the rows.  Default options
     throughout: the time of peak is an instant on the run's clock, and the settling
     time counts from the start of the run (not from a later switching instant).
     """
@@ -247,15 +253,24 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
         # Step figures need a step: a signal that moved and came back (an inrush
         # pulse) or one that never settles (AC, still ringing) has no final state
         # level to refer to, so its overshoot or rise time would mean nothing.
-        values = {name: measure(name, t, y, signal_unit=unit) for name in figures}
+        values = {name: _whole_window(name, waveforms, label, t, y, unit) for name in figures}
         no_step = _is_pulse(y) | np.isnan(values["settling_time"])
         row = {}
         for name, value in values.items():
             if name in _STEP_FIGURES:
                 value = np.where(no_step, np.nan, value)
             row[name] = (_plain(value), figure_unit(name, unit))
+        flag = settled(t, y)  # is `final` a final state level or a snapshot of motion?
+        row["settled"] = (bool(flag) if np.ndim(flag) == 0 else flag, "")
         out[label] = row
     return out
+
+
+def _whole_window(name: str, waveforms: Any, label: str, t, y, unit: str) -> Any:
+    """A figure over the whole run: integrals from the run's own (exact, or over the method's dense output)
+    integrals when it carries them, anything else from the rows."""
+    carried = carried_figure(name, waveforms, label) if np.ndim(y) == 1 else None
+    return carried if carried is not None else measure(name, t, y, signal_unit=unit)
 
 
 #: Figures that refer to a step from the initial to the final level.

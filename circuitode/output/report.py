@@ -29,6 +29,7 @@ from ..model.circuit import (
     VoltageSource,
 )
 from ..analysis.measure import figure_unit
+from ..analysis.resolution import resolution_warnings
 from ..netlist.quantities import format_si
 from .mode_table import modes_text  # noqa: F401 - the modes table lives in its own module
 
@@ -314,6 +315,8 @@ def _figure_line(label: str, row: Mapping[str, tuple[Any, str]]) -> list[str]:
         value, unit = row.get(key, (None, ""))
         if value is not None and not (isinstance(value, float) and math.isnan(value)):
             extras.append(f"{word} {_si(value, unit)}")
+    if row.get("settled", (True, ""))[0] is False:
+        extras.append("not settled at the end (final is a snapshot)")
     if extras:
         lines.extend(_wrap(", ".join(extras), indent=" " * 4))
     return lines
@@ -380,6 +383,8 @@ def run_text(
     out.append("─" * len(header))
     for label, row in figures.items():
         out.extend(_figure_line(label, row))
+    for warning in resolution_warnings(waveforms):  # under the table, beside the numbers
+        out.extend(_wrap(f"warning: {warning}", indent=""))
     if limits:
         out.append("")
         failed = sum(not r.passed for r in limits)

@@ -80,6 +80,7 @@ def run_job(
     plots: bool = True,
     with_modes: bool = True,
     running: tuple[str, ...] = (),
+    insist: bool = False,
 ) -> JobResult:
     """Simulate a netlist, measure it, check its limits and write its run folder.
 
@@ -93,6 +94,7 @@ def run_job(
     with_modes : include the modal damping table of every reachable configuration.
     running : recorded currents (powers) whose running I²t (energy) the plot also draws; those with an
         I²t or energy limit are drawn anyway.
+    insist : run rk45/dop853 even when the circuit is too stiff for them.
 
     Raises
     ------
@@ -104,7 +106,7 @@ def run_job(
     from ..transient import simulate
 
     circuit = load_any(source, overrides)
-    waveforms = simulate(circuit, method=method, step=step, until=until)
+    waveforms = simulate(circuit, method=method, step=step, until=until, insist=insist)
     result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
 
     out = Path(out_dir) if out_dir is not None else None
@@ -139,6 +141,7 @@ def run_job(
 def summary_of(result: JobResult) -> dict[str, Any]:
     """The JSON summary body of a run (numbers in SI, units beside them)."""
     from ..analysis.modes import mode_rows
+    from ..analysis.resolution import resolution_warnings
     from .report import requirement_words
 
     w = result.waveforms
@@ -178,6 +181,7 @@ def summary_of(result: JobResult) -> dict[str, Any]:
             }
             for cfg in result.modes
         ],
+        "warnings": list(w.warnings) + resolution_warnings(w),
         "files": {k: str(v) for k, v in result.files.items()},
         "problems": list(result.problems),
     }

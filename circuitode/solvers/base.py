@@ -24,6 +24,7 @@ from typing import Any, Protocol, Sequence
 import numpy as np
 
 from ..errors import CircuitodeError, IntegrationError
+from .integrals import IntegralValues, OutputIntegrals
 
 __all__ = [
     "Inputs",
@@ -189,6 +190,9 @@ class SegmentResult:
     event_index : index into the events given, or None.
     x_end : (n,) state at ``event_time`` if an event fired, else at ``t1``.
     counters : work done, e.g. ``{"steps": 40, "rhs_evaluations": 160}``.
+    integrals : the requested output integrals from ``t0`` to where the segment ended
+        (``event_time`` or ``t1``), or None when none were asked for or the method
+        cannot give them (see ``Integrator.integrates_outputs``).
     """
 
     t: np.ndarray
@@ -197,6 +201,7 @@ class SegmentResult:
     event_index: int | None
     x_end: np.ndarray
     counters: dict[str, int] = field(default_factory=dict)
+    integrals: IntegralValues | None = None
 
 
 class Integrator:
@@ -216,6 +221,9 @@ class Integrator:
     fixed_step = False
     exact = False
     uses_jacobian = False
+    #: True when the method can integrate outputs (``solve(..., integrals=...)``): exactly
+    #: (``exact``) or over its own dense output (the adaptive and implicit methods).
+    integrates_outputs = False
 
     def __init__(self, *, step: float | None = None, rtol: float = 1e-6, atol: float = 1e-9,
                  event_tol: float = 1e-12):
@@ -234,7 +242,8 @@ class Integrator:
         return f"{type(self).__name__}(step={self.step}, rtol={self.rtol}, atol={self.atol})"
 
     def solve(self, segment: LinearSegment, t_out: Sequence[float] | np.ndarray,
-              events: Sequence[LinearEvent] = ()) -> SegmentResult:
+              events: Sequence[LinearEvent] = (),
+              integrals: OutputIntegrals | None = None) -> SegmentResult:
         """Integrate one segment.
 
         Parameters
@@ -243,6 +252,9 @@ class Integrator:
         t_out : (k,) nondecreasing output times inside ``[t0, t1]``, s.
         events : thresholds; integration stops at the first crossing, located to
             within ``event_tol`` seconds.
+        integrals : outputs to integrate over the segment (see
+            :class:`~circuitode.solvers.integrals.OutputIntegrals`); ignored by a
+            method whose ``integrates_outputs`` is False (its result has none).
 
         Returns
         -------
@@ -265,7 +277,14 @@ class Integrator:
                     f"event rows have shapes {e.c.shape}, {e.d.shape}; expected "
                     f"({segment.n_states},) and ({segment.n_inputs},)"
                 )
-        result = self._solve_segment(segment, t_out, tuple(events))
+        if integrals is not None and self.integrates_outputs:
+            if integrals.C.shape[1] != segment.n_states or integrals.D.shape[1] not in (0, segment.n_inputs):
+                raise IntegrationError(
+                    f"output rows for integrals have shapes {integrals.C.shape}, {integrals.D.shape}; "
+                    f"expected (k, {segment.n_states}) and (k, {segment.n_inputs})")
+            result = self._solve_segment(segment, t_out, tuple(events), integrals)
+        else:
+            result = self._solve_segment(segment, t_out, tuple(events))
         if not np.all(np.isfinite(result.x_end)):
             raise IntegrationError(
                 f"method {self.name} produced NaN or infinite states on "

@@ -29,6 +29,7 @@ from scipy.linalg import expm
 from ..errors import IntegrationError
 from .base import Integrator, SegmentResult, event_values, first_crossing, generator_matrices
 from .roots import brent_root
+from .integrals import exact_output_integrals
 
 __all__ = ["Exact", "augmented_matrix", "MAX_CHECK_POINTS"]
 
@@ -57,8 +58,9 @@ class Exact(Integrator):
 
     name = "exact"
     exact = True
+    integrates_outputs = True
 
-    def _solve_segment(self, segment, t_out, events):
+    def _solve_segment(self, segment, t_out, events, integrals=None):
         n, m = segment.n_states, segment.n_inputs
         t0, t1 = segment.t0, segment.t1
         if m:
@@ -106,8 +108,12 @@ class Exact(Integrator):
         if event_time is not None:
             keep = t_out < event_time
             idx, t_out = idx[keep], t_out[keep]
+        found = None
+        if integrals is not None:  # ∫ y and ∫ y_a y_b from t0 to where the segment ended
+            reach = (event_time if event_time is not None else t1) - t0
+            found = exact_output_integrals(integrals, M, w0, reach, H)
         return SegmentResult(t_out.copy(), w[idx, :n], event_time, event_index, w_end[:n].copy(),
-                             counters)
+                             counters, found)
 
     def _step_matrices(self, M, grid, span):
         """(expm(M h) for each distinct interval length h (k, d, d), index of each interval's

@@ -21,6 +21,7 @@ from ..errors import CircuitodeError, NetlistError
 from ..netlist.parts import expose_parts
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
 from ..analysis.measure import figure_unit, measure
+from ..analysis.window_integrals import figure_from_integrals
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
@@ -190,7 +191,13 @@ def run_chunk(task: dict) -> dict:
         for j, (fig, label) in enumerate(keys):
             row = labels.index(label)
             # each sample has its own clock (its own switching instants): t is (N, L)
-            figures[:, j] = measure(fig, waves.t, waves.signals[row], signal_unit=units[row])
+            carried = None
+            if waves.integrals is not None:  # exact integrals of the run itself
+                first, square = waves.integrals[row]
+                carried = figure_from_integrals(fig, first, square, waves.t[:, -1] - waves.t[:, 0],
+                                                units[row])
+            figures[:, j] = carried if carried is not None else measure(
+                fig, waves.t, waves.signals[row], signal_unit=units[row])
         ok = waves.ok.copy()
         for i, msg in waves.problems.items():
             messages[i] = msg

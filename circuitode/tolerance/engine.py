@@ -42,6 +42,7 @@ from ..model.sources import SourceBank
 from ..equations.statespace import VARIABLE_FIELDS
 from ..equations.statespace import StateSpaceCache, initial_state
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
+from .batch_integrals import ChunkIntegrals, integral_pairs
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, fire_at_start, handle_crossings
 
@@ -60,6 +61,8 @@ class ChunkWaves:
     ok : (N,) bool, False where the sample failed.
     problems : sample index (within the chunk) → message, for failed samples.
     event_times : (N, k) s, instant each threshold switch acted, NaN if it never did.
+    integrals : per probe asked for, (∫ y dt (N,), ∫ y² dt (N,)) over the window, exact
+        (method "exact"; a power probe has (∫ p dt, NaN)); None with rk4.
     """
 
     t: np.ndarray
@@ -67,6 +70,7 @@ class ChunkWaves:
     ok: np.ndarray
     problems: dict[int, str] = field(default_factory=dict)
     event_times: np.ndarray | None = None
+    integrals: list | None = None
 
     @property
     def y(self) -> np.ndarray:
@@ -150,6 +154,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
                   np.full((N, len(rules)), np.nan))
     ok = np.ones(N, dtype=bool)
     problems: dict[int, str] = {}
+    tally = ChunkIntegrals(N, len(all_rows), integral_pairs(recipe, len(all_rows))) \
+        if method == "exact" else None
 
     def note(ss) -> None:
         _collect(ss, ok, problems)
@@ -181,8 +187,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     x = np.where(ok[:, None], x, 0.0)
     n = x.shape[1]
 
-    # each switching instant adds two rows (and stands for a grid instant it falls on)
-    record = Record(N, t_grid.size + 2 * len(changes), 2 * len(rules), len(all_rows))
+    # each switching instant and source corner adds two rows (and stands for a grid
+    # instant it falls on)
+    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size, 2 * len(rules),
+                    len(all_rows))
     y_end_before = None
     queue = list(changes)
     for seg, (a, b) in enumerate(zip(bounds[:-1], bounds[1:])):
@@ -213,8 +221,12 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         y_now = matvec(G_cur, w)
         if due:
             record.all(a, y_now)
+        corner = not due and a > 0 and corners.size and np.min(np.abs(corners - a)) <= slack
+        if corner:  # a source breakpoint: the rows just before and after, as the single run
+            record.all(a, y_end_before)
+            record.all(a, y_now)
         fire_at_start(watch, stretch, a, w, y_now, code, ok, G_cur, record)
-        if not due and np.any(np.abs(t_grid - a) <= slack):
+        if not due and not corner and np.any(np.abs(t_grid - a) <= slack):
             # (a sample that switched just now repeats its "after" row here: an interval
             # of zero length that changes no figure)
             record.all(a, y_now)
@@ -226,7 +238,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         if not last or stops.size == 0 or stops[-1] < b - slack:
             stops, slots = np.append(stops, b), np.append(slots, -1)
         lengths = np.diff(np.concatenate([[a], stops]))
-        stepper = _Stepper(stretch, watch, code, ok, G_cur, record)
+        stepper = _Stepper(stretch, watch, code, ok, G_cur, record, tally)
         w, y_now, g_prev = stepper.run(w, g_prev, a, stops, lengths, slots >= 0)
         x = w[:, :n]
         y_end_before = y_now
@@ -235,7 +247,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for i in np.flatnonzero(bad & ok):
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
-    return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times)
+    return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times,
+                      None if tally is None else tally.by_recipe(recipe))
 
 
 #: Bytes the per-sample table of step-matrix powers of one block may take, and the
@@ -255,9 +268,11 @@ class _Stepper:
     outputs at once); other steps (a stretch's partial first or last step) one by one.
     """
 
-    def __init__(self, stretch: Stretch, watch: Watch, code, ok, G_cur, record: Record):
+    def __init__(self, stretch: Stretch, watch: Watch, code, ok, G_cur, record: Record,
+                 tally: ChunkIntegrals | None = None):
         self.stretch, self.watch, self.code, self.ok = stretch, watch, code, ok
-        self.G_cur, self.record = G_cur, record
+        self.G_cur, self.record, self.tally = G_cur, record, tally
+        self.moments: dict = {}  # (configuration code, step length) → integral operators
         self.phi: dict = {}  # step length → (N, s, s), each sample's configuration
         self.powers: dict = {}  # (step length, K) → (N, K, s, s), each sample's configuration
 
@@ -297,9 +312,24 @@ class _Stepper:
         for (h, K), P in self.powers.items():
             P[idx] = st.powers(code, h, K, idx)
 
+    def count(self, starts, col_code, h: float) -> None:
+        """Add the integrals of steps of length h from states starts (N, K, s), each in the
+        configuration col_code (N, K) (−1: a step split by a switch, counted where it was
+        split)."""
+        if self.tally is None:
+            return
+        for c in np.unique(col_code[col_code >= 0]):
+            key = (int(c), h)
+            if key not in self.moments:
+                full = np.full(self.code.size, c)
+                self.moments[key] = self.tally.operators(self.stretch.M(full), self.stretch.G(full), h)
+            rho, P = self.moments[key]
+            self.tally.steps(rho, P, starts, col_code == c)
+
     def step(self, w, g_prev, t_prev: float, h: float, t_row):
         """One step of length h for every sample; a row at t_row unless it is None."""
         watch = self.watch
+        col_code = self.code.copy()[:, None]
         if h not in self.phi:
             self.phi[h] = self.stretch.phi(self.code, h)
         w_new = matvec(self.phi[h], w)
@@ -310,9 +340,12 @@ class _Stepper:
             if turned.any() and (crossed := turned & watch.pending(self.code) & self.ok[:, None]).any():
                 idx = np.flatnonzero(crossed.any(axis=1))
                 w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, crossed[idx], self.code,
-                                                 w[idx], g[idx], t_prev, h, self.record)
+                                                 w[idx], g[idx], t_prev, h, self.record,
+                                                 tally=self.tally)
+                col_code[idx, 0] = -1
                 self.refresh(idx)
                 w_new[idx], y[idx], g[idx] = w_e, y_e, g_e
+        self.count(w[:, None], col_code, h)
         if t_row is not None:
             self.record.all(float(t_row), y)
         return w_new, y, g
@@ -331,6 +364,7 @@ class _Stepper:
         W = _apply_powers(self.powers[h, K][:, :Kb], w)  # (N, Kb, s)
         Y = self.G_cur @ np.swapaxes(W, 1, 2)  # (N, p, Kb)
         g = watch.values(Y)  # (N, k, Kb)
+        col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
         if watch.k:
             cols = np.arange(Kb)
             t_before = np.concatenate([[t_start], ts[:-1]])
@@ -350,10 +384,13 @@ class _Stepper:
                 j = np.argmax(hit[idx], axis=1)  # each sample's first step with a crossing
                 w_prev = np.where((j > 0)[:, None], W[idx, np.maximum(j - 1, 0)], w[idx])
                 w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, turned[idx, :, j], code,
-                                                 w_prev, g[idx, :, j], t_before[j], h, record, c0 + j)
+                                                 w_prev, g[idx, :, j], t_before[j], h, record, c0 + j,
+                                                 tally=self.tally)
                 self.refresh(idx)
                 W[idx, j], Y[idx, :, j], g[idx, :, j] = w_e, y_e, g_e
                 later = cols[None, :] > j[:, None]  # (R, Kb): instants after the switch
+                col_code[idx] = np.where(later, code[idx, None], col_code[idx])
+                col_code[idx, j] = -1
                 if later.any():
                     tail = _apply_powers(self.powers[h, K][idx, :Kb - 1], w_e)
                     back = np.clip(cols[None, :] - j[:, None] - 1, 0, None)
@@ -363,6 +400,7 @@ class _Stepper:
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
                     g[idx] = watch.values(Y[idx])
                 settled[idx] = j
+        self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
         record.columns(np.asarray(ts, dtype=float), Y)
         return W[:, -1], Y[:, :, -1], g[:, :, -1]
 

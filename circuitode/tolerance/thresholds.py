@@ -75,7 +75,8 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
 
 
 def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: np.ndarray, code,
-                     w_prev: np.ndarray, g_end: np.ndarray, t_prev, h: float, record: Record, pos=None):
+                     w_prev: np.ndarray, g_end: np.ndarray, t_prev, h: float, record: Record, pos=None,
+                     tally=None):
     """Locate, switch and finish one step for the samples idx, each with a crossing in it.
 
     idx : (K,) samples.  crossed : (K, k) bool, which pending thresholds turned.
@@ -84,7 +85,9 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
     common column the step ends on (scalar or (K,); the next one by default).
     Updates code, the event times and the record; returns (w_end, y_end, g_end) of the
     K samples at the step's end in their new configurations.  The caller refreshes any
-    per-sample matrices it holds for the samples idx.
+    per-sample matrices it holds for the samples idx.  tally : a
+    :class:`~circuitode.tolerance.batch_integrals.ChunkIntegrals` to which the
+    integrals over the pieces of the step (before and after each switch) are added.
     """
     K = idx.size
     t_prev = np.broadcast_to(np.asarray(t_prev, dtype=float), (K,))
@@ -101,6 +104,8 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
         M, G = stretch.M(code, sub), stretch.G(code, sub)
         tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[rows])
         w_e = matvec(stretch.propagate(M, tau - start), w_start)
+        if tally is not None:  # the piece before the switch, in the old configuration
+            tally.fresh(sub, M, G, w_start, tau - start)
         y_before = matvec(G, w_e)
         t_event, at = t_prev[rows] + tau, pos[rows]
         code[sub] |= (1 << which)
@@ -121,7 +126,8 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
             record.some(sub[r], t_event[r], y_after[r], at[r])
             y_after[r] = matvec(G_new[r], w_e[r])
             record.some(sub[r], t_event[r], y_after[r], at[r])
-        w_end = matvec(stretch.propagate(stretch.M(code, sub), h - tau), w_e)
+        M_new = stretch.M(code, sub)
+        w_end = matvec(stretch.propagate(M_new, h - tau), w_e)
         y_end = matvec(G_new, w_end)
         if out_y is None:
             out_y = np.empty((K, y_end.shape[1]))
@@ -130,6 +136,8 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
         g_now[rows] = g_e
         again = watch.pending(code[sub]) & (g_after < 0.0) & (g_e >= 0.0)
         more = again.any(axis=1) & (tau < h)
+        if tally is not None:  # the rest of the step, for the samples that switch no more
+            tally.fresh(sub[~more], M_new[~more], G_new[~more], w_e[~more], h - tau[~more])
         rows, start, w_start, remaining = rows[more], tau[more], w_e[more], again[more]
     return out_w, out_y, g_now
 

@@ -27,7 +27,7 @@ from __future__ import annotations
 
 from ._common import MeasurementError
 from .integrals import energy, i2t, max_slope, mean, rms
-from .levels import final, minimum, peak, time_of_peak
+from .levels import final, minimum, peak, settled, time_of_peak
 from .ringing import RINGING_MISFIT, RINGING_NOISE, damped_frequency, damping_ratio
 from .step import overshoot, rise_time, settling_time, undershoot
 
@@ -39,6 +39,7 @@ __all__ = [
     "time_of_peak",
     "minimum",
     "final",
+    "settled",
     "overshoot",
     "undershoot",
     "rise_time",

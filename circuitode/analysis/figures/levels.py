@@ -16,7 +16,7 @@ import numpy as np
 
 from ._common import MeasurementError, _at, _checked, _ends, _integral
 
-__all__ = ["peak", "time_of_peak", "minimum", "final"]
+__all__ = ["peak", "time_of_peak", "minimum", "final", "settled"]
 
 
 def peak(t, y) -> np.ndarray:
@@ -49,3 +49,22 @@ def final(t, y, *, window: float | None = None) -> np.ndarray:
     first, last = _ends(t, y)
     total, length = _integral(t, y, np.maximum(last - float(window), first), None)
     return total / length
+
+
+def settled(t, y, *, band: float = 0.02, dwell: float = 0.05) -> np.ndarray:
+    """Whether the signal has settled by the end of the window (bool, shape ``y.shape[:-1]``).
+
+    True when over the last ``dwell`` fraction of the window (5 % by default) the
+    signal stays within ``band`` (2 %, the usual settling band; Ogata, ch. 5) of its
+    whole swing max − min; a signal that never moves is settled.  ``final`` is the
+    value at the end of the window either way; this says whether it is a final
+    state level or a snapshot of something still moving (ringing, ripple, AC).
+    """
+    if not (0 < dwell < 1 and band > 0):
+        raise MeasurementError(f"settled needs 0 < dwell < 1 and band > 0, got dwell={dwell!r}, band={band!r}")
+    t, y = _checked(t, y)
+    first, last = _ends(t, y)
+    tail = t >= (last - dwell * (last - first))[..., None]
+    swing = np.max(y, axis=-1) - np.min(y, axis=-1)
+    late = np.max(np.where(tail, y, -np.inf), axis=-1) - np.min(np.where(tail, y, np.inf), axis=-1)
+    return late <= band * swing
