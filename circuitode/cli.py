@@ -90,7 +90,7 @@ def _quantity(unit: str):
     """argparse type: a number with optional SI prefix and unit, e.g. "5us", "60 ms"."""
 
     def parse(text: str) -> float:
-        from .netlist.quantities import parse_quantity
+        from .quantities import parse_quantity
 
         try:
             return parse_quantity(text, unit)

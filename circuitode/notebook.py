@@ -60,7 +60,7 @@ def side_labels(t: np.ndarray) -> np.ndarray:
 
 
 def _fmt(value: float, unit: str) -> str:
-    from .netlist.quantities import format_si
+    from .quantities import format_si
 
     return format_si(value, unit, 4)
 

@@ -1,4 +1,4 @@
-"""Reading and printing SI quantities (circuitode.netlist.quantities)."""
+"""Reading and printing SI quantities (circuitode.quantities)."""
 from __future__ import annotations
 
 import math
@@ -9,7 +9,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from circuitode.errors import NetlistError
-from circuitode.netlist.quantities import (
+from circuitode.quantities import (
     PREFIXES, UNITS, check_unit, format_si, parse_quantity, read_quantity, si_scale, split_unit,
 )
 

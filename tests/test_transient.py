@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from circuitode.netlist.quantities import format_si
+from circuitode.quantities import format_si
 import pytest
 import scipy.linalg as la
 import scipy.signal as signal

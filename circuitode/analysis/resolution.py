@@ -16,7 +16,7 @@ from typing import Any
 
 import numpy as np
 
-from ..netlist.quantities import format_si
+from ..quantities import format_si
 
 __all__ = ["resolution_warnings"]
 

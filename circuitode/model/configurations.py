@@ -16,6 +16,7 @@ import math
 from dataclasses import dataclass
 from typing import Sequence
 
+from ..quantities import format_si
 from .circuit import Circuit, PeriodicSchedule, Switch, ThresholdRule, TimedSchedule
 
 __all__ = [
@@ -61,8 +62,6 @@ class Configuration:
 
 def _si(value: float, unit: str) -> str:
     """SI value with a prefix, printed by the one module that prints quantities."""
-    from ..netlist.quantities import format_si  # late: the netlist package may import this module
-
     return format_si(value, unit)
 
 

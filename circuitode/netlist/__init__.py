@@ -6,6 +6,6 @@
 4700.0
 """
 from .loader import load, loads
-from .quantities import format_si, parse_quantity, si_scale
+from ..quantities import format_si, parse_quantity, si_scale
 
 __all__ = ["load", "loads", "format_si", "parse_quantity", "si_scale"]

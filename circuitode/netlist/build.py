@@ -21,7 +21,7 @@ from . import expressions as ex
 from .expressions import did_you_mean
 from .dimensions import expression_unit
 from .pulses import pulse_times
-from .quantities import check_unit, parse_quantity, unit_phrase
+from ..quantities import check_unit, parse_quantity, unit_phrase
 from .syntax import (
     CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt,
     ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued,

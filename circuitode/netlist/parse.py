@@ -18,7 +18,7 @@ from lark.exceptions import LarkError, UnexpectedInput, UnexpectedToken, VisitEr
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
-from .quantities import read_quantity, split_unit
+from ..quantities import read_quantity, split_unit
 from .vocabulary import WAVEFORM_WORDS, word_hint
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt,

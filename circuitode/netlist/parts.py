@@ -34,7 +34,7 @@ from ..model import circuit as cm
 from ..model import sources as src
 from . import expressions as ex
 from .expressions import did_you_mean
-from .quantities import parse_quantity
+from ..quantities import parse_quantity
 from .vocabulary import WAVEFORM_CLASSES, WAVEFORM_FIELDS
 
 __all__ = ["PartField", "part_names", "resolve_part", "set_parts", "expose_parts"]

@@ -18,7 +18,7 @@ import math
 from typing import Any
 
 from ..errors import NetlistError, Where
-from .quantities import format_si
+from ..quantities import format_si
 
 __all__ = ["pulse_times"]
 

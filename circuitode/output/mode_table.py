@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 from typing import Any, Sequence
 
-from ..netlist.quantities import format_si
+from ..quantities import format_si
 
 __all__ = ["modes_text", "mode_words", "modes_json", "write_modes_json", "zeta_words", "q_words"]
 

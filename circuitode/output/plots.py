@@ -2,7 +2,7 @@
 
 Matplotlib is imported inside the functions, with the non-interactive Agg
 backend, so importing circuitode never pulls it in.  Axes read in engineering
-notation (ms, kA …) through :func:`circuitode.netlist.quantities.si_scale`.
+notation (ms, kA …) through :func:`circuitode.quantities.si_scale`.
 """
 from __future__ import annotations
 
@@ -13,7 +13,7 @@ import numpy as np
 
 import math
 
-from ..netlist.quantities import format_si, si_scale
+from ..quantities import format_si, si_scale
 from .plot_layout import panels, running_integral, zoom_windows
 from .report import requirement_words
 

@@ -1,7 +1,7 @@
 """What a run tells its user: printed tables (≤ 80 columns) and the files of a run folder.
 
 No numerics here: every number arrives already computed (figures, limits,
-modes) and is only formatted, through :func:`circuitode.netlist.quantities.format_si`.
+modes) and is only formatted, through :func:`circuitode.quantities.format_si`.
 Plots live in :mod:`circuitode.output.plots` (matplotlib is imported only there, and
 only when a plot is drawn).
 """
@@ -30,7 +30,7 @@ from ..model.circuit import (
 )
 from ..analysis.measure import figure_unit
 from ..analysis.resolution import resolution_warnings
-from ..netlist.quantities import format_si
+from ..quantities import format_si
 from .mode_table import modes_text  # noqa: F401 - the modes table lives in its own module
 
 __all__ = [

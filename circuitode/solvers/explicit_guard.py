@@ -43,7 +43,7 @@ def check_explicit_work(name: str, eigenvalues, window: float, where: str = "") 
     steps = window * fastest / reach
     if steps <= MAX_EXPLICIT_STEPS:
         return
-    from ..netlist.quantities import format_si
+    from ..quantities import format_si
 
     place = f" {where}" if where else ""
     raise UnstableStepError(

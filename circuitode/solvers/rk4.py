@@ -101,7 +101,7 @@ def check_rk4_step(eigenvalues, step: float, where: str = "") -> None:
         lam = np.asarray(eigenvalues, dtype=complex).reshape(-1)
         binding = lam[np.argmin(limits)]
         place = f" {where}" if where else ""
-        from ..netlist.quantities import format_si
+        from ..quantities import format_si
 
         # the suggestion is rounded down to 3 significant digits, so it is itself stable
         scale = 10.0 ** (math.floor(math.log10(limit)) - 2)

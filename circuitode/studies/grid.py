@@ -30,7 +30,7 @@ from ..analysis.measure import figure_unit
 from ..errors import CircuitodeError, NetlistError
 from ..model.circuit import Circuit
 from ..netlist.parts import expose_parts, resolve_part
-from ..netlist.quantities import parse_quantity
+from ..quantities import parse_quantity
 from ..tolerance.batch import _check_supported, batch_figure_keys, run_chunk
 from ..tolerance.engine import BATCH_METHODS, output_grid
 

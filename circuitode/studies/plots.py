@@ -9,7 +9,7 @@
   figure, the limit drawn as a thick contour line and the region where every
   requirement holds hatched.
 
-Axes read in engineering notation through :func:`circuitode.netlist.quantities.si_scale`.
+Axes read in engineering notation through :func:`circuitode.quantities.si_scale`.
 """
 from __future__ import annotations
 
@@ -17,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from ..netlist.quantities import format_si, si_scale
+from ..quantities import format_si, si_scale
 
 __all__ = ["sweep_figure"]
 

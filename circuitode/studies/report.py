@@ -6,7 +6,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..analysis.measure import figure_unit
-from ..netlist.quantities import format_si
+from ..quantities import format_si
 from ..output.report import requirement_words
 
 __all__ = ["limit_words", "sweep_text", "size_text"]

@@ -81,7 +81,7 @@ class SizingResult:
         return 0 if self.intervals else 1
 
     def __repr__(self) -> str:
-        from ..netlist.quantities import format_si
+        from ..quantities import format_si
 
         spans = "; ".join(f"{format_si(iv.low, self.unit)} to {format_si(iv.high, self.unit)}"
                           for iv in self.intervals) or "no value meets every requirement"

@@ -4,7 +4,7 @@ One histogram per figure that a requirement limits (or, with no requirements,
 per figure, at most 8), with the limit drawn as a vertical line; one scatter of
 each of those figures against its strongest driver (largest |Spearman rho|).
 Axes read in engineering notation through
-:func:`circuitode.netlist.quantities.si_scale`.
+:func:`circuitode.quantities.si_scale`.
 """
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ..netlist.quantities import format_si, si_scale
+from ..quantities import format_si, si_scale
 from .summary import figure_label, varies
 
 __all__ = ["write_plots"]

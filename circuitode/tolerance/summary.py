@@ -1,6 +1,6 @@
 """The printed summary of a tolerance batch (≤ 80 columns); formatting only, no numerics.
 
-Values go through :func:`circuitode.netlist.quantities.format_si`, limits are
+Values go through :func:`circuitode.quantities.format_si`, limits are
 worded as in a single run's report, and a figure that does not vary over the
 batch (relative spread below 1e-9) gets no "strongest driver": a rank
 correlation of rounding noise would name a part that does not matter.
@@ -12,7 +12,7 @@ import textwrap
 
 import numpy as np
 
-from ..netlist.quantities import format_si
+from ..quantities import format_si
 from ..output.report import SAFETY_LINE, WIDTH, requirement_words
 
 __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]

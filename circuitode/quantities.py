@@ -20,7 +20,7 @@ from typing import Iterable
 
 import numpy as np
 
-from ..errors import NetlistError
+from .errors import NetlistError
 
 __all__ = [
     "PREFIXES",
