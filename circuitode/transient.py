@@ -27,6 +27,7 @@ from .errors import CircuitodeError
 from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
+from .equations.entry import enter
 from .checks.topology import verify
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
@@ -241,7 +242,7 @@ def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple
             if j == 0:
                 raise
             continue
-        out.append((conf, np.linalg.eigvals(ss.A) if ss.n_states else np.zeros(0, dtype=complex)))
+        out.append((conf, np.linalg.eigvals(ss.A_free) if ss.n_free else np.zeros(0, dtype=complex)))
     return out
 
 
@@ -351,6 +352,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     # -- initial state ---------------------------------------------------
     u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)
     x = np.asarray(initial_state(circuit, s.initial, ss0, u_before), dtype=float)
+    x = enter(circuit, ss0, x, 0.0, f"the {s.initial} initial state {describe_configuration(circuit, start)}")
 
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
     run.go(x, start, schedule)
@@ -400,13 +402,17 @@ class _Run:
         queue = list(schedule)
         t = 0.0
         while True:
-            # scheduled changes due now
+            # scheduled changes due now (all of one instant before the entry check)
+            acted = []
             while queue and queue[0][0] <= t + self.slack:
                 _, k, state = queue.pop(0)
                 if closed[k] != state:
                     u_b, u_a = self._inputs_around(t)
                     closed = self.switch(t, x, u_b, u_a, closed, k, state,
                                          _schedule_reason(circuit.switches[k]))
+                    acted.append(f"{circuit.switches[k].name} {'closes' if state else 'opens'}")
+            if acted:
+                x = enter(circuit, self.cache.get(closed), x, t, " and ".join(acted) + " on schedule")
             if t >= until - self.slack:
                 break
             t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
@@ -423,6 +429,7 @@ class _Run:
                 closed = self.switch(t, x, u_start[0], u_start[0], closed, k,
                                      circuit.switches[k].control.closes,
                                      _threshold_reason(circuit.switches[k]))
+                x = enter(circuit, self.cache.get(closed), x, t, _threshold_reason(circuit.switches[k]))
                 continue
             last = t_next >= until - self.slack
             upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
@@ -443,6 +450,7 @@ class _Run:
             u_end = segment.input_values(np.array([te]))[0]
             closed = self.switch(te, x, u_end, u_end, closed, k, circuit.switches[k].control.closes,
                                  _threshold_reason(circuit.switches[k]))
+            x = enter(circuit, self.cache.get(closed), x, te, _threshold_reason(circuit.switches[k]))
             t = te
 
     def _inputs_around(self, t):

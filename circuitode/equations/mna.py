@@ -35,6 +35,7 @@ __all__ = [
     "Samples",
     "inductance_matrix",
     "solve_companion",
+    "dense_system",
     "probe_rows",
 ]
 
@@ -223,6 +224,14 @@ def _right_hand_sides(circuit: Circuit, layout: Layout) -> np.ndarray:
         rhs[index[e.first], col] -= 1.0
         rhs[index[e.second], col] += 1.0
     return rhs[:-1]
+
+
+def dense_system(circuit: Circuit, layout: Layout, conductance: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The MNA matrices (N, size, size) and right-hand sides (size, n + m), one column
+    per state and per input, for the configurations whose matrix is singular
+    (solved by :mod:`circuitode.equations.constraints`)."""
+    rows, cols, vals = _stamp(layout, conductance)
+    return _dense(rows, cols, vals, layout.size), _right_hand_sides(circuit, layout)
 
 
 def solve_companion(circuit: Circuit, layout: Layout, conductance: np.ndarray, solver: str) -> np.ndarray:

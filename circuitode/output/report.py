@@ -196,8 +196,25 @@ def _element_spreads(circuit: Circuit, element_name: str) -> str:
     return _spread_words(circuit, names)
 
 
-def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = None) -> str:
-    """The printed summary of ``circuitode check``: nodes, elements, states, switches, findings."""
+def configuration_lines(configurations: Sequence[Any], indent: str = "  ") -> list[str]:
+    """Lines for each configuration's own states (ConfigurationStates)."""
+    out = []
+    for c in configurations:
+        if c.problem:
+            out.extend(_wrap(f"{c.description}, {c.when}: cannot be assembled", indent=indent))
+            continue
+        count = f"{len(c.free)} state{'' if len(c.free) == 1 else 's'}"
+        out.extend(_wrap(f"{c.description}, {c.when}: {count}"
+                         + (f" ({', '.join(c.free)})" if c.free else ""), indent=indent))
+        for d in c.dependent:
+            out.extend(_wrap(d, indent=indent + "    "))
+    return out
+
+
+def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = None,
+               configurations: Sequence[Any] = ()) -> str:
+    """The printed summary of ``circuitode check``: nodes, elements, states, switches, findings;
+    ``configurations`` (ConfigurationStates) adds each configuration's own states."""
     out = [f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else "")]
     out.append(f"nodes ({len(circuit.nodes)}): " + ", ".join(
         f"{n} (ground)" if n == circuit.ground else n for n in circuit.nodes))
@@ -228,6 +245,10 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
         out.append("switches:")
         for s in circuit.switches:
             out.extend(_wrap(f"{s.name}: {describe_control(s)}", indent="  "))
+    if configurations:
+        out.append("")
+        out.append(f"configurations ({len(configurations)}):")
+        out.extend(configuration_lines(configurations))
     if circuit.spreads:
         out.append("")
         out.append("tolerances:")
@@ -385,6 +406,11 @@ def modes_text(configurations: Sequence[Any], path: str | None = None, title: st
         when = "" if math.isnan(cfg.first_time) else f" from {format_si(cfg.first_time, 's')}"
         out.extend(_wrap(f"configuration: {cfg.description}{when}" + (f" ({cfg.cause})" if cfg.cause else ""),
                          indent=""))
+        if cfg.states is not None:
+            out.extend(_wrap(f"{len(cfg.states)} state{'' if len(cfg.states) == 1 else 's'}: "
+                             + (", ".join(cfg.states) or "none"), indent="  "))
+            for d in cfg.dependent:
+                out.extend(_wrap(d, indent="    "))
         if not cfg.modes:
             out.append("  no dynamic states in this configuration")
             continue

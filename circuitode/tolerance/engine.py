@@ -41,6 +41,7 @@ from ..model.source_batch import SourceBatch
 from ..model.sources import SourceBank
 from ..equations.statespace import VARIABLE_FIELDS
 from ..equations.statespace import StateSpaceCache, initial_state
+from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, fire_at_start, handle_crossings
@@ -180,6 +181,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     x = np.asarray(initial_state(circuit, mode, ss0, np.broadcast_to(u_before, (N, m))), dtype=float)
     x = np.where(ok[:, None], x, 0.0)
     n = x.shape[1]
+    x = _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, 0.0, ok, problems,
+                     f"the {mode} initial state")
 
     # each switching instant adds two rows (and stands for a grid instant it falls on)
     record = Record(N, t_grid.size + 2 * len(changes), 2 * len(rules), len(all_rows))
@@ -208,6 +211,9 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             record.all(a, y_end_before)
             for i, st in due:
                 timed[i] = st
+            w[:, :n] = _enter_batch(circuit, cache, key_for(tuple(timed)), code, w[:, :n], a, ok, problems,
+                                    " and ".join(f"{switches[i].name} {'closes' if st else 'opens'}"
+                                                 for i, st in due) + " on schedule")
         stretch = Stretch(method, cache, H, F, key_for(tuple(timed)), note)
         G_cur = stretch.G(code)
         y_now = matvec(G_cur, w)
@@ -395,6 +401,25 @@ def _batch_size(values: dict) -> int:
     if len(sizes) != 1:
         raise CircuitodeError("a chunk needs per-sample values of one common length")
     return sizes.pop()
+
+
+def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause) -> np.ndarray:
+    """States entering their configurations at ``time`` (shared instant), each sample in
+    the configuration of its code, put on the constraint; a sample whose state would need
+    an impulse (see equations.entry) is marked failed with the single run's words."""
+    x = np.array(x, dtype=float)
+    for c in np.unique(code):
+        ss = cache.get(key(int(c)))
+        if ss.basis is None:
+            continue
+        idx = np.flatnonzero(code == c)
+        projected, bad, messages = batch_entry(circuit, ss, x[idx], time, cause)
+        x[idx] = projected
+        for j, message in messages.items():
+            if ok[idx[j]]:
+                problems[int(idx[j])] = message
+        ok[idx[bad]] = False
+    return x
 
 
 def _collect(ss, ok: np.ndarray, problems: dict) -> None:
