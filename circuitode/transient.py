@@ -10,7 +10,8 @@ and the run restarts with the states carried over — capacitor voltages and
 inductor currents are continuous across every switching instant.
 
 At each switching instant two rows share the same time: the values just before
-and just after, so jumps of currents stay sharp.
+and just after, so jumps of currents stay sharp.  Diodes act at their own events
+and settle at every instant (:mod:`circuitode.commutation`).
 """
 from __future__ import annotations
 
@@ -28,6 +29,7 @@ from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method,
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from .equations.entry import enter
+from .commutation import Commutation, diode_probes
 from .checks.topology import verify
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
@@ -332,7 +334,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
                               "CurrentThrough('R1'), not text")
     warnings = _verify(circuit, s.until)
     wanted = recorded_probes(circuit, probes)
-    linear = _linear_probes(wanted)
+    linear = _linear_probes(wanted + diode_probes(circuit))  # diode rows for their events
     row_of = {p.label: j for j, p in enumerate(linear)}
     for sw in circuit.switches:
         if isinstance(sw.control, ThresholdRule) and isinstance(sw.control.probe, PowerIn):
@@ -355,6 +357,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     x = enter(circuit, ss0, x, 0.0, f"the {s.initial} initial state {describe_configuration(circuit, start)}")
 
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
+    run.diodes = Commutation(circuit, cache, bank, s.until)
     run.go(x, start, schedule)
     return run.waveforms(wanted, row_of, name, reason, warnings)
 
@@ -378,14 +381,16 @@ class _Run:
         if t.size:
             self.chunks.append((t, np.atleast_2d(x), np.atleast_2d(u), closed))
 
-    def switch(self, t, x, u_before, u_after, closed, k, state, reason):
-        """Record the rows just before and after a switch changes; return the new states."""
+    def switch(self, t, x, u_before, u_after, closed, k, state, reason, more=()):
+        """Record the rows just before and after a switch changes (with ``more`` changes
+        (k, state, reason) at the same instant); return the new states."""
         after = list(closed)
-        after[k] = state
+        for j, st, why in ((k, state, reason), *more):
+            after[j] = st
+            self.events.append(Event(float(t), self.circuit.switches[j].name, st, why))
         after = tuple(after)
         self.record([t], x[None, :], u_before[None, :], closed)
         self.record([t], x[None, :], u_after[None, :], after)
-        self.events.append(Event(float(t), self.circuit.switches[k].name, state, reason))
         self.used.setdefault(after, None)
         # a grid time at this instant is covered by the two rows
         while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
@@ -407,29 +412,24 @@ class _Run:
             while queue and queue[0][0] <= t + self.slack:
                 _, k, state = queue.pop(0)
                 if closed[k] != state:
-                    u_b, u_a = self._inputs_around(t)
-                    closed = self.switch(t, x, u_b, u_a, closed, k, state,
-                                         _schedule_reason(circuit.switches[k]))
-                    acted.append(f"{circuit.switches[k].name} {'closes' if state else 'opens'}")
-            if acted:
-                x = enter(circuit, self.cache.get(closed), x, t, " and ".join(acted) + " on schedule")
+                    acted.append((k, state, _schedule_reason(circuit.switches[k])))
+            closed, x = self.diodes.step_in(self, t, x, closed, acted)  # and the diodes settle
             if t >= until - self.slack:
                 break
             t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
             ss = self.cache.get(closed)
             self.used.setdefault(closed, None)
             segment = LinearSegment(ss.A, ss.B, self.bank, t, t_next, x)
-            watch = [(k, self._event(ss, circuit.switches[k])) for k in pending]
-            # a threshold already met at the start acts at once
             u_start = segment.input_values(np.array([t]))
-            fired = [k for k, ev in watch if self._strictly_met(ev, x, u_start)]
+            watch = [(k, self._event(ss, circuit.switches[k])) for k in pending]
+            watch += self.diodes.events(ss, closed, x, u_start[0]) if self.diodes.active else []
+            # a threshold already met at the start acts at once
+            fired = [k for k, ev in watch[:len(pending)] if self._strictly_met(ev, x, u_start)]
             if fired:
                 k = fired[0]
                 pending.remove(k)
-                closed = self.switch(t, x, u_start[0], u_start[0], closed, k,
-                                     circuit.switches[k].control.closes,
-                                     _threshold_reason(circuit.switches[k]))
-                x = enter(circuit, self.cache.get(closed), x, t, _threshold_reason(circuit.switches[k]))
+                closed, x = self.diodes.step_in(self, t, x, closed, [(
+                    k, circuit.switches[k].control.closes, _threshold_reason(circuit.switches[k]))])
                 continue
             last = t_next >= until - self.slack
             upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
@@ -445,20 +445,13 @@ class _Run:
             if result.event_time is None:
                 t = t_next
                 continue
+            if result.event_index >= len(pending):  # a diode: settled at the loop's top
+                t, self.diodes.fired = float(result.event_time), True
+                continue
             k = pending.pop(result.event_index)
-            te = float(result.event_time)
-            u_end = segment.input_values(np.array([te]))[0]
-            closed = self.switch(te, x, u_end, u_end, closed, k, circuit.switches[k].control.closes,
-                                 _threshold_reason(circuit.switches[k]))
-            x = enter(circuit, self.cache.get(closed), x, te, _threshold_reason(circuit.switches[k]))
-            t = te
-
-    def _inputs_around(self, t):
-        if not self.bank.m:
-            return np.zeros(0), np.zeros(0)
-        eps = 64 * np.finfo(float).eps * self.until  # past the sources' corner snapping
-        u = self.bank.values(np.array([max(t - eps, -np.finfo(float).tiny), t + eps]))
-        return u[0], u[1]
+            t = float(result.event_time)
+            closed, x = self.diodes.step_in(self, t, x, closed, [(
+                k, circuit.switches[k].control.closes, _threshold_reason(circuit.switches[k]))])
 
     @staticmethod
     def _event(ss, sw: Switch) -> LinearEvent:

@@ -50,6 +50,7 @@ from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
+    Diode,
     Inductor,
     Switch,
     VoltageSource,
@@ -256,11 +257,14 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
         for part in nx.connected_components(conducting_graph(circuit, states)):
             if circuit.ground in part or part & islands or frozenset(part) in seen:
                 continue
-            seen.add(frozenset(part))
             nodes = [n for n in circuit.nodes if n in part]
             users = node_users(circuit, nodes)
             inside = [i for i in users if not is_open(circuit.elements[i], states[i])]
             cut_off = [i for i in users if is_open(circuit.elements[i], states[i])]
+            if cut_off and all(isinstance(circuit.elements[i], Diode) for i in cut_off):
+                continue  # behind blocking diodes only: its common potential is set by the
+                # minimum-norm rule (equations.constraints); a diode turning on fixes it again
+            seen.add(frozenset(part))
             switches = _list(_names(circuit, cut_off))
             with_ = f" (with {_list(_names(circuit, inside))})" if inside else ""
             msg = (f"{_nodes_label(nodes)}{with_} {'loses' if len(nodes) == 1 else 'lose'} every path to ground "

@@ -68,12 +68,15 @@ NULL_TOLERANCE = 1e-9
 def free_basis(P: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
     """The free states of constraints ``P x = 0`` and the map from them to the full vector.
 
-    P : (k, n) constraint rows of rank k.  Column-pivoted QR picks k dependent
+    P : (·, n) constraint rows of rank k.  Column-pivoted QR picks k dependent
     states (pivots); the others are free.  Returns T (n, n - k) with ``x = T z``,
     ``T[free] = I``, and free (n - k,) indices.  Kirchhoff constraints have ±1
     coefficients, so T holds 0 and ±1 (rounding removed).
     """
     n = P.shape[1]
+    if k == 0:
+        return np.eye(n), np.arange(n)
+    P = np.linalg.svd(P)[2][:k]  # an orthonormal basis of the rows
     _, _, pivots = scipy.linalg.qr(P, pivoting=True, mode="economic")
     dependent = np.sort(pivots[:k])
     free = np.setdiff1d(np.arange(n), dependent)
@@ -86,14 +89,16 @@ def free_basis(P: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
     return T, free
 
 
-def solve_constrained(M: np.ndarray, rhs: np.ndarray, k: int, n: int,
+def solve_constrained(M: np.ndarray, rhs: np.ndarray, k: int, kc: int, n: int,
                       rates: Callable[[np.ndarray], np.ndarray], where: str):
     """Solve a companion network whose MNA matrix has k structural null directions.
 
     Parameters
     ----------
     M : (N, K, K) MNA matrices.  rhs : (K, n + m) one column per state and input.
-    k : number of null directions (independent constraints), from the graph.
+    k : number of null directions, from the graph: kc constraints plus one per node
+        group cut off by blocking ideal diodes.
+    kc : number of independent constraints on the states.
     n : number of states (capacitor voltages then inductor currents).
     rates : maps solutions (N, K + 1, c) (last row: ground, 0) to dx/dt, (N, n, c).
     where : words for the configuration, for messages.
@@ -131,18 +136,21 @@ def solve_constrained(M: np.ndarray, rhs: np.ndarray, k: int, n: int,
     Zp = np.swapaxes(Vh[:, :r, :], 1, 2) @ ((np.swapaxes(U[:, :, :r], 1, 2) @ rhs) / sv[:, :r, None])
     FV = rates(np.concatenate([Vnull, np.zeros((N, 1, k))], axis=1))
     PFV = P @ FV  # (N, k, k)
-    cond = np.linalg.cond(PFV)
-    if not np.all(np.isfinite(cond) & (cond < 1.0 / NULL_TOLERANCE)):
+    sv_pfv = np.linalg.svd(PFV, compute_uv=False) if k else np.zeros((N, 0))
+    top = np.maximum(sv_pfv[:, :1], 1e-300)
+    if kc and np.any(sv_pfv[:, kc - 1:kc] <= NULL_TOLERANCE * top):
         raise SingularSystemError(
             f"the circuit {where} has a part whose voltages no capacitor or inductor "
             "determines (a floating part behind open switches); add a resistor from it to ground "
             "or an off-resistance to the switch")
     Zp_full = np.concatenate([Zp, np.zeros((N, 1, Zp.shape[2]))], axis=1)
-    H = -np.linalg.solve(PFV, P @ rates(Zp_full))  # (N, k, n + m)
+    # rank kc: a group cut off by blocking diodes adds a null direction that no constraint
+    # fixes (its common potential); the pseudo-inverse leaves it at minimum norm
+    H = -np.linalg.pinv(PFV, rcond=NULL_TOLERANCE) @ (P @ rates(Zp_full))  # (N, k, n + m)
     Z = Zp + Vnull @ H
     Z = np.concatenate([Z, np.zeros((N, 1, Z.shape[2]))], axis=1)
-    T, free = free_basis(P[0], k)
-    if n and k and np.max(np.abs(P @ T), initial=0.0) > 1e-6 * max(1.0, float(np.max(np.abs(P)))):
+    T, free = free_basis(P[0], kc)
+    if n and kc and np.max(np.abs(P @ T), initial=0.0) > 1e-6 * max(1.0, float(np.max(np.abs(P)))):
         raise SingularSystemError(
             f"the circuit {where}: the constraints on its states differ between samples; "
             "run the samples one at a time")

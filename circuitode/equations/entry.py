@@ -80,10 +80,11 @@ def _scales(circuit: Circuit, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.maximum(v, 1.0), np.maximum(i, 1.0)
 
 
-def entry_violations(circuit: Circuit, ss: StateSpace, x: np.ndarray) -> tuple[np.ndarray, list]:
+def entry_violations(circuit: Circuit, ss: StateSpace, x: np.ndarray, atol: float = 0.0) -> tuple[np.ndarray, list]:
     """Which states violate the constraints of configuration ``ss``.
 
-    x : (n,) or (N, n) full state (V, A).
+    x : (n,) or (N, n) full state (V, A).  atol : a larger tolerance (V or A) where the
+    instant itself is known only to a band (a diode event).
 
     Returns
     -------
@@ -98,12 +99,12 @@ def entry_violations(circuit: Circuit, ss: StateSpace, x: np.ndarray) -> tuple[n
     v_scale, i_scale = _scales(circuit, x)
     for group in ss.held_groups:
         net, _ = _held_current(circuit, group, x)
-        wrong = np.abs(net) > ENTRY_TOLERANCE * i_scale
+        wrong = np.abs(net) > np.maximum(ENTRY_TOLERANCE * i_scale, atol)
         bad |= wrong
         found.append(("held", group, net, wrong))
     for loop in ss.tied_loops:
         total, _, _ = _loop_voltage(circuit, loop, x)
-        wrong = np.abs(total) > ENTRY_TOLERANCE * v_scale
+        wrong = np.abs(total) > np.maximum(ENTRY_TOLERANCE * v_scale, atol)
         bad |= wrong
         found.append(("tied", loop, total, wrong))
     return bad, found
@@ -140,7 +141,8 @@ def _words(circuit: Circuit, kind: str, item, x: np.ndarray, when: str, cause: s
     return message, switches[0] if switches else caps[0], dv
 
 
-def enter(circuit: Circuit, ss: StateSpace, x: np.ndarray, time: float, cause: str) -> np.ndarray:
+def enter(circuit: Circuit, ss: StateSpace, x: np.ndarray, time: float, cause: str,
+          atol: float = 0.0) -> np.ndarray:
     """The state entering configuration ``ss`` at ``time``, projected onto its constraint.
 
     x : (n,) full state.  cause : what brings the configuration about, e.g.
@@ -155,7 +157,7 @@ def enter(circuit: Circuit, ss: StateSpace, x: np.ndarray, time: float, cause: s
     x = np.asarray(x, dtype=float)
     if ss.basis is None:
         return x
-    bad, found = entry_violations(circuit, ss, x)
+    bad, found = entry_violations(circuit, ss, x, atol)
     if bad:
         kind, item, _, _ = next(f for f in found if f[3])
         message, element, value = _words(circuit, kind, item, x, f"at t = {format_si(time, 's')}", cause)

@@ -38,7 +38,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from ..model.circuit import Circuit, VoltageSource
+from ..model.circuit import Circuit, CurrentSource
 from .companion import (
     StateSpaceRequestError,
     build_layout,
@@ -243,10 +243,12 @@ def assemble(
         return np.concatenate([cap_rows, ind_rows], axis=1)
 
     basis = None
-    if layout.n_constraints:  # a configuration that ties states: see equations.constraints
+    if layout.n_null:  # a configuration that ties states: see equations.constraints
         M, rhs = dense_system(circuit, layout, conductance)
-        Z, basis, free = solve_constrained(M, rhs, layout.n_constraints, n, rates_of,
+        Z, basis, free = solve_constrained(M, rhs, layout.n_null, layout.n_constraints, n, rates_of,
                                            describe_configuration(circuit, closed))
+        if not layout.n_constraints:  # only parts cut off by blocking diodes: all states free
+            basis = None
     else:
         Z = solve_companion(circuit, layout, conductance, solver)
     rates = rates_of(Z)
@@ -256,7 +258,7 @@ def assemble(
     if basis is not None:  # on the constraint x = T Tᵀ x: held directions do not move
         projector = basis[:, :] @ np.eye(n)[free]  # Π = T S
         A, B, C = projector @ A @ projector, projector @ B, C @ projector
-    sources = circuit.sources
+    sources = circuit.inputs  # the sources, then the diodes' drops
     extra = {}
     if samples.batched:
         bad = ~samples.ok
@@ -271,7 +273,7 @@ def assemble(
         input_names=tuple(s.name for s in sources),
         output_labels=tuple(p.label for p in probes), output_units=tuple(p.unit for p in probes),
         closed=closed,
-        input_units=tuple("V" if isinstance(s, VoltageSource) else "A" for s in sources),
+        input_units=tuple("A" if isinstance(s, CurrentSource) else "V" for s in sources),
         basis=basis,
         free=None if basis is None else tuple(int(i) for i in free),
         tied_loops=tuple(tuple(loop) for loop in layout.tied_loops),

@@ -18,7 +18,7 @@ from typing import Any, Mapping, Protocol
 import networkx as nx
 
 from ..errors import Where
-from .sources import Waveform
+from .sources import Dc, Waveform
 
 __all__ = [
     "Resistor",
@@ -27,6 +27,8 @@ __all__ = [
     "VoltageSource",
     "CurrentSource",
     "Switch",
+    "Diode",
+    "DiodeRule",
     "Coupling",
     "TimedSchedule",
     "PeriodicSchedule",
@@ -141,6 +143,11 @@ class ThresholdRule:
 
 
 @dataclass(frozen=True)
+class DiodeRule:
+    """The control of a diode: it conducts while forward biased (see :class:`Diode`)."""
+
+
+@dataclass(frozen=True)
 class Switch:
     """A two-terminal switch. With no on/off resistance it is ideal (short / open)."""
 
@@ -159,6 +166,8 @@ class Switch:
             return c.initially_closed
         if isinstance(c, PeriodicSchedule):
             return c.start <= 0.0
+        if isinstance(c, DiodeRule):
+            return False  # blocking until the run finds it forward biased (at t = 0 too)
         return not c.closes
 
     def scheduled_changes(self, t0: float, t1: float) -> list[tuple[float, bool]]:
@@ -185,6 +194,26 @@ class Switch:
 
 
 @dataclass(frozen=True)
+class Diode(Switch):
+    """An ideal piecewise-linear diode from ``first`` (anode) to ``second`` (cathode).
+
+    Conducting ("closed"): a constant ``drop`` (V) in series with ``on_resistance``
+    (Ω; None: the drop alone).  Blocking ("open"): ``off_resistance`` (Ω) or, with
+    None, an open circuit.  It turns on when its voltage exceeds the drop and off
+    when its current falls to zero; the run finds those instants as events.  The
+    drop is a constant input of the state space (``waveform``), after the sources.
+    """
+
+    control: DiodeRule = DiodeRule()
+    drop: float = 0.0  # V, ≥ 0
+
+    @property
+    def waveform(self) -> Dc:
+        """The drop as a constant input, V."""
+        return Dc(float(self.drop))
+
+
+@dataclass(frozen=True)
 class Coupling:
     """Magnetic coupling of two inductors: M = k √(L1 L2), |k| < 1."""
 
@@ -195,7 +224,7 @@ class Coupling:
     where: Where | None = field(default=None, compare=False, repr=False)
 
 
-TwoTerminal = Resistor | Capacitor | Inductor | VoltageSource | CurrentSource | Switch
+TwoTerminal = Resistor | Capacitor | Inductor | VoltageSource | CurrentSource | Switch | Diode
 
 # --------------------------------------------------------------------------
 # Probes: what can be recorded, watched or limited
@@ -427,6 +456,15 @@ class Circuit:
     @property
     def sources(self) -> tuple[VoltageSource | CurrentSource, ...]:
         return tuple(e for e in self.elements if isinstance(e, (VoltageSource, CurrentSource)))
+
+    @property
+    def diodes(self) -> tuple["Diode", ...]:
+        return self.of_kind(Diode)
+
+    @property
+    def inputs(self) -> tuple:
+        """The state space's inputs in order: the sources, then each diode's drop."""
+        return self.sources + self.diodes
 
     @cached_property
     def state_names(self) -> tuple[str, ...]:

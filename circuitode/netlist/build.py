@@ -21,7 +21,7 @@ from . import expressions as ex
 from .expressions import did_you_mean
 from .quantities import check_unit, parse_quantity, unit_phrase
 from .syntax import (
-    CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt,
+    CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt, DiodeStmt,
     ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued,
 )
 from .vocabulary import (
@@ -338,6 +338,17 @@ class _Builder:
         off = self.value(st.off, "Ω", "an off-resistance", st.name, "off_resistance") if st.off else None
         self.elements.append(cm.Switch(st.name, st.first, st.second, control, on, off, where=st.where))
 
+    def on_diode(self, st: DiodeStmt) -> None:
+        self.declare(st.name, st.where)
+        drop = self.value(st.drop, "V", "a forward drop", st.name, "drop") if st.drop else 0.0
+        if not drop >= 0.0:
+            raise NetlistError("a diode's forward drop cannot be negative", st.drop.where,
+                               "write e.g. 'drop 0.8 V' (or leave it out for 0 V)")
+        on = self.value(st.on, "Ω", "an on-resistance", st.name, "on_resistance") if st.on else None
+        off = self.value(st.off, "Ω", "an off-resistance", st.name, "off_resistance") if st.off else None
+        self.elements.append(cm.Diode(st.name, st.first, st.second, on_resistance=on, off_resistance=off,
+                                      drop=drop, where=st.where))
+
     def on_transient(self, st: TransientStmt) -> None:
         if self.analysis is not None:
             raise NetlistError("a second 'transient' statement", st.where, "keep one; it sets the whole window")
@@ -443,6 +454,7 @@ class _Builder:
         probes: list[ProbeSpec] = []
         handlers = {TitleStmt: self.on_title, GroundStmt: self.on_ground, ElementStmt: self.on_element,
                     CouplingStmt: self.on_coupling, SourceStmt: self.on_source, SwitchStmt: self.on_switch,
+                    DiodeStmt: self.on_diode,
                     TransientStmt: self.on_transient, RecordStmt: self.on_record, RequireStmt: self.on_require}
         for st in self.statements:
             if isinstance(st, ParamStmt):

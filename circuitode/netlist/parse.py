@@ -21,7 +21,7 @@ from .expressions import did_you_mean
 from .quantities import read_quantity, split_unit
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt,
-    RequireStmt, SourceStmt, SwitchStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
+    RequireStmt, SourceStmt, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
     TransientStmt, Valued, WaveformSpec,
 )
 
@@ -143,6 +143,21 @@ class _ToTree(Transformer):
                 raise NetlistError(f"'{word}' is given twice for switch '{name}'", repeated[1].where,
                                    f"keep one '{word}' resistance")
         return SwitchStmt(str(name), str(first), str(second), control, on, off, self.at(name))
+
+    @v_args(meta=True)
+    def diode_stmt(self, meta, items):
+        name, first, second, *options = items
+        for word in ("drop", "on", "off"):
+            repeated = [v for k, v in options if k == word]
+            if len(repeated) > 1:
+                raise NetlistError(f"'{word}' is given twice for diode '{name}'", repeated[1].where,
+                                   f"keep one '{word}'")
+        value = {k: v for k, v in options}
+        return DiodeStmt(str(name), str(first), str(second), value.get("drop"), value.get("on"),
+                         value.get("off"), self.at(name))
+
+    def drop_option(self, items):
+        return ("drop", items[0])
 
     def timed_control(self, items):
         return TimedSpec(tuple(items))
@@ -285,7 +300,7 @@ class _ToTree(Transformer):
 #: Words that start a statement.
 STATEMENT_WORDS = (
     "circuit", "param", "ground", "resistor", "capacitor", "inductor", "coupling", "voltage_source",
-    "current_source", "switch", "transient", "record", "require", "include",
+    "current_source", "switch", "diode", "transient", "record", "require", "include",
 )
 
 _TERMINAL_WORDS = {

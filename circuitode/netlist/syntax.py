@@ -29,6 +29,7 @@ __all__ = [
     "CouplingStmt",
     "SourceStmt",
     "SwitchStmt",
+    "DiodeStmt",
     "TransientStmt",
     "RecordStmt",
     "RequireStmt",
@@ -182,6 +183,19 @@ class SwitchStmt:
 
 
 @dataclass(frozen=True)
+class DiodeStmt:
+    """``diode NAME anode -- cathode [drop V] [on Ω] [off Ω]``."""
+
+    name: str
+    first: str
+    second: str
+    drop: Valued | None
+    on: Valued | None
+    off: Valued | None
+    where: Where
+
+
+@dataclass(frozen=True)
 class TransientStmt:
     """settings : (word, Valued or str, where), word in until/step/points/method/initial."""
 
@@ -208,7 +222,7 @@ class RequireStmt:
 
 Statement = (
     TitleStmt | IncludeStmt | ParamStmt | GroundStmt | ElementStmt | CouplingStmt | SourceStmt | SwitchStmt
-    | TransientStmt | RecordStmt | RequireStmt
+    | DiodeStmt | TransientStmt | RecordStmt | RequireStmt
 )
 
 

@@ -20,6 +20,7 @@ from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
+    Diode,
     Inductor,
     PeriodicSchedule,
     Resistor,
@@ -70,6 +71,7 @@ _ELEMENT_WORDS = {
     VoltageSource: "voltage source",
     CurrentSource: "current source",
     Switch: "switch",
+    Diode: "diode",
 }
 
 
@@ -147,6 +149,10 @@ def describe_control(switch: Switch) -> str:
             f"toggles every {format_si(c.period, 's')}, closed {c.duty * 100:g} % of each "
             f"period from {format_si(c.start, 's')}"
         )
+    if isinstance(switch, Diode):
+        drop = format_si(switch.drop, "V")
+        return (f"diode, drop {drop}: conducts when its voltage exceeds {drop}, blocks when its "
+                "current falls to 0 A")
     if isinstance(c, ThresholdRule):
         verb = "closes" if c.closes else "opens"
         sign = ">" if c.above else "<"
@@ -167,6 +173,10 @@ def _value_words(e: Any) -> str:
         return describe_waveform(e.waveform, "V")
     if isinstance(e, CurrentSource):
         return describe_waveform(e.waveform, "A")
+    if isinstance(e, Diode):
+        on = "drop only" if e.on_resistance is None else format_si(e.on_resistance, "Ω")
+        off = "open" if e.off_resistance is None else format_si(e.off_resistance, "Ω")
+        return f"drop {format_si(e.drop, 'V')}, on {on}, off {off}"
     if isinstance(e, Switch):
         on = "ideal" if e.on_resistance is None else format_si(e.on_resistance, "Ω")
         off = "ideal" if e.off_resistance is None else format_si(e.off_resistance, "Ω")
@@ -242,7 +252,7 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
     out[-1:] = _wrap(out[-1], indent="", width=WIDTH)
     if circuit.switches:
         out.append("")
-        out.append("switches:")
+        out.append("switches and diodes:" if circuit.diodes else "switches:")
         for s in circuit.switches:
             out.extend(_wrap(f"{s.name}: {describe_control(s)}", indent="  "))
     if configurations:
@@ -341,7 +351,8 @@ def requirement_words(requirement: Any, unit: str) -> str:
 def event_words(event: Any) -> str:
     """E.g. "K_main closes when voltage at link > 43 V" or "K_pre closes (timed schedule)"."""
     head = f"{event.switch} {'closes' if event.closed else 'opens'}"
-    if event.reason.startswith(head + " "):
+    diode = f"{event.switch} {'starts' if event.closed else 'stops'} conducting"
+    if event.reason.startswith(head + " ") or event.reason.startswith(diode):
         return event.reason
     return f"{head} ({event.reason})"
 
