@@ -15,15 +15,21 @@ which the state may enter (no inductor current cut, see
 :mod:`circuitode.equations.entry`).  A quantity within the band
 ``DIODE_BAND × scale`` of its limit (scale = the largest state or input
 magnitude, at least 1) is a tie, decided by its slope: a conducting diode whose
-current is 0 and rising stays on, a blocking one whose voltage sits at the drop
-and falls stays off.  The band also keeps rounding noise on a current that is
+current is 0 stays on unless it falls, a blocking one whose voltage sits at the
+drop stays off unless it rises.  A conducting diode whose current is 0 and does
+not change is *idle*: in series with a blocking one its current is structurally
+0 (the first diode of a bridge to turn on, which anchors the floating DC side).  The band also keeps rounding noise on a current that is
 structurally zero (a diode in series with a blocking one) from firing.
 
 Search: keep the present configuration when it is consistent; otherwise
 enumerate every combination of the diodes that are inconsistent (then, if none
 fits, of all diodes, up to :data:`MAX_ENUMERATED`) and take the consistent one
-with the fewest changes.  No consistent configuration, or several with the
-same fewest changes, is refused with the diodes and the instant named.
+with the fewest idle diodes, then the fewest changes.  Candidates equally ranked
+that give every diode the same current differ only in which idle diode anchors
+a floating part (the two diodes of a bridge arm that stop together): they are
+equivalent and the first in file order is kept.  No consistent configuration,
+or several that differ in a current, is refused with the diodes and the
+instant named.
 
 Chattering: more than :data:`CHATTER_EVENTS` diode events within
 :data:`CHATTER_WINDOW` of the window stop the run, naming the diode and the
@@ -44,7 +50,7 @@ from .solvers import LinearEvent
 __all__ = ["DIODE_BAND", "CHATTER_EVENTS", "CHATTER_WINDOW", "MAX_ENUMERATED", "Commutation", "diode_probes"]
 
 #: Relative band around a diode's limits (drop, zero current) inside which it is a tie.
-DIODE_BAND = 1e-9
+DIODE_BAND = 1e-11
 #: More diode events than this within CHATTER_WINDOW × the window is chattering.
 CHATTER_EVENTS = 40
 CHATTER_WINDOW = 1e-9
@@ -127,17 +133,20 @@ class Commutation:
         rate = ss.A @ x + (ss.B @ u if u.size else 0.0)
         ydot = ss.C @ rate + (ss.D @ udot if u.size else 0.0)
         tie = band / 2
-        failing = []
+        failing, idle = [], 0
         rows = [self._rows(ss, self.circuit.switches[k].name) for k in self.index]
         slope_tol = 1e-9 * max(1.0, float(np.max(np.abs(ydot[[r for pair in rows for r in pair]]), initial=0.0)))
         for k, (v_row, i_row) in zip(self.index, rows):
             d = self.circuit.switches[k]
-            if closed[k]:
-                g, slope = y[i_row], ydot[i_row]  # must stay ≥ 0
-            else:
-                g, slope = d.drop - y[v_row], -ydot[v_row]  # drop − v must stay ≥ 0
+            if closed[k]:  # i ≥ 0, and not falling at i = 0
+                g, slope = y[i_row], ydot[i_row]
+                idle += int(abs(g) < tie and abs(slope) <= slope_tol)
+            else:  # drop − v ≥ 0, and v not rising at v = drop
+                g, slope = d.drop - y[v_row], -ydot[v_row]
             if g <= -tie or (abs(g) < tie and slope < -slope_tol):
                 failing.append(k)
+        self.idle = idle
+        self.currents = np.array([y[i_row] for _, i_row in rows])
         return failing
 
     def settle(self, t: float, x: np.ndarray, closed: tuple[bool, ...]) -> tuple[tuple[bool, ...], list[int]]:
@@ -158,7 +167,7 @@ class Commutation:
         groups = [failing] if failing else []
         if len(self.index) <= MAX_ENUMERATED and sorted(failing or []) != self.index:
             groups.append(self.index)
-        fits: list[tuple[bool, ...]] = []
+        fits: list[tuple[tuple[bool, ...], int, np.ndarray]] = []
         for group in groups:
             if len(group) > MAX_ENUMERATED:
                 continue
@@ -167,8 +176,9 @@ class Commutation:
                 for k, flip in zip(group, flips):
                     trial[k] = closed[k] != flip
                 trial = tuple(trial)
-                if trial != closed and trial not in fits and self._failing(trial, x, u, udot, band) == []:
-                    fits.append(trial)
+                if trial != closed and trial not in [f[0] for f in fits] and \
+                        self._failing(trial, x, u, udot, band) == []:
+                    fits.append((trial, self.idle, self.currents))
             if fits:
                 break
         when = f"at t = {_seconds(t)}"
@@ -179,8 +189,14 @@ class Commutation:
                 f"current ≥ 0, every blocking one with voltage ≤ its drop); diodes concerned: "
                 f"{', '.join(self.circuit.switches[k].name for k in (failing or self.index))}. "
                 "Check for diodes in anti-parallel with no resistance, or give them an on-resistance")
-        fewest = min(len(names(c)) for c in fits)
-        nearest = [c for c in fits if len(names(c)) == fewest]
+        rank = lambda fit: (fit[1], len(names(fit[0])))  # fewest idle conducting diodes, then changes
+        best = min(rank(f) for f in fits)
+        tied = [f for f in fits if rank(f) == best]
+        nearest = [f[0] for f in tied]
+        if len(nearest) > 1 and all(np.allclose(f[2], tied[0][2], rtol=0, atol=band) for f in tied):
+            # they differ only in which idle diode anchors a part that blocking diodes cut
+            # off (every diode current the same): equivalent, keep the first in file order
+            nearest = nearest[:1]
         if len(nearest) > 1:
             options = "; ".join("changing " + ", ".join(names(c)) for c in nearest)
             raise CircuitodeError(

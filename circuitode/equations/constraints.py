@@ -135,8 +135,8 @@ def solve_constrained(M: np.ndarray, rhs: np.ndarray, k: int, kc: int, n: int,
             "source across a tied capacitor loop); add an off-resistance or a parallel resistor")
     Zp = np.swapaxes(Vh[:, :r, :], 1, 2) @ ((np.swapaxes(U[:, :, :r], 1, 2) @ rhs) / sv[:, :r, None])
     FV = rates(np.concatenate([Vnull, np.zeros((N, 1, k))], axis=1))
-    PFV = P @ FV  # (N, k, k)
-    sv_pfv = np.linalg.svd(PFV, compute_uv=False) if k else np.zeros((N, 0))
+    PFV = P @ FV  # (N, k, k), of rank kc
+    Up, sv_pfv, Vhp = np.linalg.svd(PFV)
     top = np.maximum(sv_pfv[:, :1], 1e-300)
     if kc and np.any(sv_pfv[:, kc - 1:kc] <= NULL_TOLERANCE * top):
         raise SingularSystemError(
@@ -146,7 +146,8 @@ def solve_constrained(M: np.ndarray, rhs: np.ndarray, k: int, kc: int, n: int,
     Zp_full = np.concatenate([Zp, np.zeros((N, 1, Zp.shape[2]))], axis=1)
     # rank kc: a group cut off by blocking diodes adds a null direction that no constraint
     # fixes (its common potential); the pseudo-inverse leaves it at minimum norm
-    H = -np.linalg.pinv(PFV, rcond=NULL_TOLERANCE) @ (P @ rates(Zp_full))  # (N, k, n + m)
+    pinv = np.swapaxes(Vhp[:, :kc], 1, 2) @ (np.swapaxes(Up[:, :, :kc], 1, 2) / sv_pfv[:, :kc, None])
+    H = -pinv @ (P @ rates(Zp_full))  # (N, k, n + m)
     Z = Zp + Vnull @ H
     Z = np.concatenate([Z, np.zeros((N, 1, Z.shape[2]))], axis=1)
     T, free = free_basis(P[0], kc)
