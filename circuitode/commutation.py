@@ -13,13 +13,14 @@ event) :func:`Commutation.settle` looks for the configuration in which every
 conducting diode has current ≥ 0 and every blocking one voltage ≤ its drop, and
 which the state may enter (no inductor current cut, see
 :mod:`circuitode.equations.entry`).  A quantity within the band
-``DIODE_BAND × scale`` of its limit (scale = the largest state or input
+``DIODE_TIE × scale`` of its limit (scale = the largest state or input
 magnitude, at least 1) is a tie, decided by its slope: a conducting diode whose
 current is 0 stays on unless it falls, a blocking one whose voltage sits at the
 drop stays off unless it rises.  A conducting diode whose current is 0 and does
 not change is *idle*: in series with a blocking one its current is structurally
-0 (the first diode of a bridge to turn on, which anchors the floating DC side).  The band also keeps rounding noise on a current that is
-structurally zero (a diode in series with a blocking one) from firing.
+0 (the first diode of a bridge to turn on, which anchors the floating DC side).  Events fire ``DIODE_BAND × scale`` past the limit, which keeps rounding
+noise on a current that is structurally zero (a diode in series with a
+blocking one) from firing.
 
 Search: keep the present configuration when it is consistent; otherwise
 enumerate every combination of the diodes that are inconsistent (then, if none
@@ -47,10 +48,14 @@ from .errors import CircuitodeError, IntegrationError
 from .model.circuit import Circuit, CurrentThrough, Diode, VoltageAcross
 from .solvers import LinearEvent
 
-__all__ = ["DIODE_BAND", "CHATTER_EVENTS", "CHATTER_WINDOW", "MAX_ENUMERATED", "Commutation", "diode_probes"]
+__all__ = ["DIODE_BAND", "DIODE_TIE", "CHATTER_EVENTS", "CHATTER_WINDOW", "MAX_ENUMERATED", "Commutation", "diode_probes"]
 
-#: Relative band around a diode's limits (drop, zero current) inside which it is a tie.
+#: Relative band beyond a diode's limits (drop, zero current) at which its events fire.
 DIODE_BAND = 1e-11
+#: Relative band around a diode's limits inside which the settling search calls it a tie
+#: and decides by the slope; wider than the event band and than the error of a located
+#: instant (slope × located time), so an event always lands inside it.
+DIODE_TIE = 1e-7
 #: More diode events than this within CHATTER_WINDOW × the window is chattering.
 CHATTER_EVENTS = 40
 CHATTER_WINDOW = 1e-9
@@ -132,7 +137,7 @@ class Commutation:
         y = ss.C @ x + (ss.D @ u if u.size else 0.0)
         rate = ss.A @ x + (ss.B @ u if u.size else 0.0)
         ydot = ss.C @ rate + (ss.D @ udot if u.size else 0.0)
-        tie = band / 2
+        tie = band * DIODE_TIE / DIODE_BAND
         failing, idle = [], 0
         rows = [self._rows(ss, self.circuit.switches[k].name) for k in self.index]
         slope_tol = 1e-9 * max(1.0, float(np.max(np.abs(ydot[[r for pair in rows for r in pair]]), initial=0.0)))
@@ -232,7 +237,8 @@ class Commutation:
         u_b, u_a = self.inputs_around(t)
         closed = run.switch(t, x, u_b, u_a, closed, *changes[0], more=changes[1:])
         band = self._band(x, u_a)
-        x = enter(self.circuit, self.cache.get(closed), x, t, "; ".join(c[2] for c in changes), atol=4 * band)
+        x = enter(self.circuit, self.cache.get(closed), x, t, "; ".join(c[2] for c in changes),
+                  atol=band * DIODE_TIE / DIODE_BAND)
         return closed, x
 
     def note(self, t: float, changed: list[int]) -> None:
