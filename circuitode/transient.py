@@ -10,8 +10,7 @@ and the run restarts with the states carried over — capacitor voltages and
 inductor currents are continuous across every switching instant.
 
 At each switching instant two rows share the same time: the values just before
-and just after, so jumps of currents stay sharp.  Diodes act at their own events
-and settle at every instant (:mod:`circuitode.commutation`).
+and just after, so jumps of currents stay sharp.  Diodes: :mod:`circuitode.commutation`.
 """
 from __future__ import annotations
 
@@ -253,8 +252,8 @@ def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple
 # --------------------------------------------------------------------------
 
 
-def _threshold_reason(sw: Switch) -> str:
-    rule = sw.control
+def _threshold_reason(sw: Switch, closed: bool) -> str:
+    rule = sw.control.move(closed)
     verb = "closes" if rule.closes else "opens"
     return (f"{sw.name} {verb} when {rule.probe.label} {'>' if rule.above else '<'} "
             f"{rule.level:g} {rule.probe.unit}")
@@ -421,15 +420,12 @@ class _Run:
             self.used.setdefault(closed, None)
             segment = LinearSegment(ss.A, ss.B, self.bank, t, t_next, x)
             u_start = segment.input_values(np.array([t]))
-            watch = [(k, self._event(ss, circuit.switches[k])) for k in pending]
+            watch = [(k, self._event(ss, circuit.switches[k], closed[k])) for k in pending]
             watch += self.diodes.events(ss, closed, x, u_start[0]) if self.diodes.active else []
             # a threshold already met at the start acts at once
             fired = [k for k, ev in watch[:len(pending)] if self._strictly_met(ev, x, u_start)]
             if fired:
-                k = fired[0]
-                pending.remove(k)
-                closed, x = self.diodes.step_in(self, t, x, closed, [(
-                    k, circuit.switches[k].control.closes, _threshold_reason(circuit.switches[k]))])
+                closed, x = self._act(t, x, closed, fired[0], pending)
                 continue
             last = t_next >= until - self.slack
             upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
@@ -448,14 +444,19 @@ class _Run:
             if result.event_index >= len(pending):  # a diode: settled at the loop's top
                 t, self.diodes.fired = float(result.event_time), True
                 continue
-            k = pending.pop(result.event_index)
-            t = float(result.event_time)
-            closed, x = self.diodes.step_in(self, t, x, closed, [(
-                k, circuit.switches[k].control.closes, _threshold_reason(circuit.switches[k]))])
+            t, (closed, x) = float(result.event_time), self._act(
+                float(result.event_time), x, closed, pending[result.event_index], pending)
+
+    def _act(self, t, x, closed, k, pending):
+        """Threshold switch k acts at t (once, or each time for one with hysteresis)."""
+        sw = self.circuit.switches[k]
+        if not sw.control.repeats:
+            pending.remove(k)
+        return self.diodes.step_in(self, t, x, closed, [(k, not closed[k], _threshold_reason(sw, closed[k]))])
 
     @staticmethod
-    def _event(ss, sw: Switch) -> LinearEvent:
-        rule = sw.control
+    def _event(ss, sw: Switch, closed: bool) -> LinearEvent:
+        rule = sw.control.move(closed)
         row = ss.output_labels.index(rule.probe.label)
         return LinearEvent(ss.C[row], ss.D[row], rule.level, rising=rule.above)
 

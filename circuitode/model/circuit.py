@@ -33,6 +33,7 @@ __all__ = [
     "TimedSchedule",
     "PeriodicSchedule",
     "ThresholdRule",
+    "HysteresisRule",
     "NodeVoltage",
     "VoltageBetween",
     "VoltageAcross",
@@ -140,6 +141,32 @@ class ThresholdRule:
     probe: "Probe"
     above: bool
     level: float
+
+    #: False: acts once.  (A :class:`HysteresisRule` acts each time.)
+    repeats = False
+
+    def move(self, closed: bool) -> "ThresholdRule":
+        """The rule for the switch's next move from state ``closed`` (itself: it acts once)."""
+        return self
+
+
+@dataclass(frozen=True)
+class HysteresisRule(ThresholdRule):
+    """A threshold switch with hysteresis that acts each time its condition is met:
+    ``closes when v > 43 V, opens when v < 40 V``.  The first clause is that of
+    :class:`ThresholdRule` (and gives the starting state); ``back_above`` and
+    ``back_level`` are the clause that moves it back, on the same probe.
+    """
+
+    back_above: bool = False
+    back_level: float = 0.0
+    repeats = True
+
+    def move(self, closed: bool) -> ThresholdRule:
+        """The clause that moves a switch now in state ``closed``."""
+        if closed != self.closes:
+            return ThresholdRule(self.closes, self.probe, self.above, self.level)
+        return ThresholdRule(not self.closes, self.probe, self.back_above, self.back_level)
 
 
 @dataclass(frozen=True)

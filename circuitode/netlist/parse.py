@@ -173,6 +173,11 @@ class _ToTree(Transformer):
         move, probe, comparison, level = items
         return ThresholdSpec(str(move) == "closes", probe, str(comparison), level)
 
+    def hysteresis_control(self, items):
+        move, probe, comparison, level, move2, probe2, comparison2, level2 = items
+        back = ThresholdSpec(str(move2) == "closes", probe2, str(comparison2), level2, where=self.at(move2))
+        return ThresholdSpec(str(move) == "closes", probe, str(comparison), level, back, self.at(move))
+
     def on_option(self, items):
         return ("on", items[0])
 

@@ -103,12 +103,15 @@ class ToggleSpec:
 
 @dataclass(frozen=True)
 class ThresholdSpec:
-    """``closes when voltage at link > 43 V``."""
+    """``closes when voltage at link > 43 V``; with ``back`` (a second ThresholdSpec, the
+    opposite move) a switch with hysteresis that acts each time."""
 
     closes: bool
     probe: ProbeSpec
     comparison: str
     level: Valued
+    back: "ThresholdSpec | None" = None
+    where: Where | None = None
 
 
 @dataclass(frozen=True)

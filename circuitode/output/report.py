@@ -154,9 +154,10 @@ def describe_control(switch: Switch) -> str:
         return (f"diode, drop {drop}: conducts when its voltage exceeds {drop}, blocks when its "
                 "current falls to 0 A")
     if isinstance(c, ThresholdRule):
-        verb = "closes" if c.closes else "opens"
-        sign = ">" if c.above else "<"
-        return f"{verb} when {c.probe.label} {sign} {format_si(c.level, c.probe.unit)}"
+        clauses = [c.move(not c.closes)] + ([c.move(c.closes)] if c.repeats else [])
+        words = ", ".join(f"{'closes' if r.closes else 'opens'} when {r.probe.label} {'>' if r.above else '<'} "
+                          f"{format_si(r.level, r.probe.unit)}" for r in clauses)
+        return words + (" (each time)" if c.repeats else "")
     return str(c)
 
 

@@ -35,7 +35,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..model.circuit import Circuit, CurrentThrough, PowerIn, ThresholdRule, VoltageAcross
+from ..model.circuit import Circuit, CurrentThrough, Diode, HysteresisRule, PowerIn, ThresholdRule, VoltageAcross
 from ..errors import CircuitodeError
 from ..model.source_batch import SourceBatch
 from ..model.sources import SourceBank
@@ -118,16 +118,19 @@ def linear_probes(probes) -> tuple[list, list]:
 
 
 def refuse_diodes(circuit: Circuit) -> None:
-    """Batches do not follow diodes yet: each sample would need its own sequence of
-    configurations.  Refuse before any work, naming the diode and what to do."""
-    if circuit.diodes:
-        d = circuit.diodes[0]
-        where = f"{d.where}: " if d.where is not None else ""
-        raise CircuitodeError(
-            f"{where}diode {d.name}: tolerance batches do not follow diodes yet (each sample would "
-            "switch them at its own instants, and the batch engine shares configurations between "
-            "samples); run single runs with `circuitode run --set NAME=VALUE` for the corners "
-            "you need, or replace the diode by a switch for the batch")
+    """Batches do not follow diodes or switches with hysteresis yet: each sample would
+    need its own sequence of configurations.  Refuse before any work, naming the
+    statement and what to do."""
+    for s in circuit.switches:
+        if isinstance(s, Diode) or isinstance(s.control, HysteresisRule):
+            where = f"{s.where}: " if s.where is not None else ""
+            what = (f"diode {s.name}: tolerance batches do not follow diodes yet" if isinstance(s, Diode) else
+                    f"switch {s.name} acts each time its conditions are met: tolerance batches do not "
+                    "follow switches with hysteresis yet")
+            raise CircuitodeError(
+                f"{where}{what} (each sample would switch at its own instants, again and again, and "
+                "the batch engine does not yet follow such sequences); run single runs with "
+                "`circuitode run --set NAME=VALUE` for the corners you need")
 
 
 def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exact") -> ChunkWaves:
