@@ -269,3 +269,38 @@ def test_diode_statement_and_its_mistakes():
         loads("ground g\nvoltage_source V a -- g dc 1 V\ndiode D a -- g drop 3 Ω\n")
     with pytest.raises(CircuitodeError, match="given twice"):
         loads("ground g\nvoltage_source V a -- g dc 1 V\ndiode D a -- g on 1 Ω on 2 Ω\n")
+
+
+# ---------------------------------------------------------------- chattering, check
+
+
+def test_chattering_stops_the_run_naming_the_diode_and_the_instant():
+    # Structural: many diode events within a tiny time stop the run instead of crawling.
+    from circuitode.commutation import CHATTER_EVENTS, Commutation
+    from circuitode.errors import IntegrationError
+
+    ckt = loads(BRIDGE)
+    watcher = Commutation(ckt, None, None, until=0.04)
+    k = [s.name for s in ckt.switches].index("D3")
+    with pytest.raises(IntegrationError, match=r"diode D3 chatters at t = 12 ms"):
+        for _ in range(CHATTER_EVENTS + 1):
+            watcher.note(12e-3, [k])
+    quiet = Commutation(ckt, None, None, until=0.04)
+    for j in range(3 * CHATTER_EVENTS):  # the same number spread over the window is fine
+        quiet.note(j * 1e-4, [k])
+
+
+def test_check_lists_diodes_and_each_configuration_with_its_states(capsys):
+    from pathlib import Path
+
+    from circuitode.cli import main
+
+    root = Path(__file__).resolve().parent.parent / "netlists"
+    assert main(["check", str(root / "bridge_rectifier.cnet")]) == 0
+    out = capsys.readouterr().out
+    assert "diode          D1" in out and "drop 900 mV, on 20 mΩ, off open" in out
+    assert "configurations (32):" in out and "D1 conducting" in out
+    assert main(["check", str(root / "precharge_cable.cnet")]) == 0
+    out = capsys.readouterr().out
+    assert "from the start: 1 state (voltage across C1)" in out
+    assert "current through L_cab is held at 0 A while K_pre and K_main are open" in out
