@@ -80,6 +80,7 @@ class Commutation:
         self.index = [k for k, s in enumerate(circuit.switches) if isinstance(s, Diode)]
         self.recent: deque = deque()
         self.fired = False  # a diode event ended the last segment
+        self.idle_diodes: set[int] = set()  # conducting with no current, in the last configuration judged
 
     @property
     def active(self) -> bool:
@@ -139,13 +140,16 @@ class Commutation:
         ydot = ss.C @ rate + (ss.D @ udot if u.size else 0.0)
         tie = band * DIODE_TIE / DIODE_BAND
         failing, idle = [], 0
+        self.idle_diodes = set()
         rows = [self._rows(ss, self.circuit.switches[k].name) for k in self.index]
         slope_tol = 1e-9 * max(1.0, float(np.max(np.abs(ydot[[r for pair in rows for r in pair]]), initial=0.0)))
         for k, (v_row, i_row) in zip(self.index, rows):
             d = self.circuit.switches[k]
             if closed[k]:  # i ≥ 0, and not falling at i = 0
                 g, slope = y[i_row], ydot[i_row]
-                idle += int(abs(g) < tie and abs(slope) <= slope_tol)
+                if abs(g) < tie and abs(slope) <= slope_tol:
+                    idle += 1
+                    self.idle_diodes.add(k)
             else:  # drop − v ≥ 0, and v not rising at v = drop
                 g, slope = d.drop - y[v_row], -ydot[v_row]
             if g <= -tie or (abs(g) < tie and slope < -slope_tol):
@@ -208,6 +212,7 @@ class Commutation:
                 f"{when} several combinations of diode states are consistent ({options}), so the "
                 "ideal model cannot decide; give the diodes distinct drops or on-resistances")
         chosen = nearest[0]
+        self._failing(chosen, x, u, udot, band)  # note its idle diodes for the event words
         return chosen, [k for k in self.index if chosen[k] != closed[k]]
 
     def step_in(self, run, t: float, x: np.ndarray, closed: tuple[bool, ...], acted) -> tuple:
@@ -231,7 +236,8 @@ class Commutation:
         if changed or self.fired:
             self.note(t, changed)
         self.fired = False
-        changes = list(acted) + [(k, new[k], reason(self.circuit, k, new[k])) for k in changed]
+        changes = list(acted) + [(k, new[k], reason(self.circuit, k, new[k], k in self.idle_diodes))
+                                 for k in changed]
         if not changes:
             return closed, x
         u_b, u_a = self.inputs_around(t)
@@ -257,9 +263,11 @@ class Commutation:
                 "an on-resistance or an off-resistance, or add a small snubber across it")
 
 
-def reason(circuit: Circuit, k: int, conducting: bool) -> str:
+def reason(circuit: Circuit, k: int, conducting: bool, idle: bool = False) -> str:
     """Words for a diode event."""
     d = circuit.switches[k]
+    if conducting and idle:
+        return f"{d.name} starts conducting, no current yet (the other diodes block its path)"
     if conducting:
         return f"{d.name} starts conducting (forward voltage reached {_volts(d.drop)})"
     return f"{d.name} stops conducting (current fell to 0 A)"

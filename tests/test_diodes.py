@@ -304,3 +304,31 @@ def test_check_lists_diodes_and_each_configuration_with_its_states(capsys):
     out = capsys.readouterr().out
     assert "from the start: 1 state (voltage across C1)" in out
     assert "current through L_cab is held at 0 A while K_pre and K_main are open" in out
+
+
+def test_bridge_energy_balance_and_the_floating_dc_side():
+    # Conservation of energy (Tellegen's theorem, Nilsson & Riedel ch. 1 power balance):
+    # source energy = resistor losses + diode losses + ½ C v², for a bridge fed straight from
+    # the mains sine; until the first diodes conduct the DC side floats (all four block).
+    text = """
+circuit "bridge, no contactor"
+ground gnd
+voltage_source mains src -- gnd sine amplitude 325 V frequency 50 Hz
+resistor R_s src -- ac1 4.7 Ω
+diode D1 ac1 -- p drop 0.9 V on 20 mΩ
+diode D2 gnd -- p drop 0.9 V on 20 mΩ
+diode D3 n -- ac1 drop 0.9 V on 20 mΩ
+diode D4 n -- gnd drop 0.9 V on 20 mΩ
+capacitor C_bulk p -- n 2.2 mF initial 0 V
+resistor R_load p -- n 47 Ω
+transient until 40 ms step 2 us method exact
+record power in mains, power in R_s, power in R_load, power in D1, power in D2, power in D3, power in D4, voltage between p and n
+"""
+    w = simulate(loads(text))
+    t = w.t
+    energy = lambda name: np.trapezoid(w[f"power in {name}"], t)
+    supplied = -energy("mains")
+    losses = energy("R_s") + energy("R_load") + sum(energy(f"D{k}") for k in range(1, 5))
+    stored = 0.5 * 2.2e-3 * w["voltage between p and n"][-1] ** 2
+    assert supplied == pytest.approx(losses + stored, rel=1e-6)
+    assert sorted(e.switch for e in w.events[:2]) == ["D1", "D4"]
