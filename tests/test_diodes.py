@@ -332,3 +332,16 @@ record power in mains, power in R_s, power in R_load, power in D1, power in D2, 
     stored = 0.5 * 2.2e-3 * w["voltage between p and n"][-1] ** 2
     assert supplied == pytest.approx(losses + stored, rel=1e-6)
     assert sorted(e.switch for e in w.events[:2]) == ["D1", "D4"]
+
+
+@pytest.mark.parametrize("method", ["rk45", "dop853", "radau", "bdf", "rk4"])
+def test_every_integrator_follows_the_diode(method):
+    # [Structural] the same half-wave run with each integrator: the same diode events, and
+    # waveforms equal to the exact method's within the integrator's tolerance.
+    exact = simulate(half_wave(until=0.05))
+    other = simulate(half_wave(until=0.05), method=method, step=1e-5 if method == "rk4" else None)
+    assert [e.closed for e in other.events] == [e.closed for e in exact.events]
+    np.testing.assert_allclose([e.time for e in other.events], [e.time for e in exact.events], rtol=0, atol=1e-6)
+    ref = exact["voltage at dc"]
+    np.testing.assert_allclose(np.interp(exact.t, other.t, other["voltage at dc"]), ref, rtol=0,
+                               atol=1e-4 * np.max(np.abs(ref)))
