@@ -206,3 +206,19 @@ def test_batch_marks_the_sample_that_would_interrupt_a_current():
     chunk = simulate_chunk(base, {("R1", "resistance"): np.array([1.0, 2.0])}, [CurrentThrough("L1")])
     assert not chunk.ok.any()
     assert all("L1 carries" in chunk.problems[k] for k in (0, 1))
+
+
+def test_batch_threshold_switch_opening_on_a_current_fails_that_sample():
+    # [Structural] as the single run refuses it, a batch marks the sample whose threshold
+    # switch would interrupt the inductor current as failed, with the same words.
+    from circuitode.model.circuit import ThresholdRule
+
+    base = interrupted()
+    trip = Switch("K", "b", "c", ThresholdRule(False, CurrentThrough("L1"), True, 10.0))
+    ckt = dataclasses.replace(base, elements=tuple(trip if e.name == "K" else e for e in base.elements))
+    with pytest.raises(ImpulsiveSwitchingError, match="L1 carries 10 A"):
+        simulate(ckt)
+    chunk = simulate_chunk(ckt, {("R1", "resistance"): np.array([1.0, 10.0])}, [CurrentThrough("L1")])
+    # R1 = 1 Ω reaches 10 A and trips; R1 = 10 Ω tops out at 4.8 A and never does
+    assert list(chunk.ok) == [False, True]
+    assert "L1 carries 10 A" in chunk.problems[0]

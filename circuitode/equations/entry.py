@@ -165,16 +165,19 @@ def enter(circuit: Circuit, ss: StateSpace, x: np.ndarray, time: float, cause: s
     return ss.project(x)
 
 
-def batch_entry(circuit: Circuit, ss: StateSpace, x: np.ndarray, time: float, cause: str):
-    """:func:`enter` for a batch: x (N, n) → (projected x, bad (N,), message per bad sample)."""
+def batch_entry(circuit: Circuit, ss: StateSpace, x: np.ndarray, time, cause: str):
+    """:func:`enter` for a batch: x (N, n), time s (scalar or (N,)) → (projected x,
+    bad (N,), message per bad sample)."""
     from ..netlist.quantities import format_si
 
     x = np.asarray(x, dtype=float)
     if ss.basis is None:
         return x, np.zeros(x.shape[0], dtype=bool), {}
     bad, found = entry_violations(circuit, ss, x)
+    times = np.broadcast_to(np.asarray(time, dtype=float), (x.shape[0],))
     messages = {}
     for i in np.flatnonzero(bad):
         kind, item, _, _ = next(f for f in found if f[3][i])
-        messages[int(i)] = _words(circuit, kind, item, x[i], f"at t = {format_si(time, 's')}", cause)[0]
+        when = f"at t = {format_si(float(times[i]), 's')}"
+        messages[int(i)] = _words(circuit, kind, item, x[i], when, cause)[0]
     return ss.project(x), bad, messages

@@ -170,6 +170,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     ok = np.ones(N, dtype=bool)
     problems: dict[int, str] = {}
 
+    def enter_at(idx, x, t):  # a threshold switch acted for samples idx at instants t
+        return _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, t, ok, problems,
+                            "a threshold switch acts", idx)
+    watch.enter = enter_at
+
     def note(ss) -> None:
         _collect(ss, ok, problems)
 
@@ -421,22 +426,27 @@ def _batch_size(values: dict) -> int:
     return sizes.pop()
 
 
-def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause) -> np.ndarray:
-    """States entering their configurations at ``time`` (shared instant), each sample in
-    the configuration of its code, put on the constraint; a sample whose state would need
-    an impulse (see equations.entry) is marked failed with the single run's words."""
+def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause, samples=None) -> np.ndarray:
+    """States x entering their configurations at ``time`` (s, scalar or one per row), each
+    sample in the configuration of its code, put on the constraint; a sample whose state
+    would need an impulse (see equations.entry) is marked failed with the single run's
+    words.  samples : the sample index of each row of x (all samples when None)."""
     x = np.array(x, dtype=float)
-    for c in np.unique(code):
+    samples = np.arange(code.size) if samples is None else np.asarray(samples)
+    times = np.broadcast_to(np.asarray(time, dtype=float), (samples.size,))
+    sub = code[samples]
+    for c in np.unique(sub):
         ss = cache.get(key(int(c)))
         if ss.basis is None:
             continue
-        idx = np.flatnonzero(code == c)
-        projected, bad, messages = batch_entry(circuit, ss, x[idx], time, cause)
-        x[idx] = projected
+        rows = np.flatnonzero(sub == c)
+        projected, bad, messages = batch_entry(circuit, ss, x[rows], times[rows], cause)
+        x[rows] = projected
         for j, message in messages.items():
-            if ok[idx[j]]:
-                problems[int(idx[j])] = message
-        ok[idx[bad]] = False
+            i = int(samples[rows[j]])
+            if ok[i]:
+                problems[i] = message
+        ok[samples[rows[bad]]] = False
     return x
 
 

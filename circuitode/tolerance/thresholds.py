@@ -33,6 +33,9 @@ class Watch:
     rows: list
     tol: float
     event_times: np.ndarray
+    #: called as enter(samples, states (K, n), instants (K,)) after samples switch: returns
+    #: the states put on their new configuration's constraint (failing the impossible ones)
+    enter: object = None
 
     def __post_init__(self):
         self.levels = np.array([r.level for r in self.rules])
@@ -69,6 +72,9 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
         record.some(idx, np.full(idx.size, a), y_now[idx])
         code[idx] |= (1 << which)
         watch.event_times[idx, which] = a
+        if watch.enter is not None:
+            n = w.shape[1] - stretch.F.shape[0]
+            w[idx, :n] = watch.enter(idx, w[idx, :n], np.full(idx.size, a))
         G_cur[idx] = stretch.G(code, idx)
         y_now[idx] = matvec(G_cur[idx], w[idx])
         record.some(idx, np.full(idx.size, a), y_now[idx])
@@ -105,6 +111,9 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
         t_event, at = t_prev[rows] + tau, pos[rows]
         code[sub] |= (1 << which)
         watch.event_times[sub, which] = t_event
+        if watch.enter is not None:
+            n = w_e.shape[1] - stretch.F.shape[0]
+            w_e[:, :n] = watch.enter(sub, w_e[:, :n], t_event)
         G_new = stretch.G(code, sub)
         y_after = matvec(G_new, w_e)
         record.some(sub, t_event, y_before, at)
