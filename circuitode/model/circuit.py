@@ -142,8 +142,7 @@ class ThresholdRule:
     above: bool
     level: float
 
-    #: False: acts once.  (A :class:`HysteresisRule` acts each time.)
-    repeats = False
+    repeats = False  # acts once (a HysteresisRule acts each time)
 
     def move(self, closed: bool) -> "ThresholdRule":
         """The rule for the switch's next move from state ``closed`` (itself: it acts once)."""
@@ -152,11 +151,9 @@ class ThresholdRule:
 
 @dataclass(frozen=True)
 class HysteresisRule(ThresholdRule):
-    """A threshold switch with hysteresis that acts each time its condition is met:
-    ``closes when v > 43 V, opens when v < 40 V``.  The first clause is that of
-    :class:`ThresholdRule` (and gives the starting state); ``back_above`` and
-    ``back_level`` are the clause that moves it back, on the same probe.
-    """
+    """A threshold switch with hysteresis, acting each time (``closes when v > 43 V, opens
+    when v < 40 V``): the first clause (also the starting state) as in ThresholdRule;
+    ``back_above``, ``back_level`` the clause that moves it back, on the same probe."""
 
     back_above: bool = False
     back_level: float = 0.0
@@ -226,10 +223,9 @@ class Diode(Switch):
 
     Conducting ("closed"): a constant ``drop`` (V) in series with ``on_resistance``
     (Ω; None: the drop alone).  Blocking ("open"): ``off_resistance`` (Ω) or, with
-    None, an open circuit.  It turns on when its voltage exceeds the drop and off
-    when its current falls to zero; the run finds those instants as events.  The
-    drop is a constant input of the state space (``waveform``), after the sources.
-    """
+    None, an open circuit.  It turns on when its voltage exceeds the drop, off when
+    its current falls to zero (events of the run).  The drop is a constant input of
+    the state space (``waveform``), after the sources."""
 
     control: DiodeRule = DiodeRule()
     drop: float = 0.0  # V, ≥ 0
@@ -484,9 +480,7 @@ class Circuit:
     def sources(self) -> tuple[VoltageSource | CurrentSource, ...]:
         return tuple(e for e in self.elements if isinstance(e, (VoltageSource, CurrentSource)))
 
-    @property
-    def diodes(self) -> tuple["Diode", ...]:
-        return self.of_kind(Diode)
+    diodes = property(lambda self: self.of_kind(Diode), doc="The diodes, in file order.")
 
     @property
     def inputs(self) -> tuple:
