@@ -10,7 +10,6 @@ import pytest
 from circuitode.errors import CircuitodeError, NetlistError
 from circuitode.model.circuit import HysteresisRule
 from circuitode.netlist import loads
-from circuitode.tolerance.engine import refuse_diodes
 from circuitode.transient import simulate
 
 DUMP = """
@@ -61,6 +60,27 @@ def test_clauses_that_cannot_work_are_refused(clause, words):
         loads(text)
 
 
-def test_batches_refuse_switches_with_hysteresis():
-    with pytest.raises(CircuitodeError, match="switch K acts each time.*hysteresis"):
-        refuse_diodes(loads(DUMP))
+def test_batch_with_hysteresis_equals_single_runs():
+    # [Structural] each sample follows its own sequence of configurations (the dump switch
+    # closes and opens at instants that depend on R1); the batch equals single runs.
+    import dataclasses
+
+    from circuitode.model.circuit import CurrentThrough, NodeVoltage
+    from circuitode.tolerance.engine import simulate_chunk
+
+    base = loads(DUMP)
+    R = np.array([8.0, 10.0, 12.0, 30.0])  # 30 Ω: link tops out at 48 V, still closes
+    chunk = simulate_chunk(base, {("R1", "resistance"): R}, [NodeVoltage("link"), CurrentThrough("K")])
+    assert chunk.ok.all()
+    counts = set()
+    for k, r in enumerate(R):
+        one = dataclasses.replace(base, elements=tuple(
+            dataclasses.replace(e, resistance=float(r)) if e.name == "R1" else e for e in base.elements))
+        w = simulate(one, probes=[NodeVoltage("link"), CurrentThrough("K")])
+        n = w.t.size  # a sample with fewer switchings than another is padded with its last row
+        assert np.all(chunk.t[k][n:] == chunk.t[k][n - 1])
+        np.testing.assert_allclose(chunk.t[k][:n], w.t, rtol=0, atol=1e-12)
+        np.testing.assert_allclose(chunk.signals[0][k][:n], w["voltage at link"], rtol=1e-9, atol=1e-9)
+        np.testing.assert_allclose(chunk.signals[1][k][:n], w["current through K"], rtol=1e-9, atol=1e-9)
+        counts.add(len(w.events))
+    assert len(counts) > 1  # the samples did follow sequences of different lengths

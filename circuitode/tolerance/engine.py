@@ -35,7 +35,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..model.circuit import Circuit, CurrentThrough, Diode, HysteresisRule, PowerIn, ThresholdRule, VoltageAcross
+from ..model.circuit import Circuit, CurrentThrough, Diode, PowerIn, ThresholdRule, VoltageAcross
 from ..errors import CircuitodeError
 from ..model.source_batch import SourceBatch
 from ..model.sources import SourceBank
@@ -118,18 +118,15 @@ def linear_probes(probes) -> tuple[list, list]:
 
 
 def refuse_diodes(circuit: Circuit) -> None:
-    """Batches do not follow diodes or switches with hysteresis yet: each sample would
-    need its own sequence of configurations.  Refuse before any work, naming the
-    statement and what to do."""
+    """Batches do not follow diodes yet: each sample would need its own sequence of
+    diode combinations.  Refuse before any work, naming the diode and what to do."""
     for s in circuit.switches:
-        if isinstance(s, Diode) or isinstance(s.control, HysteresisRule):
+        if isinstance(s, Diode):
             where = f"{s.where}: " if s.where is not None else ""
-            what = (f"diode {s.name}: tolerance batches do not follow diodes yet" if isinstance(s, Diode) else
-                    f"switch {s.name} acts each time its conditions are met: tolerance batches do not "
-                    "follow switches with hysteresis yet")
             raise CircuitodeError(
-                f"{where}{what} (each sample would switch at its own instants, again and again, and "
-                "the batch engine does not yet follow such sequences); run single runs with "
+                f"{where}diode {s.name}: tolerance batches do not follow diodes yet (each sample "
+                "would switch them at its own instants, several at once, and the batch engine does "
+                "not yet settle such combinations); run single runs with "
                 "`circuitode run --set NAME=VALUE` for the corners you need")
 
 
@@ -247,7 +244,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             # (a sample that switched just now repeats its "after" row here: an interval
             # of zero length that changes no figure)
             record.all(a, y_now)
-        g_prev = watch.values(y_now)
+        g_prev = watch.values(y_now, code)
 
         upper = (t_grid <= b + slack) if last else (t_grid < b - slack)
         slots = np.flatnonzero((t_grid > a + slack) & upper)
@@ -333,7 +330,7 @@ class _Stepper:
             self.phi[h] = self.stretch.phi(self.code, h)
         w_new = matvec(self.phi[h], w)
         y = matvec(self.G_cur, w_new)
-        g = watch.values(y)
+        g = watch.values(y, self.code)
         if watch.k:
             turned = (g_prev < 0.0) & (g >= 0.0)
             if turned.any() and (crossed := turned & watch.pending(self.code) & self.ok[:, None]).any():
@@ -359,7 +356,7 @@ class _Stepper:
             self.powers[h, K] = self.stretch.powers(code, h, K)
         W = _apply_powers(self.powers[h, K][:, :Kb], w)  # (N, Kb, s)
         Y = self.G_cur @ np.swapaxes(W, 1, 2)  # (N, p, Kb)
-        g = watch.values(Y)  # (N, k, Kb)
+        g = watch.values(Y, code)  # (N, k, Kb)
         if watch.k:
             cols = np.arange(Kb)
             t_before = np.concatenate([[t_start], ts[:-1]])
@@ -390,7 +387,7 @@ class _Stepper:
                     W[idx] = W_idx
                     Y_new = self.G_cur[idx] @ np.swapaxes(W_idx, 1, 2)
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
-                    g[idx] = watch.values(Y[idx])
+                    g[idx] = watch.values(Y[idx], code[idx])
                 settled[idx] = j
         record.columns(np.asarray(ts, dtype=float), Y)
         return W[:, -1], Y[:, :, -1], g[:, :, -1]
