@@ -229,11 +229,14 @@ def _check(args: argparse.Namespace) -> int:
     from .output.report import check_text
     from .checks.topology import diagnose
 
+    from .analysis.configuration_states import configuration_states
     from .output.report import caution_text
 
     circuit = _load(args.netlist)
     diagnostics = diagnose(circuit)
-    print(check_text(circuit, diagnostics, path=args.netlist))
+    ready = circuit.switches and not any(d.severity == "error" for d in diagnostics)
+    configurations = configuration_states(circuit) if ready else ()
+    print(check_text(circuit, diagnostics, path=args.netlist, configurations=configurations))
     print(f"\n{caution_text()}")
     return 2 if any(d.severity == "error" for d in diagnostics) else 0
 

@@ -24,6 +24,7 @@ __all__ = [
     "BadValueError",
     "DuplicateNameError",
     "SingularSystemError",
+    "ImpulsiveSwitchingError",
     "IntegrationError",
     "UnstableStepError",
 ]
@@ -164,6 +165,20 @@ class SingularSystemError(CircuitodeError):
 
     Raised with words about the circuit (which loop or cut set) wherever possible.
     """
+
+
+class ImpulsiveSwitchingError(CircuitodeError):
+    """A switch would move a state in zero time: open an ideal switch on an inductor
+    current, or parallel capacitors at different voltages through an ideal switch.
+
+    time : s, the instant.  element : the switch (or what acted).  value : the current
+    interrupted (A) or the voltage difference closed on (V).
+    """
+
+    def __init__(self, message: str, time: float | None = None, element: str | None = None,
+                 value: float | None = None):
+        self.time, self.element, self.value = time, element, value
+        super().__init__(message)
 
 
 class IntegrationError(CircuitodeError):

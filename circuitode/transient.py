@@ -11,6 +11,7 @@ inductor currents are continuous across every switching instant.
 
 At each switching instant and source breakpoint two rows share the same time:
 the values just before and just after, so jumps of currents stay sharp.
+Diodes: :mod:`circuitode.commutation`.
 """
 from __future__ import annotations
 
@@ -29,6 +30,8 @@ from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method,
 from .solvers.explicit_guard import check_explicit_work
 from .model.sources import SourceBank
 from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
+from .equations.entry import enter
+from .commutation import Commutation, diode_probes
 from .checks.topology import verify
 from .carried import carried_by_run
 from .run_settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
@@ -176,7 +179,7 @@ def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple
             if j == 0:
                 raise
             continue
-        out.append((conf, np.linalg.eigvals(ss.A) if ss.n_states else np.zeros(0, dtype=complex)))
+        out.append((conf, np.linalg.eigvals(ss.A_free) if ss.n_free else np.zeros(0, dtype=complex)))
     return out
 
 
@@ -185,8 +188,8 @@ def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple
 # --------------------------------------------------------------------------
 
 
-def _threshold_reason(sw: Switch) -> str:
-    rule = sw.control
+def _threshold_reason(sw: Switch, closed: bool) -> str:
+    rule = sw.control.move(closed)
     verb = "closes" if rule.closes else "opens"
     return (f"{sw.name} {verb} when {rule.probe.label} {'>' if rule.above else '<'} "
             f"{rule.level:g} {rule.probe.unit}")
@@ -273,7 +276,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
                               "CurrentThrough('R1'), not text")
     warnings = _verify(circuit, s.until)
     wanted = recorded_probes(circuit, probes)
-    linear = _linear_probes(wanted)
+    linear = _linear_probes(wanted + diode_probes(circuit))  # diode rows for their events
     row_of = {p.label: j for j, p in enumerate(linear)}
     for sw in circuit.switches:
         if isinstance(sw.control, ThresholdRule) and isinstance(sw.control.probe, PowerIn):
@@ -293,9 +296,11 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     # -- initial state ---------------------------------------------------
     u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)
     x = np.asarray(initial_state(circuit, s.initial, ss0, u_before), dtype=float)
+    x = enter(circuit, ss0, x, 0.0, f"the {s.initial} initial state {describe_configuration(circuit, start)}")
 
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
     run.tally = IntegralTally(wanted, row_of)
+    run.diodes = Commutation(circuit, cache, bank, s.until)
     run.go(x, start, schedule)
     return run.waveforms(wanted, row_of, name, reason, warnings)
 
@@ -319,14 +324,16 @@ class _Run:
         if t.size:
             self.chunks.append((t, np.atleast_2d(x), np.atleast_2d(u), closed))
 
-    def switch(self, t, x, u_before, u_after, closed, k, state, reason):
-        """Record the rows just before and after a switch changes; return the new states."""
+    def switch(self, t, x, u_before, u_after, closed, k, state, reason, more=()):
+        """Record the rows just before and after a switch changes (with ``more`` changes
+        (k, state, reason) at the same instant); return the new states."""
         after = list(closed)
-        after[k] = state
+        for j, st, why in ((k, state, reason), *more):
+            after[j] = st
+            self.events.append(Event(float(t), self.circuit.switches[j].name, st, why))
         after = tuple(after)
         self.record([t], x[None, :], u_before[None, :], closed)
         self.record([t], x[None, :], u_after[None, :], after)
-        self.events.append(Event(float(t), self.circuit.switches[k].name, state, reason))
         self.used.setdefault(after, None)
         # a grid time at this instant is covered by the two rows
         while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
@@ -344,29 +351,26 @@ class _Run:
         queue = list(schedule)
         t = 0.0
         while True:
-            # scheduled changes due now
+            # scheduled changes due now (all of one instant before the entry check)
+            acted = []
             while queue and queue[0][0] <= t + self.slack:
                 _, k, state = queue.pop(0)
                 if closed[k] != state:
-                    u_b, u_a = self._inputs_around(t)
-                    closed = self.switch(t, x, u_b, u_a, closed, k, state,
-                                         _schedule_reason(circuit.switches[k]))
+                    acted.append((k, state, _schedule_reason(circuit.switches[k])))
+            closed, x = self.diodes.step_in(self, t, x, closed, acted)  # and the diodes settle
             if t >= until - self.slack:
                 break
             t_next = float(stops[np.searchsorted(stops, t + self.slack, side="right")])
             ss = self.cache.get(closed)
             self.used.setdefault(closed, None)
             segment = LinearSegment(ss.A, ss.B, self.bank, t, t_next, x)
-            watch = [(k, self._event(ss, circuit.switches[k])) for k in pending]
-            # a threshold already met at the start acts at once
             u_start = segment.input_values(np.array([t]))
-            fired = [k for k, ev in watch if self._strictly_met(ev, x, u_start)]
+            watch = [(k, self._event(ss, circuit.switches[k], closed[k])) for k in pending]
+            watch += self.diodes.events(ss, closed, x, u_start[0]) if self.diodes.active else []
+            # a threshold already met at the start acts at once
+            fired = [k for k, ev in watch[:len(pending)] if self._strictly_met(ev, x, u_start)]
             if fired:
-                k = fired[0]
-                pending.remove(k)
-                closed = self.switch(t, x, u_start[0], u_start[0], closed, k,
-                                     circuit.switches[k].control.closes,
-                                     _threshold_reason(circuit.switches[k]))
+                closed, x = self._act(t, x, closed, fired[0], pending)
                 continue
             last = t_next >= until - self.slack
             upto = np.searchsorted(self.grid, t_next + (self.slack if last else -self.slack),
@@ -385,12 +389,11 @@ class _Run:
                 t = t_next
                 self.corner(t, x, closed, queue)
                 continue
-            k = pending.pop(result.event_index)
-            te = float(result.event_time)
-            u_end = segment.input_values(np.array([te]))[0]
-            closed = self.switch(te, x, u_end, u_end, closed, k, circuit.switches[k].control.closes,
-                                 _threshold_reason(circuit.switches[k]))
-            t = te
+            if result.event_index >= len(pending):  # a diode: settled at the loop's top
+                t, self.diodes.fired = float(result.event_time), True
+                continue
+            t, (closed, x) = float(result.event_time), self._act(
+                float(result.event_time), x, closed, pending[result.event_index], pending)
 
     def corner(self, t, x, closed, queue):
         """Rows just before and after a source breakpoint at ``t`` (s), unless a switch acts then."""
@@ -408,10 +411,16 @@ class _Run:
         eps = 64 * np.finfo(float).eps * self.until  # past the sources' corner snapping
         u = self.bank.values(np.array([max(t - eps, -np.finfo(float).tiny), t + eps]))
         return u[0], u[1]
+    def _act(self, t, x, closed, k, pending):
+        """Threshold switch k acts at t (once, or each time for one with hysteresis)."""
+        sw = self.circuit.switches[k]
+        if not sw.control.repeats:
+            pending.remove(k)
+        return self.diodes.step_in(self, t, x, closed, [(k, not closed[k], _threshold_reason(sw, closed[k]))])
 
     @staticmethod
-    def _event(ss, sw: Switch) -> LinearEvent:
-        rule = sw.control
+    def _event(ss, sw: Switch, closed: bool) -> LinearEvent:
+        rule = sw.control.move(closed)
         row = ss.output_labels.index(rule.probe.label)
         return LinearEvent(ss.C[row], ss.D[row], rule.level, rising=rule.above)
 

@@ -255,14 +255,32 @@ def test_parallel_ideal_switches_share_no_undetermined_current():
 # --------------------------------------------------------------------------
 
 
-def test_capacitor_loop_is_named():
+def test_capacitors_paralleled_by_a_closed_ideal_switch_share_one_state():
+    # Two capacitors joined by an ideal switch are one capacitor C1 + C2 (Nilsson & Riedel
+    # ch. 6, parallel capacitors): one free state, τ = R (C1 + C2).
     ckt = circuit(VoltageSource("V", "in", "0", Dc(1)), Resistor("R", "in", "a", 1.0),
                   Capacitor("C1", "a", "0", 1e-6), Switch("K", "a", "b", NEVER),
+                  Capacitor("C2", "b", "0", 3e-6))
+    assert assemble(ckt, (False,)).n_free == 2  # open: both free
+    ss = assemble(ckt, (True,), [CurrentThrough("K"), CurrentThrough("C2")])
+    assert ss.n_states == 2 and ss.n_free == 1 and len(ss.tied_loops) == 1
+    np.testing.assert_allclose(np.linalg.eigvals(ss.A_free), [-1.0 / 4e-6], rtol=1e-12)
+    # on the constraint both voltages rise together, the charging current splits 1 : 3
+    x = np.array([0.25, 0.25])
+    rate = ss.A @ x + ss.B @ [1.0]
+    np.testing.assert_allclose(rate, [(1 - 0.25) / 4e-6] * 2, rtol=1e-12)
+    y = ss.C @ x + ss.D @ [1.0]
+    np.testing.assert_allclose(y, [0.75 * 3 / 4, 0.75 * 3 / 4], rtol=1e-12)
+
+
+def test_capacitor_loop_with_a_source_is_named():
+    ckt = circuit(VoltageSource("V", "in", "0", Dc(1)), Resistor("R", "in", "a", 1.0),
+                  Capacitor("C1", "a", "0", 1e-6), Switch("K", "in", "b", NEVER),
                   Capacitor("C2", "b", "0", 1e-6))
     assemble(ckt, (False,))  # open: fine
     with pytest.raises(SingularSystemError, match="with K closed") as err:
         assemble(ckt, (True,))
-    assert all(name in str(err.value) for name in ("C1", "C2", "K")) and "resistance" in str(err.value)
+    assert all(name in str(err.value) for name in ("V", "C2", "K")) and "resistance" in str(err.value)
 
 
 def test_shorted_source_and_inductor_cutset_are_named():

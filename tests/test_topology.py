@@ -251,18 +251,25 @@ def paralleled(on_resistance=None, at=2e-3):
     )
 
 
-def test_switch_paralleling_a_charged_capacitor_at_2ms():
-    # Alexander & Sadiku ch. 6 (from memory): two capacitors at different voltages joined
-    # with no resistance must equalise charge in zero time (infinite current); [CDK] the
-    # closed loop also leaves only one free state for the pair.
-    c = paralleled()
-    found = errors(c)
+def test_switch_paralleling_capacitors_is_left_to_the_run():
+    # [CDK]: the closed loop leaves only one free state for the pair, which the state
+    # space handles (equations.constraints); whether the voltages differ when K closes is
+    # known only at that instant, so the run refuses it there with the charge and energy
+    # (tests/test_switching.py).  A loop that holds a voltage source stays an error.
+    assert errors(paralleled()) == []
+    with_source = circuit(
+        SOURCE,
+        Switch("K", "in", "b", closes_at(2e-3)),
+        Capacitor("C2", "b", "gnd", 100e-6),
+        Resistor("R2", "b", "gnd", 1e3),
+    )
+    found = errors(with_source)
     assert [d.code for d in found] == ["capacitor-loop"]
-    assert set(found[0].elements) == {"C1", "C2", "K"}
+    assert set(found[0].elements) == {"V1", "C2", "K"}
     assert "2 ms" in found[0].message and "K closes" in found[0].message
     assert "on-resistance" in found[0].fix
     with pytest.raises(CapacitorLoopError) as info:
-        verify(c)
+        verify(with_source)
     assert info.value.diagnostics == tuple(found)
 
 
@@ -325,17 +332,13 @@ def interrupted(off_resistance=None):
     )
 
 
-def test_inductor_whose_series_switch_opens():
-    # [NR6]: the inductor current cannot be broken in zero time (v = L di/dt).
-    c = interrupted()
-    found = errors(c)
-    assert [(d.code, set(d.elements)) for d in found] == [("inductor-cutset", {"L1", "K"})]
-    assert "5 ms" in found[0].message and "K opens" in found[0].message
-    assert "off-resistance" in found[0].fix
-    with pytest.raises(InductorCutsetError):
-        verify(c)
+def test_inductor_behind_an_open_switch_is_left_to_the_run():
+    # [NR6]: the inductor current cannot be broken in zero time (v = L di/dt); while K is
+    # open it is held at 0 (one state fewer), so the configuration itself is no error.
+    # Whether K opens on a current is known only at that instant: the run refuses it there
+    # (tests/test_switching.py).
+    assert errors(interrupted()) == []
     assert errors(interrupted(off_resistance=1e6)) == []
-    assert errors(c, until=4e-3) == []
 
 
 def test_series_inductors_with_nothing_at_the_junction():
@@ -475,7 +478,7 @@ def test_duplicate_names_point_at_the_second_use():
 
 
 def test_verify_carries_every_error_and_names_the_first():
-    c = circuit(*paralleled().elements, Resistor("Rx", "a", "nowhere", 1.0))
+    c = circuit(*paralleled().elements, Capacitor("Cv", "in", "gnd", 1e-6), Resistor("Rx", "a", "nowhere", 1.0))
     with pytest.raises(UnconnectedNodeError) as info:
         verify(c)
     assert [d.code for d in info.value.diagnostics] == ["unconnected-node", "capacitor-loop"]
@@ -600,7 +603,7 @@ def test_dc_explanation_exactly_when_the_state_matrix_is_singular():
         if errors(c):
             continue
         closed = tuple(s.initially_closed for s in c.switches)
-        A = assemble(c, closed).A
+        A = assemble(c, closed).A_free  # the configuration's own states (held ones excluded)
         if A.shape[0] == 0:
             continue
         singular = np.linalg.matrix_rank(A, tol=1e-9) < A.shape[0]

@@ -136,6 +136,8 @@ class ConfigurationModes:
     first_time: float
     cause: str
     modes: tuple[Mode, ...]
+    states: tuple[str, ...] | None = None  # the configuration's free states (None: not given)
+    dependent: tuple[str, ...] = ()  # one sentence per state an ideal switch ties or holds
 
 
 # --------------------------------------------------------------------------
@@ -384,11 +386,14 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
     """
     from ..equations.statespace import assemble, describe_configuration
     from ..model.configurations import reachable_configurations
+    from .configuration_states import dependent_words
 
     out = []
     for configuration in reachable_configurations(circuit, until):
         system = assemble(circuit, configuration.closed)
-        modes = analyse_modes(system.A, system.state_names, state_units=system.state_units, **options)
+        # the configuration's own free states: held inductor currents and tied
+        # capacitor voltages are no modes (see equations.constraints)
+        modes = analyse_modes(system.A_free, system.free_names, state_units=system.free_units, **options)
         out.append(
             ConfigurationModes(
                 closed=tuple(configuration.closed),
@@ -396,6 +401,8 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
                 first_time=configuration.first_time,
                 cause=configuration.cause,
                 modes=modes,
+                states=system.free_names,
+                dependent=dependent_words(system),
             )
         )
     return out

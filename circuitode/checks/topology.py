@@ -50,6 +50,7 @@ from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
+    Diode,
     Inductor,
     Switch,
     VoltageSource,
@@ -256,11 +257,14 @@ def check_floating_parts(circuit: Circuit, configurations: Sequence[Configuratio
         for part in nx.connected_components(conducting_graph(circuit, states)):
             if circuit.ground in part or part & islands or frozenset(part) in seen:
                 continue
-            seen.add(frozenset(part))
             nodes = [n for n in circuit.nodes if n in part]
             users = node_users(circuit, nodes)
             inside = [i for i in users if not is_open(circuit.elements[i], states[i])]
             cut_off = [i for i in users if is_open(circuit.elements[i], states[i])]
+            if cut_off and all(isinstance(circuit.elements[i], Diode) for i in cut_off):
+                continue  # behind blocking diodes only: its common potential is set by the
+                # minimum-norm rule (equations.constraints); a diode turning on fixes it again
+            seen.add(frozenset(part))
             switches = _list(_names(circuit, cut_off))
             with_ = f" (with {_list(_names(circuit, inside))})" if inside else ""
             msg = (f"{_nodes_label(nodes)}{with_} {'loses' if len(nodes) == 1 else 'lose'} every path to ground "
@@ -361,7 +365,11 @@ def check_capacitor_loops(circuit: Circuit, configurations: Sequence[Configurati
     with at least one capacitor, in any reachable configuration.
 
     Such a loop ties the capacitor voltages together (one fewer free state) and,
-    when a switch closes it onto unequal voltages, moves charge in zero time.
+    when a switch closes it onto unequal voltages, moves charge in zero time.  A
+    loop of capacitors closed by closed ideal switches only (no voltage source)
+    is no error: its voltages are tied in that configuration, and closing it onto
+    unequal voltages is refused at that instant, with the charge and energy, by
+    the transient run.
     Each diagnostic names the loop's elements and, for a switched loop, when it
     first closes.
     """
@@ -374,6 +382,10 @@ def check_capacitor_loops(circuit: Circuit, configurations: Sequence[Configurati
             continue
         sources = [e.name for e in elements if isinstance(e, VoltageSource)]
         switches = [e.name for e in elements if isinstance(e, Switch)]
+        if switches and not sources:
+            # closed ideal switches paralleling capacitors tie their voltages (one state
+            # fewer); equal voltages on closing are checked at the event, with numbers
+            continue
         if len(loop) == 1:
             msg = f"capacitor {caps[0]} has both terminals on node {elements[0].first}"
             fix = f"connect the terminals of {caps[0]} to two different nodes"
@@ -400,9 +412,13 @@ def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configurat
     """``inductor-cutset``: nodes joined to the rest only through inductors and current
     sources (open ideal switches being no path), in any reachable configuration.
 
-    The inductor currents of such a cut set are tied by Kirchhoff's current law,
-    and breaking one (a series ideal switch opening) would need an infinite voltage.
-    A lone dangling node is left to ``check_unconnected_nodes``.
+    The inductor currents of such a cut set are tied by Kirchhoff's current law.
+    When an open ideal switch makes the cut set (and no current source is in it),
+    it is no error: the inductors' net current is held at zero in that
+    configuration (one state fewer, see :mod:`circuitode.equations.constraints`),
+    and a switch opening while they carry current is refused at that instant,
+    with its numbers, by the transient run.  A lone dangling node is left to
+    ``check_unconnected_nodes``.
     """
     configurations = _configurations(circuit, configurations)
     terminals: dict[str, int] = {}
@@ -422,11 +438,15 @@ def check_inductor_cutsets(circuit: Circuit, configurations: Sequence[Configurat
         for nodes, around in isolated_groups(circuit, conducting, cut):
             if len(nodes) == 1 and terminals.get(nodes[0], 0) == 1:
                 continue
+            opened = [i for i in node_users(circuit, nodes) if is_open(circuit.elements[i], states[i])]
+            if opened and not any(isinstance(circuit.elements[i], CurrentSource) for i in around):
+                # inductors behind an open ideal switch: their current is held (at 0), one
+                # state fewer; opening while they carry current is refused at the event
+                continue
             key = (frozenset(nodes), frozenset(around))
             if key in seen:
                 continue
             seen.add(key)
-            opened = [i for i in node_users(circuit, nodes) if is_open(circuit.elements[i], states[i])]
             label = _nodes_label(nodes)
             inductors = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], Inductor)]
             sources = [circuit.elements[i].name for i in around if isinstance(circuit.elements[i], CurrentSource)]

@@ -14,10 +14,10 @@ what to add.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Sequence
 
-from ..model.circuit import Capacitor, Circuit, CurrentSource, Inductor, Resistor, Switch
+from ..model.circuit import Capacitor, Circuit, CurrentSource, Diode, Inductor, Resistor, Switch
 from ..errors import CircuitodeError, SingularSystemError, TopologyError
 
 __all__ = [
@@ -58,6 +58,26 @@ class Layout:
     conductors: list[tuple[str, str, int, int]]  # (element name, value field, a, b)
     branches: list[tuple[str, int, int]]  # (element name, a, b)
     branch_of: dict[str, int]  # element name → unknown index
+    #: loops of capacitors closed by closed ideal switches (element names, loop order):
+    #: each ties the capacitor voltages around it (one constraint, see ``constraints``)
+    tied_loops: list[list[str]] = field(default_factory=list)
+    #: node groups cut off by open ideal switches and reached only through inductors:
+    #: (nodes, inductor names around them, open switch names); each holds their net current
+    held_groups: list[tuple[list[str], list[str], list[str]]] = field(default_factory=list)
+
+    #: node groups cut off on every side by blocking ideal diodes, holding no inductor
+    #: current: their common potential is left to the minimum-norm rule (see constraints)
+    cut_off_groups: list[list[str]] = field(default_factory=list)
+
+    @property
+    def n_constraints(self) -> int:
+        """How many independent homogeneous constraints the configuration puts on the states."""
+        return len(self.tied_loops) + len(self.held_groups)
+
+    @property
+    def n_null(self) -> int:
+        """Dimension of the MNA matrix's null space: constraints plus cut-off groups."""
+        return self.n_constraints + len(self.cut_off_groups)
 
     @property
     def nn(self) -> int:
@@ -73,7 +93,8 @@ def describe_configuration(circuit: Circuit, closed: Sequence[bool]) -> str:
     switches = circuit.switches
     if not switches:
         return "in its only configuration (it has no switches)"
-    words = [f"{s.name} {'closed' if c else 'open'}" for s, c in zip(switches, closed)]
+    words = [f"{s.name} {('conducting' if c else 'blocking') if isinstance(s, Diode) else ('closed' if c else 'open')}"
+             for s, c in zip(switches, closed)]
     return "with " + ", ".join(words)
 
 
@@ -126,12 +147,27 @@ def check_structure(circuit: Circuit, closed: Sequence[bool], dc: bool) -> tuple
     Returns (voltage branches kept, conductors, problems in words); a loop made only
     of closed ideal switches is harmless, and its closing switch is dropped.
     """
+    kept, conductors, problems, _, _, _ = _structure(circuit, closed, dc, constrained=False)
+    return kept, conductors, problems
+
+
+def _structure(circuit: Circuit, closed: Sequence[bool], dc: bool, constrained: bool):
+    """:func:`check_structure`, and with ``constrained`` (companion network only) the
+    singular configurations whose constraints on the states are homogeneous are
+    accepted and listed instead of refused: loops of capacitors closed by closed
+    ideal switches (no voltage source in them), and node groups cut off by open ideal
+    switches that reach ground only through inductors.
+
+    Returns (kept, conductors, problems, tied loops, held groups); see :class:`Layout`.
+    """
     nodes = list(circuit.nodes)
     forest = _Forest(nodes)
     kept: list[tuple[str, str, str]] = []
     conductors: list[tuple[str, str, str, str]] = []
     problems: list[str] = []
+    tied: list[list[str]] = []
     states = dict(zip((s.name for s in circuit.switches), closed))
+    accept = constrained and not dc
     for e in circuit.elements:
         edge = (e.name, e.first, e.second)
         if isinstance(e, Resistor):
@@ -156,16 +192,56 @@ def check_structure(circuit: Circuit, closed: Sequence[bool], dc: bool) -> tuple
         kinds = {type(circuit.element(n)) for n in loop}
         if kinds <= {Switch}:
             continue  # only ideal switches: voltages are fine, this one's current is taken as 0
+        if accept and kinds == {Capacitor, Switch}:
+            kept.append(edge)  # the loop's capacitor voltages are tied: one constraint
+            tied.append(loop)
+            continue
         problems.append(_loop_words(circuit, loop, kinds, dc))
     for name, _, a, b in conductors:
         forest.join(a, b)
     ground = circuit.ground
     floating = [n for n in nodes if ground is None or forest.find(n) != forest.find(ground)]
+    held: list[tuple[list[str], list[str], list[str]]] = []
+    cut_off: list[list[str]] = []
+    if accept and ground is not None and floating:
+        floating, held, cut_off = _held_groups(circuit, states, forest, floating)
     if ground is None:
         problems.append("the circuit has no ground node; declare one so node voltages have a reference")
     elif floating:
         problems.append(_floating_words(floating, dc))
-    return kept, conductors, problems
+    return kept, conductors, problems, tied, held, cut_off
+
+
+def _held_groups(circuit: Circuit, states: dict, forest: _Forest, floating: list[str]):
+    """Split the floating nodes into groups held by inductors behind open ideal switches
+    (each a constraint: the net inductor current into the group is 0) and the rest.
+
+    Returns (nodes still floating, [(group nodes, inductors around, open switches)],
+    [nodes of a group cut off only by blocking ideal diodes]).
+    """
+    through = _Forest(list(circuit.nodes))
+    for n in circuit.nodes:
+        through.join(n, forest.find(n))
+    for e in circuit.inductors:
+        through.join(e.first, e.second)
+    groups: dict[str, list[str]] = {}
+    for n in floating:
+        groups.setdefault(forest.find(n), []).append(n)
+    ground = through.find(circuit.ground)
+    still, held, cut_off = [], [], []
+    for members in groups.values():
+        inside = set(members)
+        opened = [s.name for s in circuit.switches
+                  if not states[s.name] and s.off_resistance is None and (s.first in inside or s.second in inside)]
+        around = [l.name for l in circuit.inductors if (l.first in inside) != (l.second in inside)]
+        if opened and around and through.find(members[0]) == ground:
+            held.append((members, around, opened))
+        elif opened and not around and all(isinstance(circuit.element(s), Diode) for s in opened):
+            cut_off.append(members)
+        else:
+            still.extend(members)
+    order = {n: k for k, n in enumerate(circuit.nodes)}
+    return sorted(still, key=order.__getitem__), held, cut_off
 
 
 def _loop_words(circuit: Circuit, loop: list[str], kinds: set, dc: bool) -> str:
@@ -225,7 +301,7 @@ def _topology_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
 
 def build_layout(circuit: Circuit, closed: tuple[bool, ...]) -> Layout:
     """Number the unknowns of the companion network, or raise SingularSystemError in words."""
-    kept, conductors, problems = check_structure(circuit, closed, dc=False)
+    kept, conductors, problems, tied, held, cut_off = _structure(circuit, closed, dc=False, constrained=True)
     if problems:
         words = _topology_words(circuit, closed)
         message = (
@@ -244,5 +320,8 @@ def build_layout(circuit: Circuit, closed: tuple[bool, ...]) -> Layout:
         conductors=[(name, f, index[a], index[b]) for name, f, a, b in conductors],
         branches=branches,
         branch_of={name: len(node) + j for j, (name, _, _) in enumerate(branches)},
+        tied_loops=tied,
+        held_groups=held,
+        cut_off_groups=cut_off,
     )
 

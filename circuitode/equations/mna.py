@@ -15,6 +15,7 @@ from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentThrough,
+    Diode,
     Inductor,
     NodeVoltage,
     PowerIn,
@@ -33,6 +34,7 @@ __all__ = [
     "Samples",
     "inductance_matrix",
     "solve_companion",
+    "dense_system",
     "probe_rows",
 ]
 
@@ -204,23 +206,43 @@ def _dense(rows: np.ndarray, cols: np.ndarray, vals: np.ndarray, size: int) -> n
 
 
 def _right_hand_sides(circuit: Circuit, layout: Layout) -> np.ndarray:
-    """(size, n + m): one column per state (capacitors, inductors) and per input."""
-    caps, inds, sources = circuit.capacitors, circuit.inductors, circuit.sources
+    """(size, n + m): one column per state (capacitors, inductors) and per input.
+
+    The inputs are the sources, then each diode's drop V_d (``circuit.inputs``): a
+    conducting ideal diode is a branch ``v = V_d``; one with an on-resistance R is the
+    conductance 1/R with the current ``V_d / R`` driven back from cathode to anode
+    (``i = (v − V_d)/R``); a blocking diode does not see its drop.
+    """
+    caps, inds, inputs = circuit.capacitors, circuit.inductors, circuit.inputs
     n = len(caps) + len(inds)
     index = dict(layout.node, **{circuit.ground: -1})
-    rhs = np.zeros((layout.size + 1, n + len(sources)))  # last row: ground, dropped
+    rhs = np.zeros((layout.size + 1, n + len(inputs)))  # last row: ground, dropped
     for col, c in enumerate(caps):
         rhs[layout.branch_of[c.name], col] = 1.0
-    current_like = [(len(caps) + i, l) for i, l in enumerate(inds)]
-    for col, s in enumerate(sources, start=n):
-        if isinstance(s, VoltageSource):
+    current_like = [(len(caps) + i, l, 1.0) for i, l in enumerate(inds)]
+    on_field = {name: f for name, f, _, _ in layout.conductors}
+    for col, s in enumerate(inputs, start=n):
+        if isinstance(s, Diode):
+            if s.name in layout.branch_of:
+                rhs[layout.branch_of[s.name], col] = 1.0
+            elif on_field.get(s.name) == "on_resistance":
+                current_like.append((col, s, -1.0 / s.on_resistance))
+        elif isinstance(s, VoltageSource):
             rhs[layout.branch_of[s.name], col] = 1.0
         else:
-            current_like.append((col, s))
-    for col, e in current_like:  # current from first through the element to second
-        rhs[index[e.first], col] -= 1.0
-        rhs[index[e.second], col] += 1.0
+            current_like.append((col, s, 1.0))
+    for col, e, scale in current_like:  # current from first through the element to second
+        rhs[index[e.first], col] -= scale
+        rhs[index[e.second], col] += scale
     return rhs[:-1]
+
+
+def dense_system(circuit: Circuit, layout: Layout, conductance: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The MNA matrices (N, size, size) and right-hand sides (size, n + m), one column
+    per state and per input, for the configurations whose matrix is singular
+    (solved by :mod:`circuitode.equations.constraints`)."""
+    rows, cols, vals = _stamp(layout, conductance)
+    return _dense(rows, cols, vals, layout.size), _right_hand_sides(circuit, layout)
 
 
 def solve_companion(circuit: Circuit, layout: Layout, conductance: np.ndarray, solver: str) -> np.ndarray:
@@ -265,7 +287,7 @@ def probe_rows(circuit: Circuit, layout: Layout, probes, conductance: np.ndarray
     ``y = W @ Z + direct`` with Z from :func:`solve_companion`.
     """
     N, K = conductance.shape[0], layout.size
-    m = len(circuit.sources)
+    m = len(circuit.inputs)
     W = np.zeros((N, len(probes), K + 1))
     direct = np.zeros((len(probes), n + m))
     ground = circuit.ground
@@ -274,6 +296,7 @@ def probe_rows(circuit: Circuit, layout: Layout, probes, conductance: np.ndarray
     first_inductor = len(circuit.capacitors)
     state_of = {l.name: first_inductor + i for i, l in enumerate(circuit.inductors)}
     input_of = {s.name: n + i for i, s in enumerate(circuit.sources)}
+    drop_of = {d.name: n + len(circuit.sources) + i for i, d in enumerate(circuit.diodes)}
 
     def node_index(name: str) -> int:
         if name not in node:
@@ -307,6 +330,8 @@ def probe_rows(circuit: Circuit, layout: Layout, probes, conductance: np.ndarray
                 g = conductance[:, g_of[e.name]]
                 W[:, row, node[e.first]] += g
                 W[:, row, node[e.second]] -= g
+                if e.name in drop_of and layout.conductors[g_of[e.name]][1] == "on_resistance":
+                    direct[row, drop_of[e.name]] = -1.0 / e.on_resistance  # (v - V_d) / R_on
             elif e.name in layout.branch_of:  # capacitor, voltage source, closed ideal switch
                 W[:, row, layout.branch_of[e.name]] = 1.0
             elif e.name in state_of:

@@ -38,7 +38,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from ..model.circuit import Circuit, VoltageSource
+from ..model.circuit import Circuit, CurrentSource
 from .companion import (
     StateSpaceRequestError,
     build_layout,
@@ -47,7 +47,9 @@ from .companion import (
     describe_configuration,
 )
 from ..errors import SingularSystemError
-from .mna import SPARSE_THRESHOLD, VARIABLE_FIELDS, Samples, inductance_matrix, probe_rows, solve_companion
+from .constraints import solve_constrained
+from .mna import (SPARSE_THRESHOLD, VARIABLE_FIELDS, Samples, dense_system, inductance_matrix, probe_rows,
+                  solve_companion)
 
 __all__ = [
     "SPARSE_THRESHOLD",
@@ -95,6 +97,39 @@ class StateSpace:
     input_units: tuple[str, ...] = ()
     sample_ok: np.ndarray | None = None
     sample_problems: Mapping[int, str] | None = None
+    basis: np.ndarray | None = None
+    free: tuple[int, ...] | None = None
+    tied_loops: tuple[tuple[str, ...], ...] = ()
+    held_groups: tuple[tuple[tuple[str, ...], tuple[str, ...], tuple[str, ...]], ...] = ()
+
+    @property
+    def n_free(self) -> int:
+        """States free in this configuration: n less one per constraint."""
+        return self.n_states if self.basis is None else int(self.basis.shape[1])
+
+    @property
+    def free_names(self) -> tuple[str, ...]:
+        """Names of the free states (all states when nothing is tied or held)."""
+        return self.state_names if self.free is None else tuple(self.state_names[i] for i in self.free)
+
+    @property
+    def free_units(self) -> tuple[str, ...]:
+        return self.state_units if self.free is None else tuple(self.state_units[i] for i in self.free)
+
+    @property
+    def A_free(self) -> np.ndarray:
+        """``S A T``: the configuration's own (n_free, n_free) state matrix (or (N, …)) over
+        its free states (see :mod:`circuitode.equations.constraints`); its eigenvalues are
+        the configuration's modes, without the held directions."""
+        if self.basis is None:
+            return self.A
+        return self.A[..., list(self.free), :] @ self.basis
+
+    def project(self, x: np.ndarray) -> np.ndarray:
+        """Full states (…, n) put exactly on the constraint: ``T S x``."""
+        if self.basis is None:
+            return x
+        return x[..., list(self.free)] @ self.basis.T
 
     @property
     def batch_size(self) -> int | None:
@@ -121,6 +156,7 @@ class StateSpace:
             self.A[index], self.B[index], self.C[index], self.D[index],
             self.state_names, self.state_units, self.input_names,
             self.output_labels, self.output_units, self.closed, self.input_units,
+            basis=self.basis, free=self.free, tied_loops=self.tied_loops, held_groups=self.held_groups,
         )
 
 
@@ -194,20 +230,35 @@ def assemble(
     ) if circuit.capacitors else np.zeros((samples.size, 0))
     inductance = inductance_matrix(circuit, samples)
     W, direct = probe_rows(circuit, layout, tuple(probes), conductance, len(circuit.state_names))
-    Z = solve_companion(circuit, layout, conductance, solver)
-
     caps, inds = circuit.capacitors, circuit.inductors
     n = len(caps) + len(inds)
     index = dict(layout.node, **{circuit.ground: layout.size})
-    cap_rows = Z[:, [layout.branch_of[c.name] for c in caps], :] / capacitance[:, :, None]
     a = [index[l.first] for l in inds]
     b = [index[l.second] for l in inds]
-    ind_rows = np.linalg.solve(inductance, Z[:, a, :] - Z[:, b, :]) if inds else Z[:, :0, :]
-    rates = np.concatenate([cap_rows, ind_rows], axis=1)
+
+    def rates_of(Z: np.ndarray) -> np.ndarray:
+        """dx/dt (N, n, c) from solutions Z (N, size + 1, c): i_C / C and L⁻¹ v_L."""
+        cap_rows = Z[:, [layout.branch_of[c.name] for c in caps], :] / capacitance[:, :, None]
+        ind_rows = np.linalg.solve(inductance, Z[:, a, :] - Z[:, b, :]) if inds else Z[:, :0, :]
+        return np.concatenate([cap_rows, ind_rows], axis=1)
+
+    basis = None
+    if layout.n_null:  # a configuration that ties states: see equations.constraints
+        M, rhs = dense_system(circuit, layout, conductance)
+        Z, basis, free = solve_constrained(M, rhs, layout.n_null, layout.n_constraints, n, rates_of,
+                                           describe_configuration(circuit, closed))
+        if not layout.n_constraints:  # only parts cut off by blocking diodes: all states free
+            basis = None
+    else:
+        Z = solve_companion(circuit, layout, conductance, solver)
+    rates = rates_of(Z)
     outputs = np.einsum("npk,nkc->npc", W, Z) + direct
     A, B = rates[..., :n], rates[..., n:]
     C, D = outputs[..., :n], outputs[..., n:]
-    sources = circuit.sources
+    if basis is not None:  # on the constraint x = T Tᵀ x: held directions do not move
+        projector = basis[:, :] @ np.eye(n)[free]  # Π = T S
+        A, B, C = projector @ A @ projector, projector @ B, C @ projector
+    sources = circuit.inputs  # the sources, then the diodes' drops
     extra = {}
     if samples.batched:
         bad = ~samples.ok
@@ -222,7 +273,11 @@ def assemble(
         input_names=tuple(s.name for s in sources),
         output_labels=tuple(p.label for p in probes), output_units=tuple(p.unit for p in probes),
         closed=closed,
-        input_units=tuple("V" if isinstance(s, VoltageSource) else "A" for s in sources),
+        input_units=tuple("A" if isinstance(s, CurrentSource) else "V" for s in sources),
+        basis=basis,
+        free=None if basis is None else tuple(int(i) for i in free),
+        tied_loops=tuple(tuple(loop) for loop in layout.tied_loops),
+        held_groups=tuple((tuple(g), tuple(l), tuple(k)) for g, l, k in layout.held_groups),
         **extra,
     )
 
@@ -313,8 +368,13 @@ def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None)
     drive = -np.einsum("...ij,...j->...i", ss_at_start.B, u)
     drive = np.broadcast_to(drive, shape)
     ok = np.ones(() if N is None else N, dtype=bool) if ss_at_start.sample_ok is None else ss_at_start.sample_ok
-    A = ss_at_start.A if N is None else np.where(ok[:, None, None], ss_at_start.A, np.eye(n))
-    x = np.linalg.solve(A, drive[..., None])[..., 0]
+    if ss_at_start.basis is not None:  # solve over the free states; the held ones follow
+        drive = drive[..., list(ss_at_start.free)]
+    r = ss_at_start.n_free
+    A = ss_at_start.A_free if N is None else np.where(ok[:, None, None], ss_at_start.A_free, np.eye(r))
+    x = np.linalg.solve(A, drive[..., None])[..., 0] if r else np.zeros(shape[:-1] + (0,))
+    if ss_at_start.basis is not None:
+        x = x @ ss_at_start.basis.T
     if N is not None:
         x[~ok] = np.nan
     return x

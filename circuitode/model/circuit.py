@@ -19,7 +19,7 @@ if TYPE_CHECKING:
     import networkx as nx
 
 from ..errors import Where
-from .sources import Waveform
+from .sources import Dc, Waveform
 
 __all__ = [
     "Resistor",
@@ -28,10 +28,13 @@ __all__ = [
     "VoltageSource",
     "CurrentSource",
     "Switch",
+    "Diode",
+    "DiodeRule",
     "Coupling",
     "TimedSchedule",
     "PeriodicSchedule",
     "ThresholdRule",
+    "HysteresisRule",
     "NodeVoltage",
     "VoltageBetween",
     "VoltageAcross",
@@ -140,6 +143,34 @@ class ThresholdRule:
     above: bool
     level: float
 
+    repeats = False  # acts once (a HysteresisRule acts each time)
+
+    def move(self, closed: bool) -> "ThresholdRule":
+        """The rule for the switch's next move from state ``closed`` (itself: it acts once)."""
+        return self
+
+
+@dataclass(frozen=True)
+class HysteresisRule(ThresholdRule):
+    """A threshold switch with hysteresis, acting each time (``closes when v > 43 V, opens
+    when v < 40 V``): the first clause (also the starting state) as in ThresholdRule;
+    ``back_above``, ``back_level`` the clause that moves it back, on the same probe."""
+
+    back_above: bool = False
+    back_level: float = 0.0
+    repeats = True
+
+    def move(self, closed: bool) -> ThresholdRule:
+        """The clause that moves a switch now in state ``closed``."""
+        if closed != self.closes:
+            return ThresholdRule(self.closes, self.probe, self.above, self.level)
+        return ThresholdRule(not self.closes, self.probe, self.back_above, self.back_level)
+
+
+@dataclass(frozen=True)
+class DiodeRule:
+    """The control of a diode: it conducts while forward biased (see :class:`Diode`)."""
+
 
 @dataclass(frozen=True)
 class Switch:
@@ -160,6 +191,8 @@ class Switch:
             return c.initially_closed
         if isinstance(c, PeriodicSchedule):
             return c.start <= 0.0
+        if isinstance(c, DiodeRule):
+            return False  # blocking until the run finds it forward biased (at t = 0 too)
         return not c.closes
 
     def scheduled_changes(self, t0: float, t1: float) -> list[tuple[float, bool]]:
@@ -186,6 +219,25 @@ class Switch:
 
 
 @dataclass(frozen=True)
+class Diode(Switch):
+    """An ideal piecewise-linear diode from ``first`` (anode) to ``second`` (cathode).
+
+    Conducting ("closed"): a constant ``drop`` (V) in series with ``on_resistance``
+    (Ω; None: the drop alone).  Blocking ("open"): ``off_resistance`` (Ω) or, with
+    None, an open circuit.  It turns on when its voltage exceeds the drop, off when
+    its current falls to zero (events of the run).  The drop is a constant input of
+    the state space (``waveform``), after the sources."""
+
+    control: DiodeRule = DiodeRule()
+    drop: float = 0.0  # V, ≥ 0
+
+    @property
+    def waveform(self) -> Dc:
+        """The drop as a constant input, V."""
+        return Dc(float(self.drop))
+
+
+@dataclass(frozen=True)
 class Coupling:
     """Magnetic coupling of two inductors: M = k √(L1 L2), |k| < 1."""
 
@@ -196,7 +248,7 @@ class Coupling:
     where: Where | None = field(default=None, compare=False, repr=False)
 
 
-TwoTerminal = Resistor | Capacitor | Inductor | VoltageSource | CurrentSource | Switch
+TwoTerminal = Resistor | Capacitor | Inductor | VoltageSource | CurrentSource | Switch | Diode
 
 # --------------------------------------------------------------------------
 # Probes: what can be recorded, watched or limited
@@ -433,6 +485,13 @@ class Circuit:
     @property
     def sources(self) -> tuple[VoltageSource | CurrentSource, ...]:
         return tuple(e for e in self.elements if isinstance(e, (VoltageSource, CurrentSource)))
+
+    diodes = property(lambda self: self.of_kind(Diode), doc="The diodes, in file order.")
+
+    @property
+    def inputs(self) -> tuple:
+        """The state space's inputs in order: the sources, then each diode's drop."""
+        return self.sources + self.diodes
 
     @cached_property
     def state_names(self) -> tuple[str, ...]:

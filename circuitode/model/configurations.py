@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from typing import Sequence
 
 from ..quantities import format_si
-from .circuit import Circuit, PeriodicSchedule, Switch, ThresholdRule, TimedSchedule
+from .circuit import Circuit, DiodeRule, PeriodicSchedule, Switch, ThresholdRule, TimedSchedule
 
 __all__ = [
     "Configuration",
@@ -81,7 +81,7 @@ def _list(words: Sequence[str]) -> str:
 def _is_free(switch: Switch) -> bool:
     """True when the switch may be in either state at an unknown time (threshold or broken schedule)."""
     c = switch.control
-    if isinstance(c, ThresholdRule):
+    if isinstance(c, (ThresholdRule, DiodeRule)):
         return True
     if isinstance(c, PeriodicSchedule):
         return not (math.isfinite(c.period) and c.period > 0 and 0 < c.duty < 1 and math.isfinite(c.start))
@@ -91,6 +91,8 @@ def _is_free(switch: Switch) -> bool:
 def _threshold_words(switch: Switch, closes: bool) -> str:
     c = switch.control
     verb = "closes" if closes else "opens"
+    if isinstance(c, DiodeRule):
+        return f"{switch.name} {'conducts' if closes else 'blocks'}"
     if isinstance(c, ThresholdRule):
         label = getattr(c.probe, "label", str(c.probe))
         unit = getattr(c.probe, "unit", "")

@@ -505,8 +505,9 @@ class SourceBank:
 
     @classmethod
     def of(cls, circuit) -> "SourceBank":
-        """The bank of ``circuit.sources``, in order (the state-space input order)."""
-        return cls([s.waveform for s in circuit.sources], [s.name for s in circuit.sources])
+        """The bank of ``circuit.inputs`` (the sources, then each diode's constant drop), in
+        order (the state-space input order)."""
+        return cls([s.waveform for s in circuit.inputs], [s.name for s in circuit.inputs])
 
     def __len__(self) -> int:
         return len(self.waveforms)

@@ -23,7 +23,7 @@ from .dimensions import expression_unit
 from .pulses import pulse_times
 from ..quantities import check_unit, parse_quantity, unit_phrase
 from .syntax import (
-    CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt,
+    CouplingStmt, ElementStmt, GroundStmt, ParamStmt, ProbeSpec, RecordStmt, RequireStmt, SourceStmt, SwitchStmt, DiodeStmt,
     ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, TransientStmt, Valued,
 )
 from .vocabulary import (
@@ -344,9 +344,43 @@ class _Builder:
                                    "watch a voltage or a current instead")
             level = self.value(c.level, probe.unit, "the switching level", st.name, "control.level")
             control = cm.ThresholdRule(c.closes, probe, c.comparison.startswith(">"), level)
+            if c.back is not None:
+                control = self.hysteresis(st, control, c.back)
         on = self.value(st.on, "Ω", "an on-resistance", st.name, "on_resistance") if st.on else None
         off = self.value(st.off, "Ω", "an off-resistance", st.name, "off_resistance") if st.off else None
         self.elements.append(cm.Switch(st.name, st.first, st.second, control, on, off, where=st.where))
+
+    def hysteresis(self, st: SwitchStmt, first: cm.ThresholdRule, back) -> cm.HysteresisRule:
+        """The second clause of ``closes when …, opens when …``: the opposite move, on the
+        same quantity, with levels that cannot both hold at once."""
+        if back.closes == first.closes:
+            word = "closes" if first.closes else "opens"
+            raise NetlistError(f"both clauses of switch '{st.name}' say '{word}'", back.where,
+                               "the second clause must move the switch back: 'closes when …, opens when …'")
+        probe = self.probe(back.probe, "a switch rule")
+        if probe != first.probe:
+            raise NetlistError(f"the two clauses of switch '{st.name}' watch different quantities", back.where,
+                               f"watch {first.probe.label} in both clauses")
+        above = back.comparison.startswith(">")
+        level = self.value(back.level, probe.unit, "the switching level", st.name, "control.back_level")
+        if above == first.above or (level > first.level if first.above else level < first.level):
+            raise NetlistError(
+                f"the clauses of switch '{st.name}' overlap: both conditions can hold at once, so it "
+                "would switch back and forth without end", back.where,
+                f"use the opposite comparison and a level on the other side of {first.level:g}, e.g. "
+                f"'{'closes' if back.closes else 'opens'} when {probe.label} {'<' if first.above else '>'} …'")
+        return cm.HysteresisRule(first.closes, first.probe, first.above, first.level, above, level)
+
+    def on_diode(self, st: DiodeStmt) -> None:
+        self.declare(st.name, st.where)
+        drop = self.value(st.drop, "V", "a forward drop", st.name, "drop") if st.drop else 0.0
+        if not drop >= 0.0:
+            raise NetlistError("a diode's forward drop cannot be negative", st.drop.where,
+                               "write e.g. 'drop 0.8 V' (or leave it out for 0 V)")
+        on = self.value(st.on, "Ω", "an on-resistance", st.name, "on_resistance") if st.on else None
+        off = self.value(st.off, "Ω", "an off-resistance", st.name, "off_resistance") if st.off else None
+        self.elements.append(cm.Diode(st.name, st.first, st.second, on_resistance=on, off_resistance=off,
+                                      drop=drop, where=st.where))
 
     def on_transient(self, st: TransientStmt) -> None:
         if self.analysis is not None:
@@ -453,6 +487,7 @@ class _Builder:
         probes: list[ProbeSpec] = []
         handlers = {TitleStmt: self.on_title, GroundStmt: self.on_ground, ElementStmt: self.on_element,
                     CouplingStmt: self.on_coupling, SourceStmt: self.on_source, SwitchStmt: self.on_switch,
+                    DiodeStmt: self.on_diode,
                     TransientStmt: self.on_transient, RecordStmt: self.on_record, RequireStmt: self.on_require}
         for st in self.statements:
             if isinstance(st, ParamStmt):

@@ -22,7 +22,7 @@ from ..quantities import read_quantity, split_unit
 from .vocabulary import WAVEFORM_WORDS, word_hint
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt,
-    RequireStmt, SourceStmt, SwitchStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
+    RequireStmt, SourceStmt, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
     TransientStmt, Valued, WaveformSpec,
 )
 
@@ -184,6 +184,21 @@ class _ToTree(Transformer):
                                    f"keep one '{word}' resistance")
         return SwitchStmt(str(name), str(first), str(second), control, on, off, self.at(name))
 
+    @v_args(meta=True)
+    def diode_stmt(self, meta, items):
+        name, first, second, *options = items
+        for word in ("drop", "on", "off"):
+            repeated = [v for k, v in options if k == word]
+            if len(repeated) > 1:
+                raise NetlistError(f"'{word}' is given twice for diode '{name}'", repeated[1].where,
+                                   f"keep one '{word}'")
+        value = {k: v for k, v in options}
+        return DiodeStmt(str(name), str(first), str(second), value.get("drop"), value.get("on"),
+                         value.get("off"), self.at(name))
+
+    def drop_option(self, items):
+        return ("drop", items[0])
+
     def timed_control(self, items):
         return TimedSpec(tuple(items))
 
@@ -197,6 +212,11 @@ class _ToTree(Transformer):
     def threshold_control(self, items):
         move, probe, comparison, level = items
         return ThresholdSpec(str(move) == "closes", probe, str(comparison), level)
+
+    def hysteresis_control(self, items):
+        move, probe, comparison, level, move2, probe2, comparison2, level2 = items
+        back = ThresholdSpec(str(move2) == "closes", probe2, str(comparison2), level2, where=self.at(move2))
+        return ThresholdSpec(str(move) == "closes", probe, str(comparison), level, back, self.at(move))
 
     def on_option(self, items):
         return ("on", items[0])
@@ -325,7 +345,7 @@ class _ToTree(Transformer):
 #: Words that start a statement.
 STATEMENT_WORDS = (
     "circuit", "param", "ground", "resistor", "capacitor", "inductor", "coupling", "voltage_source",
-    "current_source", "switch", "transient", "record", "require", "include",
+    "current_source", "switch", "diode", "transient", "record", "require", "include",
 )
 
 _TERMINAL_WORDS = {

@@ -29,6 +29,7 @@ __all__ = [
     "CouplingStmt",
     "SourceStmt",
     "SwitchStmt",
+    "DiodeStmt",
     "TransientStmt",
     "RecordStmt",
     "RequireStmt",
@@ -102,12 +103,15 @@ class ToggleSpec:
 
 @dataclass(frozen=True)
 class ThresholdSpec:
-    """``closes when voltage at link > 43 V``."""
+    """``closes when voltage at link > 43 V``; with ``back`` (a second ThresholdSpec, the
+    opposite move) a switch with hysteresis that acts each time."""
 
     closes: bool
     probe: ProbeSpec
     comparison: str
     level: Valued
+    back: "ThresholdSpec | None" = None
+    where: Where | None = None
 
 
 @dataclass(frozen=True)
@@ -182,6 +186,19 @@ class SwitchStmt:
 
 
 @dataclass(frozen=True)
+class DiodeStmt:
+    """``diode NAME anode -- cathode [drop V] [on Ω] [off Ω]``."""
+
+    name: str
+    first: str
+    second: str
+    drop: Valued | None
+    on: Valued | None
+    off: Valued | None
+    where: Where
+
+
+@dataclass(frozen=True)
 class TransientStmt:
     """settings : (word, Valued or str, where), word in until/step/points/method/initial."""
 
@@ -208,7 +225,7 @@ class RequireStmt:
 
 Statement = (
     TitleStmt | IncludeStmt | ParamStmt | GroundStmt | ElementStmt | CouplingStmt | SourceStmt | SwitchStmt
-    | TransientStmt | RecordStmt | RequireStmt
+    | DiodeStmt | TransientStmt | RecordStmt | RequireStmt
 )
 
 

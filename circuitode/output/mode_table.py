@@ -101,6 +101,11 @@ def modes_text(configurations: Sequence[Any], path: str | None = None, title: st
         when = "" if math.isnan(cfg.first_time) else f" from {format_si(cfg.first_time, 's')}"
         out.extend(_wrap(f"configuration: {cfg.description}{when}" + (f" ({cfg.cause})" if cfg.cause else ""),
                          indent=""))
+        if cfg.states is not None:
+            out.extend(_wrap(f"{len(cfg.states)} state{'' if len(cfg.states) == 1 else 's'}: "
+                             + (", ".join(cfg.states) or "none"), indent="  "))
+            for d in cfg.dependent:
+                out.extend(_wrap(d, indent="    "))
         if not cfg.modes:
             out.append("  no dynamic states in this configuration")
             continue
@@ -131,6 +136,8 @@ def modes_json(configurations: Sequence[Any]) -> list[dict[str, Any]]:
             "closed": list(cfg.closed),
             "first_time_s": None if math.isnan(cfg.first_time) else float(cfg.first_time),
             "cause": cfg.cause,
+            "states": None if cfg.states is None else list(cfg.states),
+            "held_or_tied": list(cfg.dependent),
             "modes": rows,
         })
     return out

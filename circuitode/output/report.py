@@ -20,6 +20,7 @@ from ..model.circuit import (
     Capacitor,
     Circuit,
     CurrentSource,
+    Diode,
     Inductor,
     PeriodicSchedule,
     Resistor,
@@ -74,6 +75,7 @@ _ELEMENT_WORDS = {
     VoltageSource: "voltage source",
     CurrentSource: "current source",
     Switch: "switch",
+    Diode: "diode",
 }
 
 
@@ -153,10 +155,15 @@ def describe_control(switch: Switch) -> str:
             f"toggles every {format_si(c.period, 's')}, closed {c.duty * 100:g} % of each "
             f"period from {format_si(c.start, 's')}"
         )
+    if isinstance(switch, Diode):
+        drop = format_si(switch.drop, "V")
+        return (f"diode, drop {drop}: conducts when its voltage exceeds {drop}, blocks when its "
+                "current falls to 0 A")
     if isinstance(c, ThresholdRule):
-        verb = "closes" if c.closes else "opens"
-        sign = ">" if c.above else "<"
-        return f"{verb} when {c.probe.label} {sign} {format_si(c.level, c.probe.unit)}"
+        clauses = [c.move(not c.closes)] + ([c.move(c.closes)] if c.repeats else [])
+        words = ", ".join(f"{'closes' if r.closes else 'opens'} when {r.probe.label} {'>' if r.above else '<'} "
+                          f"{format_si(r.level, r.probe.unit)}" for r in clauses)
+        return words + (" (each time)" if c.repeats else "")
     return str(c)
 
 
@@ -173,6 +180,10 @@ def _value_words(e: Any) -> str:
         return describe_waveform(e.waveform, "V")
     if isinstance(e, CurrentSource):
         return describe_waveform(e.waveform, "A")
+    if isinstance(e, Diode):
+        on = "drop only" if e.on_resistance is None else format_si(e.on_resistance, "Ω")
+        off = "open" if e.off_resistance is None else format_si(e.off_resistance, "Ω")
+        return f"drop {format_si(e.drop, 'V')}, on {on}, off {off}"
     if isinstance(e, Switch):
         on = "ideal" if e.on_resistance is None else format_si(e.on_resistance, "Ω")
         off = "ideal" if e.off_resistance is None else format_si(e.off_resistance, "Ω")
@@ -202,8 +213,25 @@ def _element_spreads(circuit: Circuit, element_name: str) -> str:
     return _spread_words(circuit, names)
 
 
-def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = None) -> str:
-    """The printed summary of ``circuitode check``: nodes, elements, states, switches, findings."""
+def configuration_lines(configurations: Sequence[Any], indent: str = "  ") -> list[str]:
+    """Lines for each configuration's own states (ConfigurationStates)."""
+    out = []
+    for c in configurations:
+        if c.problem:
+            out.extend(_wrap(f"{c.description}, {c.when}: cannot be assembled", indent=indent))
+            continue
+        count = f"{len(c.free)} state{'' if len(c.free) == 1 else 's'}"
+        out.extend(_wrap(f"{c.description}, {c.when}: {count}"
+                         + (f" ({', '.join(c.free)})" if c.free else ""), indent=indent))
+        for d in c.dependent:
+            out.extend(_wrap(d, indent=indent + "    "))
+    return out
+
+
+def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = None,
+               configurations: Sequence[Any] = ()) -> str:
+    """The printed summary of ``circuitode check``: nodes, elements, states, switches, findings;
+    ``configurations`` (ConfigurationStates) adds each configuration's own states."""
     out = [f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else "")]
     out.append(f"nodes ({len(circuit.nodes)}): " + ", ".join(
         f"{n} (ground)" if n == circuit.ground else n for n in circuit.nodes))
@@ -231,10 +259,14 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
     out[-1:] = _wrap(out[-1], indent="", width=WIDTH)
     if circuit.switches:
         out.append("")
-        out.append("switches:")
+        out.append("switches and diodes:" if circuit.diodes else "switches:")
         for s in circuit.switches:
             out.extend(_wrap(f"{s.name}: {describe_control(s)}", indent="  "))
     out.extend(parameter_lines(circuit))
+    if configurations:
+        out.append("")
+        out.append(f"configurations ({len(configurations)}):")
+        out.extend(configuration_lines(configurations))
     if circuit.spreads:
         out.append("")
         out.append("tolerances:")
@@ -348,7 +380,8 @@ def requirement_words(requirement: Any, unit: str) -> str:
 def event_words(event: Any) -> str:
     """E.g. "K_main closes when voltage at link > 43 V" or "K_pre closes (timed schedule)"."""
     head = f"{event.switch} {'closes' if event.closed else 'opens'}"
-    if event.reason.startswith(head + " "):
+    diode = f"{event.switch} {'starts' if event.closed else 'stops'} conducting"
+    if event.reason.startswith(head + " ") or event.reason.startswith(diode):
         return event.reason
     return f"{head} ({event.reason})"
 

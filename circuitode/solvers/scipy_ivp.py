@@ -148,6 +148,9 @@ class ScipyIntegrator(Integrator):
             "max_step": longest,
             "vectorized": True,
         }
+        if events and t_out.size > 1:  # crossings are seen at step ends: step no longer than the
+            # output spacing, so a watched quantity driven by a source is not stepped over
+            options["max_step"] = min(options["max_step"], (t_out[-1] - t_out[0]) / (t_out.size - 1) or span)
         if self.uses_jacobian:
             options["jac"] = jacobian_for(A)
         tally = {"steps": 0}

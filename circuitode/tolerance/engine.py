@@ -35,18 +35,20 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..model.circuit import Circuit, CurrentThrough, PowerIn, ThresholdRule, VoltageAcross
+from ..model.circuit import Circuit, CurrentThrough, Diode, PowerIn, ThresholdRule, VoltageAcross
 from ..errors import CircuitodeError
 from ..model.source_batch import SourceBatch
 from ..model.sources import SourceBank
 from ..equations.statespace import VARIABLE_FIELDS
 from ..equations.statespace import StateSpaceCache, initial_state
+from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from .batch_integrals import ChunkIntegrals, integral_pairs
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, fire_at_start, handle_crossings
 
-__all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes", "simulate_chunk"]
+__all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes", "refuse_diodes",
+           "simulate_chunk"]
 
 #: Stepping methods of the batched engine.
 BATCH_METHODS = ("exact", "rk4")
@@ -119,6 +121,19 @@ def linear_probes(probes) -> tuple[list, list]:
     return rows, recipe
 
 
+def refuse_diodes(circuit: Circuit) -> None:
+    """Batches do not follow diodes yet: each sample would need its own sequence of
+    diode combinations.  Refuse before any work, naming the diode and what to do."""
+    for s in circuit.switches:
+        if isinstance(s, Diode):
+            where = f"{s.where}: " if s.where is not None else ""
+            raise CircuitodeError(
+                f"{where}diode {s.name}: tolerance batches do not follow diodes yet (each sample "
+                "would switch them at its own instants, several at once, and the batch engine does "
+                "not yet settle such combinations); run single runs with "
+                "`circuitode run --set NAME=VALUE` for the corners you need")
+
+
 def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exact") -> ChunkWaves:
     """Run one chunk of samples through the circuit's transient window.
 
@@ -132,6 +147,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     """
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
+    refuse_diodes(circuit)
     N = _batch_size(values)
     t_grid = output_grid(circuit)
     switches = circuit.switches
@@ -156,6 +172,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     problems: dict[int, str] = {}
     tally = ChunkIntegrals(N, len(all_rows), integral_pairs(recipe, len(all_rows))) \
         if method == "exact" else None
+
+    def enter_at(idx, x, t):  # a threshold switch acted for samples idx at instants t
+        return _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, t, ok, problems,
+                            "a threshold switch acts", idx)
+    watch.enter = enter_at
 
     def note(ss) -> None:
         _collect(ss, ok, problems)
@@ -186,6 +207,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     x = np.asarray(initial_state(circuit, mode, ss0, np.broadcast_to(u_before, (N, m))), dtype=float)
     x = np.where(ok[:, None], x, 0.0)
     n = x.shape[1]
+    x = _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, 0.0, ok, problems,
+                     f"the {mode} initial state")
 
     # each switching instant and source corner adds two rows (and stands for a grid
     # instant it falls on)
@@ -216,6 +239,9 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             record.all(a, y_end_before)
             for i, st in due:
                 timed[i] = st
+            w[:, :n] = _enter_batch(circuit, cache, key_for(tuple(timed)), code, w[:, :n], a, ok, problems,
+                                    " and ".join(f"{switches[i].name} {'closes' if st else 'opens'}"
+                                                 for i, st in due) + " on schedule")
         stretch = Stretch(method, cache, H, F, key_for(tuple(timed)), note)
         G_cur = stretch.G(code)
         y_now = matvec(G_cur, w)
@@ -230,7 +256,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             # (a sample that switched just now repeats its "after" row here: an interval
             # of zero length that changes no figure)
             record.all(a, y_now)
-        g_prev = watch.values(y_now)
+        g_prev = watch.values(y_now, code)
 
         upper = (t_grid <= b + slack) if last else (t_grid < b - slack)
         slots = np.flatnonzero((t_grid > a + slack) & upper)
@@ -334,7 +360,7 @@ class _Stepper:
             self.phi[h] = self.stretch.phi(self.code, h)
         w_new = matvec(self.phi[h], w)
         y = matvec(self.G_cur, w_new)
-        g = watch.values(y)
+        g = watch.values(y, self.code)
         if watch.k:
             turned = (g_prev < 0.0) & (g >= 0.0)
             if turned.any() and (crossed := turned & watch.pending(self.code) & self.ok[:, None]).any():
@@ -363,7 +389,7 @@ class _Stepper:
             self.powers[h, K] = self.stretch.powers(code, h, K)
         W = _apply_powers(self.powers[h, K][:, :Kb], w)  # (N, Kb, s)
         Y = self.G_cur @ np.swapaxes(W, 1, 2)  # (N, p, Kb)
-        g = watch.values(Y)  # (N, k, Kb)
+        g = watch.values(Y, code)  # (N, k, Kb)
         col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
         if watch.k:
             cols = np.arange(Kb)
@@ -398,7 +424,7 @@ class _Stepper:
                     W[idx] = W_idx
                     Y_new = self.G_cur[idx] @ np.swapaxes(W_idx, 1, 2)
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
-                    g[idx] = watch.values(Y[idx])
+                    g[idx] = watch.values(Y[idx], code[idx])
                 settled[idx] = j
         self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
         record.columns(np.asarray(ts, dtype=float), Y)
@@ -433,6 +459,30 @@ def _batch_size(values: dict) -> int:
     if len(sizes) != 1:
         raise CircuitodeError("a chunk needs per-sample values of one common length")
     return sizes.pop()
+
+
+def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause, samples=None) -> np.ndarray:
+    """States x entering their configurations at ``time`` (s, scalar or one per row), each
+    sample in the configuration of its code, put on the constraint; a sample whose state
+    would need an impulse (see equations.entry) is marked failed with the single run's
+    words.  samples : the sample index of each row of x (all samples when None)."""
+    x = np.array(x, dtype=float)
+    samples = np.arange(code.size) if samples is None else np.asarray(samples)
+    times = np.broadcast_to(np.asarray(time, dtype=float), (samples.size,))
+    sub = code[samples]
+    for c in np.unique(sub):
+        ss = cache.get(key(int(c)))
+        if ss.basis is None:
+            continue
+        rows = np.flatnonzero(sub == c)
+        projected, bad, messages = batch_entry(circuit, ss, x[rows], times[rows], cause)
+        x[rows] = projected
+        for j, message in messages.items():
+            i = int(samples[rows[j]])
+            if ok[i]:
+                problems[i] = message
+        ok[samples[rows[bad]]] = False
+    return x
 
 
 def _collect(ss, ok: np.ndarray, problems: dict) -> None:

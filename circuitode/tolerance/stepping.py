@@ -140,8 +140,27 @@ class Record:
         self.y = np.empty((N, p, capacity + extra_capacity))
         self.t = np.empty((N, capacity + extra_capacity)) if extra_capacity else None
         self.common = 0
+        self.extra_capacity = extra_capacity
         self.ext_pos = np.empty((N, max(extra_capacity, 1)), dtype=np.int64)
         self.ext_count = np.zeros(N, dtype=np.int64)
+
+    def _room(self, need: int) -> None:
+        """Make room for ``need`` extra rows per sample (a switch with hysteresis acts an
+        unknown number of times): capacities double, rows already written are kept."""
+        if need <= self.extra_capacity:
+            return
+        grow = max(need, 2 * self.extra_capacity) - self.extra_capacity
+        N, p, width = self.y.shape
+        self.y = np.concatenate([self.y, np.empty((N, p, grow))], axis=2)
+        if self.t is None:  # no extra row yet: every sample's rows are the common columns
+            self.t = np.empty((N, width + grow))
+            self.t[:, :self.common] = self.t_common[:self.common]
+        else:
+            self.t = np.concatenate([self.t, np.empty((N, grow))], axis=1)
+        pos = np.empty((N, self.extra_capacity + grow), dtype=np.int64)
+        pos[:, :self.ext_pos.shape[1]] = self.ext_pos
+        self.ext_pos = pos
+        self.extra_capacity += grow
 
     def all(self, t: float, y: np.ndarray) -> None:
         """One row y (N, p) at instant t for every sample."""
@@ -181,6 +200,7 @@ class Record:
     def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray, pos=None) -> None:
         """Rows y (len(idx), p) at instants t (len(idx),) for samples idx only (each once),
         placed before common column pos (scalar or (len(idx),); the next one by default)."""
+        self._room(int(self.ext_count[idx].max(initial=0)) + 1)
         k = self.ext_count[idx]
         pos = np.broadcast_to(self.common if pos is None else np.asarray(pos, dtype=np.int64), idx.shape)
         dest = pos + k

@@ -7,7 +7,8 @@ secant guess, to ``tol`` seconds), they switch, and the rest of the step is
 completed in their new configuration.  As in the single run, the instant is
 recorded twice (just before, just after), a condition already strictly met when
 a stretch begins — or the instant another switch acts — acts at once, and each
-threshold switch acts at most once.
+threshold switch acts at most once; one with hysteresis acts each time its
+present clause is met (its bit in the code is its state, flipped each time).
 """
 from __future__ import annotations
 
@@ -33,25 +34,42 @@ class Watch:
     rows: list
     tol: float
     event_times: np.ndarray
+    #: called as enter(samples, states (K, n), instants (K,)) after samples switch: returns
+    #: the states put on their new configuration's constraint (failing the impossible ones)
+    enter: object = None
 
     def __post_init__(self):
         self.levels = np.array([r.level for r in self.rules])
         self.signs = np.array([1.0 if r.above else -1.0 for r in self.rules])
+        # a switch with hysteresis acts each time: in its moved state it watches its back clause
+        self.repeats = np.array([bool(r.repeats) for r in self.rules], dtype=bool)
+        self.back_levels = np.array([r.move(r.closes).level for r in self.rules])
+        self.back_signs = np.array([1.0 if r.move(r.closes).above else -1.0 for r in self.rules])
 
     @property
     def k(self) -> int:
         return len(self.rules)
 
-    def values(self, y: np.ndarray) -> np.ndarray:
-        """(N, k) signed distance to each threshold from outputs y (N, p): met where ≥ 0;
-        (N, k, K) from y (N, p, K), K instants each."""
+    def moved(self, code: np.ndarray) -> np.ndarray:
+        """(N, k) True where threshold switch j is in its moved state (bit j of code)."""
+        return ((code[:, None] >> np.arange(self.k)[None, :]) & 1) == 1
+
+    def clause(self, code: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(levels, signs), each (N, k): the condition each sample's switch j watches now."""
+        back = self.moved(code) & self.repeats[None, :]
+        return (np.where(back, self.back_levels, self.levels), np.where(back, self.back_signs, self.signs))
+
+    def values(self, y: np.ndarray, code: np.ndarray) -> np.ndarray:
+        """(N, k) signed distance to each watched condition from outputs y (N, p), the
+        samples in states ``code`` (N,): met where ≥ 0; (N, k, K) from y (N, p, K)."""
+        levels, signs = self.clause(code)
         if y.ndim == 3:
-            return (y[:, self.rows] - self.levels[:, None]) * self.signs[:, None]
-        return (y[:, self.rows] - self.levels) * self.signs
+            return (y[:, self.rows] - levels[:, :, None]) * signs[:, :, None]
+        return (y[:, self.rows] - levels) * signs
 
     def pending(self, code: np.ndarray) -> np.ndarray:
-        """(N, k) True where threshold switch j has not acted yet."""
-        return ((code[:, None] >> np.arange(self.k)[None, :]) & 1) == 0
+        """(N, k) True where threshold switch j may still act (always, with hysteresis)."""
+        return ~self.moved(code) | self.repeats[None, :]
 
 
 def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, G_cur, record: Record):
@@ -61,14 +79,17 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
     if not watch.k:
         return
     while True:
-        met = watch.pending(code) & (watch.values(y_now) > 0.0) & ok[:, None]
+        met = watch.pending(code) & (watch.values(y_now, code) > 0.0) & ok[:, None]
         idx = np.flatnonzero(met.any(axis=1))
         if idx.size == 0:
             return
         which = np.argmax(met[idx], axis=1)  # the first switch in file order acts first
         record.some(idx, np.full(idx.size, a), y_now[idx])
-        code[idx] |= (1 << which)
+        code[idx] ^= (1 << which)  # acts (or, with hysteresis, moves back)
         watch.event_times[idx, which] = a
+        if watch.enter is not None:
+            n = w.shape[1] - stretch.F.shape[0]
+            w[idx, :n] = watch.enter(idx, w[idx, :n], np.full(idx.size, a))
         G_cur[idx] = stretch.G(code, idx)
         y_now[idx] = matvec(G_cur[idx], w[idx])
         record.some(idx, np.full(idx.size, a), y_now[idx])
@@ -102,25 +123,28 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
     while rows.size:
         sub = idx[rows]
         M, G = stretch.M(code, sub), stretch.G(code, sub)
-        tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[rows])
+        tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[rows], code[sub])
         w_e = matvec(stretch.propagate(M, tau - start), w_start)
         if tally is not None:  # the piece before the switch, in the old configuration
             tally.fresh(sub, M, G, w_start, tau - start)
         y_before = matvec(G, w_e)
         t_event, at = t_prev[rows] + tau, pos[rows]
-        code[sub] |= (1 << which)
+        code[sub] ^= (1 << which)
         watch.event_times[sub, which] = t_event
+        if watch.enter is not None:
+            n = w_e.shape[1] - stretch.F.shape[0]
+            w_e[:, :n] = watch.enter(sub, w_e[:, :n], t_event)
         G_new = stretch.G(code, sub)
         y_after = matvec(G_new, w_e)
         record.some(sub, t_event, y_before, at)
         record.some(sub, t_event, y_after, at)
         while True:  # another threshold already strictly met at this instant acts at once
-            imm = watch.pending(code[sub]) & (watch.values(y_after) > 0.0)
+            imm = watch.pending(code[sub]) & (watch.values(y_after, code[sub]) > 0.0)
             r = np.flatnonzero(imm.any(axis=1))
             if r.size == 0:
                 break
             wh = np.argmax(imm[r], axis=1)
-            code[sub[r]] |= (1 << wh)
+            code[sub[r]] ^= (1 << wh)
             watch.event_times[sub[r], wh] = t_event[r]
             G_new[r] = stretch.G(code, sub[r])
             record.some(sub[r], t_event[r], y_after[r], at[r])
@@ -132,7 +156,7 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
         if out_y is None:
             out_y = np.empty((K, y_end.shape[1]))
         out_w[rows], out_y[rows] = w_end, y_end
-        g_after, g_e = watch.values(y_after), watch.values(y_end)
+        g_after, g_e = watch.values(y_after, code[sub]), watch.values(y_end, code[sub])
         g_now[rows] = g_e
         again = watch.pending(code[sub]) & (g_after < 0.0) & (g_e >= 0.0)
         more = again.any(axis=1) & (tau < h)
@@ -142,7 +166,7 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
     return out_w, out_y, g_now
 
 
-def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_end):
+def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_end, code):
     """Earliest crossing offset τ in (start, h] per row (s), and which switch crossed.
 
     Bracketed Newton iterations on g(τ) = c·Φ(τ − start) w_start − level from the
@@ -150,6 +174,7 @@ def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_e
     back to bisection whenever a Newton step leaves the bracket.
     """
     K, k = crossed.shape
+    levels, signs = watch.clause(code)  # (K, k): the condition each row watches
     best_tau = np.full(K, np.inf)
     best_j = np.zeros(K, dtype=np.int64)
     for j in range(k):
@@ -158,11 +183,11 @@ def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_e
             continue
         c = G[rows][:, watch.rows[j], :]
         Mr, wr, base = M[rows], w_start[rows], start[rows]
-        level = watch.levels[j]
+        level = levels[rows, j]
         lo, hi = base.copy(), np.full(rows.size, h)
         g_lo = np.einsum("ni,ni->n", c, wr) - level
         sign = np.sign(g_lo)
-        g_hi = g_end[rows, j] * watch.signs[j]  # back to watched − level
+        g_hi = g_end[rows, j] * signs[rows, j]  # back to watched − level
         with np.errstate(divide="ignore", invalid="ignore"):
             secant = lo + (hi - lo) * g_lo / (g_lo - g_hi)
         tau = np.where(np.isfinite(secant) & (secant > lo) & (secant < hi), secant, 0.5 * (lo + hi))
@@ -172,7 +197,7 @@ def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_e
                 break
             a = np.flatnonzero(active)
             ws = matvec(stretch.propagate(Mr[a], tau[a] - base[a]), wr[a])
-            g = np.einsum("ni,ni->n", c[a], ws) - level
+            g = np.einsum("ni,ni->n", c[a], ws) - level[a]
             dg = np.einsum("ni,ni->n", c[a], matvec(Mr[a], ws))
             same = np.sign(g) == sign[a]
             lo[a] = np.where(same, tau[a], lo[a])
