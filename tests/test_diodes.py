@@ -276,7 +276,7 @@ def test_diode_statement_and_its_mistakes():
 
 def test_chattering_stops_the_run_naming_the_diode_and_the_instant():
     # Structural: many diode events within a tiny time stop the run instead of crawling.
-    from circuitode.commutation import CHATTER_EVENTS, Commutation
+    from circuitode.transient.commutation import CHATTER_EVENTS, Commutation
     from circuitode.errors import IntegrationError
 
     ckt = loads(BRIDGE)

@@ -1,5 +1,5 @@
 """Integrals of outputs carried by the solvers (circuitode.solvers.integrals,
-circuitode.window_integrals): energy, I²t, rms and mean exact to rounding with the exact
+circuitode.transient.window_integrals): energy, I²t, rms and mean exact to rounding with the exact
 method whatever the output step, and over the dense output with the adaptive methods."""
 from __future__ import annotations
 

@@ -446,7 +446,7 @@ def test_default_records_and_csv_with_units(tmp_path):
 def test_docstring_examples_run():
     import doctest
 
-    import circuitode.transient as module
+    import circuitode.transient.driver as module
 
     result = doctest.testmod(module)
     assert result.failed == 0 and result.attempted > 0

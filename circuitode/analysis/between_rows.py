@@ -2,7 +2,7 @@
 
 ``Waveforms.integrals`` (∫ y dt, ∫ y² dt from the integrator) give mean, rms, I²t
 and energy (:mod:`.window_integrals`); ``Waveforms.extrema`` (maximum and minimum
-located between rows on the solution, :mod:`circuitode.extrema`) give the peak,
+located between rows on the solution, :mod:`circuitode.transient.extrema`) give the peak,
 its instant, the minimum and the overshoot; ``Waveforms.between`` (values between
 rows on the solution) locates the crossings behind the rise time (10 % and 90 %
 of the step, IEEE Std 181) and the settling time (last exit from the 2 % band,

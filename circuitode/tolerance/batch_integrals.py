@@ -1,6 +1,6 @@
 """Output integrals of a chunk of samples, accumulated step by step as the engine goes.
 
-The batched counterpart of :mod:`circuitode.window_integrals`: for every sample,
+The batched counterpart of :mod:`circuitode.transient.window_integrals`: for every sample,
 ∫ y dt of every assembled output row and ∫ y_a y_b dt for the pairs a figure
 needs (y² of each row, v·i of each power probe), exact to rounding with the exact
 method whatever the output step (:func:`circuitode.solvers.integrals.moment_operators`).

@@ -43,10 +43,10 @@ from collections import Counter, deque
 
 import numpy as np
 
-from .equations.entry import enter, entry_violations
-from .errors import CircuitodeError, IntegrationError
-from .model.circuit import Circuit, CurrentThrough, Diode, VoltageAcross
-from .solvers import LinearEvent
+from ..equations.entry import enter, entry_violations
+from ..errors import CircuitodeError, IntegrationError
+from ..model.circuit import Circuit, CurrentThrough, Diode, VoltageAcross
+from ..solvers import LinearEvent
 
 __all__ = ["DIODE_BAND", "DIODE_TIE", "CHATTER_EVENTS", "CHATTER_WINDOW", "MAX_ENUMERATED", "Commutation", "diode_probes"]
 
@@ -274,12 +274,12 @@ def reason(circuit: Circuit, k: int, conducting: bool, idle: bool = False) -> st
 
 
 def _seconds(t: float) -> str:
-    from .quantities import format_si
+    from ..quantities import format_si
 
     return format_si(t, "s")
 
 
 def _volts(v: float) -> str:
-    from .quantities import format_si
+    from ..quantities import format_si
 
     return format_si(v, "V")

@@ -1,8 +1,8 @@
 """What a single run carries beyond its rows: window integrals, located extrema, fastest seen mode.
 
 Gathered here so the transient driver only hands over its rows and bookkeeping:
-the integrals summed from the integrator (:mod:`circuitode.window_integrals`), the
-maxima and minima located between rows (:mod:`circuitode.extrema`), and the
+the integrals summed from the integrator (:mod:`circuitode.transient.window_integrals`), the
+maxima and minima located between rows (:mod:`circuitode.transient.extrema`), and the
 fastest mode of the configurations used that a recorded quantity sees
 (:mod:`circuitode.solvers.visibility`).
 """
@@ -13,8 +13,8 @@ from typing import Sequence
 import numpy as np
 
 from .extrema import BetweenRows, refine_extrema
-from .model.circuit import PowerIn
-from .solvers.visibility import fastest_seen_rate
+from ..model.circuit import PowerIn
+from ..solvers.visibility import fastest_seen_rate
 from .window_integrals import IntegralTally
 
 __all__ = ["carried_by_run"]

@@ -10,8 +10,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import CircuitodeError
-from .model.circuit import INITIAL_STATES, Circuit
+from ..errors import CircuitodeError
+from ..model.circuit import INITIAL_STATES, Circuit
 
 __all__ = ["DEFAULT_POINTS"]
 

@@ -28,8 +28,8 @@ import numpy as np
 from scipy.linalg import expm
 from scipy.optimize import brentq
 
-from .solvers.base import generator_matrices
-from .solvers.exact import augmented_matrix
+from ..solvers.base import generator_matrices
+from ..solvers.exact import augmented_matrix
 
 __all__ = ["CANDIDATES", "Extremum", "BetweenRows", "refine_extrema"]
 

@@ -13,8 +13,8 @@ from typing import Sequence
 
 import numpy as np
 
-from .model.circuit import CurrentThrough, PowerIn, VoltageAcross
-from .solvers.integrals import IntegralValues, OutputIntegrals
+from ..model.circuit import CurrentThrough, PowerIn, VoltageAcross
+from ..solvers.integrals import IntegralValues, OutputIntegrals
 
 __all__ = ["IntegralTally"]
 

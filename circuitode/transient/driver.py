@@ -11,7 +11,7 @@ inductor currents are continuous across every switching instant.
 
 At each switching instant and source breakpoint two rows share the same time:
 the values just before and just after, so jumps of currents stay sharp.
-Diodes: :mod:`circuitode.commutation`.
+Diodes: :mod:`circuitode.transient.commutation`.
 """
 from __future__ import annotations
 
@@ -21,20 +21,20 @@ from typing import Sequence
 
 import numpy as np
 
-from .model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from ..model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
-from .model.configurations import reachable_configurations
-from .errors import CircuitodeError
-from .notebook import WaveformsView
-from .solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
-from .solvers.explicit_guard import check_explicit_work
-from .model.sources import SourceBank
-from .equations.statespace import StateSpaceCache, describe_configuration, initial_state
-from .equations.entry import enter
+from ..model.configurations import reachable_configurations
+from ..errors import CircuitodeError
+from ..notebook import WaveformsView
+from ..solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
+from ..solvers.explicit_guard import check_explicit_work
+from ..model.sources import SourceBank
+from ..equations.statespace import StateSpaceCache, describe_configuration, initial_state
+from ..equations.entry import enter
 from .commutation import Commutation, diode_probes
-from .checks.topology import verify
+from ..checks.topology import verify
 from .carried import carried_by_run
-from .run_settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
+from .settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
 from .window_integrals import IntegralTally
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
@@ -70,7 +70,7 @@ class Waveforms(WaveformsView):
     warnings : topology warnings (diagnostics of severity "warning"), as text.
     integrals, extrema, between, fastest_seen_rate : what the run carries beyond its rows
     (window integrals, located extrema, values between rows, fastest mode seen;
-    :mod:`circuitode.carried`).
+    :mod:`circuitode.transient.carried`).
     """
 
     t: np.ndarray
