@@ -112,7 +112,25 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--min-yield", type=_percent, help="exit 1 when the yield is below this, e.g. 99%%")
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-tolerance next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
+    _add_bench_commands(sub)
     return parser
+
+
+def _add_bench_commands(sub) -> None:
+    """Commands that look at frequency response and at measured captures."""
+    p = sub.add_parser("response", help="frequency response (Bode plots) and impedance at a node, per configuration")
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--from", dest="from_source", metavar="SOURCE", help="the independent source that drives")
+    p.add_argument("--to", metavar="QUANTITY", help='the response, e.g. "voltage at out"')
+    p.add_argument("--impedance-at", metavar="NODE", help="also the impedance seen at NODE (sources set to zero)")
+    p.add_argument("--lowest", type=_quantity("Hz"), help="lowest frequency (default: two decades below the poles)")
+    p.add_argument("--highest", type=_quantity("Hz"), help="highest frequency (default: two decades above)")
+    p.add_argument("--points", type=int, default=801, help="log-spaced frequencies (default 801)")
+    p.add_argument("--until", type=_quantity("s"), help="window whose switch configurations count")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
+    p.add_argument("--out", type=Path, help="folder (default: <netlist>-response next to the netlist)")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
 
 
 # --------------------------------------------------------------------------
@@ -190,7 +208,24 @@ def _tolerance(args: argparse.Namespace) -> int:
     return int(result.exit_code)
 
 
-COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance}
+def _response(args: argparse.Namespace) -> int:
+    from .output.response_job import response_job
+    from .output.response_text import response_text
+    from .output.runner import default_out_dir
+
+    if (args.from_source is None) != (args.to is None):
+        raise CircuitodeError("give --from SOURCE and --to QUANTITY together (or only --impedance-at NODE)")
+    if args.to is None and args.impedance_at is None:
+        raise CircuitodeError('nothing to compute: give --from SOURCE --to "voltage at NODE", --impedance-at NODE, or both')
+    circuit = _load(args.netlist, args.overrides)
+    result = response_job(circuit, from_source=args.from_source, to=args.to, impedance_at=args.impedance_at,
+                          until=args.until, f_min=args.lowest, f_max=args.highest, points=args.points,
+                          out_dir=args.out or default_out_dir(args.netlist, "response"), plots=not args.no_plots)
+    print(response_text(result.curves, result.problems, result.files, path=args.netlist, title=circuit.title))
+    return 0 if result.curves else 3
+
+
+COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "response": _response}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
