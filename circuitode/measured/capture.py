@@ -147,9 +147,12 @@ def parse_capture(text: str, source: str = "<capture>") -> Capture:
     """Read capture text (see the module notes for the layouts); raises CaptureError."""
     lines = text.lstrip("\ufeff").splitlines()
     data_like = [_is_data(line) for line in lines]
-    width_of = [len(_fields(line, _separator(line))) if ok else -1 for line, ok in zip(lines, data_like)]
-    first = next((k for k in range(len(lines)) if data_like[k]  # three like rows start the data block
-                  and all(k + j < len(lines) and width_of[k + j] == width_of[k] for j in (1, 2))), None)
+    filled = np.array([bool(line.strip()) for line in lines], dtype=int)
+    numeric = np.array(data_like, dtype=int)
+    rest_filled = np.cumsum(filled[::-1])[::-1]  # non-blank lines from each line to the end
+    rest_numeric = np.cumsum(numeric[::-1])[::-1]
+    # the data block starts at the first row of numbers from which on most lines are numbers
+    first = next((k for k in range(len(lines)) if data_like[k] and 2 * rest_numeric[k] > rest_filled[k]), None)
     if first is None:
         raise CaptureError(f"{source}: no line of numbers found; expected a block of rows such as "
                            "'0.000012,1.25,0.31' after the header lines")
@@ -160,10 +163,11 @@ def parse_capture(text: str, source: str = "<capture>") -> Capture:
     width = len(_fields(lines[first], sep))
     header = [(k + 1, lines[k]) for k in range(first) if lines[k].strip()]
     block = "\n".join(lines[first:end])
+    block = re.sub(rf"(?:{re.escape(sep)}[ \t]*)+$", "", block, flags=re.M)  # trailing separators
     if sep != ",":
         block = block.replace(",", ".")
     try:
-        data = np.loadtxt(io.StringIO(block), delimiter=sep, ndmin=2, usecols=range(width), dtype=float)
+        data = np.loadtxt(io.StringIO(block), delimiter=sep, ndmin=2, dtype=float, quotechar='"')
     except ValueError:
         data = None
     if data is None or data.shape[1] != width or not np.all(np.isfinite(data)):
