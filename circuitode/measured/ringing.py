@@ -154,7 +154,8 @@ def _vertex_offset(coef) -> float:
 
 
 def _extrema(t, y, period, sigma):
-    """Alternating extrema (time, value, se) from the first whole one on, one per half period.
+    """Local fits of the alternating extrema from the first whole one on, one per half period:
+    a list of (sample index, quartic coefficients, (XᵀX)⁻¹, vertex time), and the half window (s).
 
     The extrema of a damped sinusoid are exactly half a damped period apart, so
     their times are taken from a straight line through the local vertex times;
@@ -179,16 +180,33 @@ def _extrema(t, y, period, sigma):
         coef, inv = _local_fit(t, y, k, half_window)
         fits.append((k, coef, inv, t[k] + _vertex_offset(coef) * half_window))
         guess, want_max = fits[-1][3] + period / 2, not want_max
-    if len(fits) < 2:
-        return np.zeros((len(fits), 3))
-    index = np.arange(len(fits))
-    line = np.polyfit(index, [f[3] for f in fits], 1)
-    out = []
-    for i, (k, coef, inv, _) in enumerate(fits):
-        at = (np.polyval(line, i) - t[k]) / half_window
-        g = at ** np.arange(5)
-        out.append((t[k] + at * half_window, float(g @ coef), sigma * float(np.sqrt(g @ inv @ g))))
-    return np.array(out)
+    return fits, half_window
+
+
+def _read(t, fit, time, half_window, sigma):
+    """(time, value, standard error) of one local quartic read at ``time``."""
+    k, coef, inv, _ = fit
+    g = ((time - t[k]) / half_window) ** np.arange(5)
+    return time, float(g @ coef), sigma * float(np.sqrt(g @ inv @ g))
+
+
+def _read_on_line(t, fits, half_window, sigma, count):
+    """The first ``count`` extrema read at times on a straight line through their vertex times."""
+    fits = fits[:count]
+    line = np.polyfit(np.arange(len(fits)), [f[3] for f in fits], 1)
+    return np.array([_read(t, f, np.polyval(line, i), half_window, sigma) for i, f in enumerate(fits)])
+
+
+def _heights(ext):
+    """Peak-to-trough heights of whole cycles and their standard errors."""
+    pairs = ext.shape[0] // 2
+    heights = np.abs(ext[0:2 * pairs:2, 1] - ext[1:2 * pairs:2, 1])
+    return heights, np.hypot(ext[0:2 * pairs:2, 2], ext[1:2 * pairs:2, 2])
+
+
+def _last_usable(heights, errors) -> int:
+    short = np.nonzero((heights < HEIGHT_TO_NOISE * errors) | (heights < RELATIVE_FLOOR * heights[0]))[0]
+    return int(short[0] - 1) if short.size else heights.size - 1
 
 
 def log_decrement(t, y, *, start: float | None = None, cycles: int | None = None,
@@ -204,15 +222,18 @@ def log_decrement(t, y, *, start: float | None = None, cycles: int | None = None
     t, y = _window(t, y, start)
     sigma = noise_level(y)
     period = _rough_period(t, y)
-    ext = _extrema(t, y, period, sigma)
-    pairs = ext.shape[0] // 2
-    if pairs < 2:
-        raise RingingError(f"the samples hold {ext.shape[0]} extrema; the log decrement needs at least "
+    fits, half_window = _extrema(t, y, period, sigma)
+    if len(fits) < 4:
+        raise RingingError(f"the samples hold {len(fits)} extrema; the log decrement needs at least "
                            "one whole cycle (4 extrema)")
-    heights = np.abs(ext[0:2 * pairs:2, 1] - ext[1:2 * pairs:2, 1])
-    errors = np.hypot(ext[0:2 * pairs:2, 2], ext[1:2 * pairs:2, 2])
-    usable = np.nonzero((heights < HEIGHT_TO_NOISE * errors) | (heights < RELATIVE_FLOOR * heights[0]))[0]
-    last = (usable[0] - 1) if usable.size else pairs - 1
+    # first pass: each extremum read at its own vertex, to find how many cycles stand above the noise;
+    # second pass: only those, read on the line of their times (see _extrema)
+    own = np.array([_read(t, f, f[3], half_window, sigma) for f in fits])
+    last = _last_usable(*_heights(own))
+    ext = _read_on_line(t, fits, half_window, sigma, 2 * max(last, 1) + 2)
+    heights, errors = _heights(ext)
+    last = min(last, _last_usable(heights, errors))
+    pairs = heights.size
     n = int(cycles) if cycles is not None else int(last)
     if n < 1 or n > pairs - 1:
         raise RingingError(f"the ringing stands above the noise for {max(last, 0)} whole cycle(s); "
@@ -315,8 +336,8 @@ def matrix_pencil(t, y, *, start: float | None = None, order: int | None = None)
         if sk.imag < -1e-9 * abs(sk):
             continue  # the conjugate of a pair is reported once
         oscillates = sk.imag > 1e-9 * abs(sk)
-        if not oscillates and abs(sk.real) * (t[-1] - t[0]) < 1e-3:
-            continue  # a constant level
+        if not oscillates and abs(sk.real) * (t[-1] - t[0]) < 0.05:
+            continue  # a level (a time constant over 20 windows long: the final value, or a slow drift)
         wn = abs(sk)
         modes.append(PencilMode(float(sk.imag / (2 * np.pi)), float(-sk.real / wn) if wn else np.nan,
                                 float(wn / (2 * np.pi)), float((2 if oscillates else 1) * abs(hk))))
