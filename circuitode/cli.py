@@ -132,6 +132,22 @@ def _add_bench_commands(sub) -> None:
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-response next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
 
+    p = sub.add_parser("compare", help="a measured capture (CSV) against the model: alignment, errors, ringing")
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--measured", required=True, metavar="CSV", help="the capture (layouts: docs/captures.md)")
+    p.add_argument("--channel", required=True, help="channel name, or number (CH2, channel 2 or the 2nd column)")
+    p.add_argument("--as", dest="quantity", required=True, metavar="QUANTITY",
+                   help='what the channel measured, e.g. "voltage at link"')
+    align = p.add_mutually_exclusive_group()
+    align.add_argument("--trigger-level", type=float, metavar="LEVEL",
+                       help="align on the first crossing of this level (in the channel's unit; "
+                            "default halfway through the model's step)")
+    align.add_argument("--shift", type=_quantity("s"), help="add this to the capture's clock instead, e.g. 102us")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
+    p.add_argument("--out", type=Path, help="folder (default: <netlist>-compare next to the netlist)")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+
 
 # --------------------------------------------------------------------------
 # commands
@@ -225,7 +241,20 @@ def _response(args: argparse.Namespace) -> int:
     return 0 if result.curves else 3
 
 
-COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "response": _response}
+def _compare(args: argparse.Namespace) -> int:
+    from .output.compare_job import compare_job
+    from .output.compare_text import compare_text
+    from .output.runner import default_out_dir
+
+    circuit = _load(args.netlist, args.overrides)
+    result = compare_job(circuit, measured=args.measured, channel=args.channel, quantity=args.quantity,
+                         shift=args.shift, level=args.trigger_level,
+                         out_dir=args.out or default_out_dir(args.netlist, "compare"), plots=not args.no_plots)
+    print(compare_text(result, path=args.netlist))
+    return 0
+
+
+COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "response": _response, "compare": _compare}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -12,8 +12,8 @@ __all__ = ["plot_comparison"]
 
 
 def plot_comparison(result, path: Path) -> Path:
-    """Draw ``result`` (a CompareResult): top, measured (thin, grey-blue) and model (line);
-    bottom, measured − model.  The fitted damped sine is drawn dashed over its window."""
+    """Draw ``result`` (a CompareResult): top, measured (thin, grey-blue) and model (line),
+    a dashed mark where the ringing figures start; bottom, measured − model."""
     plt = _pyplot()
     c = result.comparison
     tf, tp = si_scale(c.t)
@@ -24,10 +24,7 @@ def plot_comparison(result, path: Path) -> Path:
     top.plot(c.t * tf, c.measured * yf, color="#9fb7cc", lw=0.8, label=f"measured ({result.channel})")
     top.plot(c.t * tf, c.model * yf, color=_PALETTE[1], lw=1.5, label="model")
     fit = result.ringing.get("damped-sine fit")
-    if fit is not None:
-        ok = c.t >= fit.start
-        bottom_t = c.t[ok] - fit.start
-        del bottom_t  # the fit's curve is not kept; mark its window instead
+    if fit is not None:  # mark where the ringing figures start
         top.axvline(fit.start * tf, color="#888888", lw=0.8, ls=(0, (4, 3)))
         top.text(fit.start * tf, 0.02, " ringing figures from here", transform=top.get_xaxis_transform(),
                  fontsize=7, color="#555555")
