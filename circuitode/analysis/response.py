@@ -30,6 +30,7 @@ from typing import Sequence
 
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
+from scipy.signal import find_peaks
 
 from ..errors import CircuitodeError, SingularSystemError
 from ..equations.statespace import assemble, describe_configuration
@@ -42,6 +43,9 @@ __all__ = ["CHUNK_ELEMENTS", "ResponseError", "Resonance", "ResponseCurve", "tra
 
 #: Most complex matrix entries solved at once (bounds memory to ~16 bytes × this).
 CHUNK_ELEMENTS = 4_000_000
+#: Least prominence of a resonance, in natural-log units of |H| (0.01 ≈ 0.09 dB): rounding ripple on a
+#: flat stretch is not a resonance.
+PROMINENCE = 0.01
 _TEST_SOURCE = "test_source_of_impedance"
 
 
@@ -127,14 +131,20 @@ def transfer(A, B, C, D, omega) -> np.ndarray:
 
 def frequency_grid(matrices, f_min: float | None = None, f_max: float | None = None,
                    points: int = 801) -> np.ndarray:
-    """A log-spaced grid (Hz) two decades either side of the poles of all state matrices given,
-    unless bounds are given."""
+    """A log-spaced grid (Hz) unless both bounds are given: two decades either side of the
+    oscillatory poles of the state matrices, or of all their poles when none oscillates.
+
+    Oscillatory poles set the range when there are any, so that a parasitic
+    pole (a picosecond time constant of an open switch's leakage) does not
+    stretch the plot over twelve decades."""
     lam = np.concatenate([np.linalg.eigvals(np.atleast_2d(A)) if np.size(A) else np.zeros(0) for A in matrices])
-    mags = np.abs(lam[np.abs(lam) > 0]) / (2 * np.pi)
+    lam = lam[np.abs(lam) > 0]
+    ringing = lam[np.abs(lam.imag) > 1e-9 * np.abs(lam)]
+    mags = np.abs(ringing if ringing.size else lam) / (2 * np.pi)
     lo = f_min if f_min is not None else (mags.min() / 100 if mags.size else 1.0)
     hi = f_max if f_max is not None else (mags.max() * 100 if mags.size else 1e6)
     if not (0 < lo < hi):
-        raise ResponseError(f"the frequency range must have 0 < from < to; got {lo} Hz to {hi} Hz")
+        raise ResponseError(f"the frequency range must have 0 < lowest < highest; got {lo} Hz to {hi} Hz")
     return np.geomspace(lo, hi, points)
 
 
@@ -160,20 +170,21 @@ def find_resonances(f, H_of_f, A, *, dips: bool = False) -> tuple[Resonance, ...
     """Local maxima (and with ``dips`` minima) of |H| on the grid ``f`` (Hz), refined.
 
     ``H_of_f`` maps an (F,) array of Hz to (F,) complex values; ``A`` gives the poles.
-    Extremes at the ends of the grid are not resonances.
+    Extremes at the ends of the grid are not resonances, nor those less prominent
+    than :data:`PROMINENCE` (scipy.signal.find_peaks on ln |H|).
     """
     f = np.asarray(f, dtype=float)
     mag = np.abs(H_of_f(f))
     lam = np.linalg.eigvals(np.atleast_2d(A)) if np.size(A) else np.array([])
     pairs = lam[lam.imag > 0]
-    inner = np.arange(1, f.size - 1)
     found = []
-    kinds = [("peak", (mag[inner] > mag[inner - 1]) & (mag[inner] >= mag[inner + 1]))]
+    level = np.log(np.maximum(mag, 1e-300))
+    kinds = [("peak", find_peaks(level, prominence=PROMINENCE)[0])]
     if dips:
-        kinds.append(("dip", (mag[inner] < mag[inner - 1]) & (mag[inner] <= mag[inner + 1])))
-    for kind, mask in kinds:
+        kinds.append(("dip", find_peaks(-level, prominence=PROMINENCE)[0]))
+    for kind, where in kinds:
         sign = -1.0 if kind == "peak" else 1.0
-        for k in inner[mask]:
+        for k in where:
             lo, hi = np.log(f[k - 1]), np.log(f[k + 1])
             best = minimize_scalar(lambda x: sign * float(np.abs(H_of_f(np.array([np.exp(x)]))[0])),
                                    bounds=(lo, hi), method="bounded", options={"xatol": 1e-10})
