@@ -148,6 +148,20 @@ def _add_bench_commands(sub) -> None:
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-compare next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG")
 
+    p = sub.add_parser("fit", help="fit toleranced parameters to a measured capture (least squares, intervals)")
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--measured", required=True, metavar="CSV", help="the capture (layouts: docs/captures.md)")
+    p.add_argument("--channel", required=True, help="channel name, or number")
+    p.add_argument("--as", dest="quantity", required=True, metavar="QUANTITY",
+                   help='what the channel measured, e.g. "voltage at link"')
+    p.add_argument("--free", required=True, metavar="NAMES",
+                   help="comma-separated parameters to fit, each with a tolerance (its bounds), e.g. L_cab,R_damp")
+    align = p.add_mutually_exclusive_group()
+    align.add_argument("--trigger-level", type=float, metavar="LEVEL", help="align on this crossing level")
+    align.add_argument("--shift", type=_quantity("s"), help="add this to the capture's clock instead")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
+
 
 # --------------------------------------------------------------------------
 # commands
@@ -254,7 +268,18 @@ def _compare(args: argparse.Namespace) -> int:
     return 0
 
 
-COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "response": _response, "compare": _compare}
+def _fit(args: argparse.Namespace) -> int:
+    from .output.fit_job import fit_job
+    from .output.fit_text import fit_text
+
+    circuit = _load(args.netlist, args.overrides)
+    result = fit_job(circuit, measured=args.measured, channel=args.channel, quantity=args.quantity,
+                     free=args.free.split(","), shift=args.shift, level=args.trigger_level)
+    print(fit_text(result, path=args.netlist))
+    return 0
+
+
+COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "response": _response, "compare": _compare, "fit": _fit}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -4,6 +4,8 @@ The reference waveform is a closed-form underdamped step response
 1 − e^{−ζωn t}(cos ωd t + ζ/√(1−ζ²) sin ωd t) (Nilsson & Riedel, Electric
 Circuits, ch. 8), so shifts and errors are known exactly.
 """
+from pathlib import Path
+
 import numpy as np
 import pytest
 
@@ -12,6 +14,10 @@ from circuitode.measured.compare import CompareError, compare_waveforms, crossin
 from circuitode.output.compare_job import compare_job
 
 ZETA, WN = 0.1, 2 * np.pi * 1000
+
+ROOT = Path(__file__).resolve().parents[1]
+DEMO = str(ROOT / "netlists" / "dc_link_ring.cnet")
+CAPTURE = str(ROOT / "netlists" / "captures" / "dc_link_ring_decimal_comma.csv")
 
 
 def step_response(t):
@@ -51,14 +57,13 @@ def test_crossing_and_refusals():
         compare_waveforms(t, t, t, t, shift=5.0)
 
 
-DEMO, CAPTURE = "netlists/dc_link_ring.cnet", "netlists/captures/dc_link_ring_decimal_comma.csv"
 
 
 def test_demo_capture_against_its_model():
-    """The invented capture was made with L_cab 3.3 µH, C_link 205 µF, R_damp 14 mΩ
+    """The invented capture was made with L_cab 3.25 µH, C_link 205 µF, R_damp 11.5 mΩ
     (make_demo_captures.py), so its ringing must show those values' ζ and fn, not the nominal ones."""
     r = compare_job(DEMO, measured=CAPTURE, channel=2, quantity="voltage at link")
-    L, C, R = 3.3e-6, 205e-6, 0.012 + 0.014
+    L, C, R = 3.25e-6, 205e-6, 0.012 + 0.0115
     zeta, fn = R / 2 * np.sqrt(C / L), 1 / (2 * np.pi * np.sqrt(L * C))  # series RLC, Nilsson & Riedel ch. 8
     fit = r.ringing["damped-sine fit"]
     assert fit.zeta_interval[0] - 2e-3 < zeta < fit.zeta_interval[1] + 2e-3  # the 1 kΩ bleeder adds a little
