@@ -24,6 +24,11 @@ examples:
   circuitode run netlists/precharge.cnet --set R_pre=47Ω --no-plots
   circuitode modes netlists/lc_filter.cnet
   circuitode tolerance netlists/precharge.cnet --samples 10000 --sampler lhs --seed 7
+  circuitode response netlists/dc_link_ring.cnet --from batt --to "voltage at link" --impedance-at link
+  circuitode compare netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
+      --channel 2 --as "voltage at link"
+  circuitode fit netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
+      --channel 2 --as "voltage at link" --free L_cab,R_damp
 
 exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
 """

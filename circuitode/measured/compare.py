@@ -21,6 +21,7 @@ import numpy as np
 
 from ..analysis.figures import overshoot, peak, time_of_peak
 from ..errors import CircuitodeError
+from ..netlist.quantities import format_si
 
 __all__ = ["CompareError", "Comparison", "crossing_time", "compare_waveforms"]
 
@@ -100,11 +101,11 @@ def compare_waveforms(t_model, y_model, t_meas, y_meas, *, shift: float | None =
         word = "rising" if rising else "falling"
         for name, value in (("model", t_model_cross), ("measurement", t_meas_cross)):
             if np.isnan(value):
-                raise CompareError(f"the {name} never crosses {lvl:.6g} {unit} ({word}); give the crossing "
+                raise CompareError(f"the {name} never crosses {format_si(lvl, unit, 5)} ({word}); give the crossing "
                                    "level with --trigger-level or the time shift with --shift")
         shift = t_model_cross - t_meas_cross
-        alignment = f"first {word} crossing of {lvl:.6g} {unit}: measured at {t_meas_cross:.6g} s, " \
-                    f"model at {t_model_cross:.6g} s"
+        alignment = (f"first {word} crossing of {format_si(lvl, unit, 5)}: measured at "
+                     f"{format_si(t_meas_cross, 's', 5)}, model at {format_si(t_model_cross, 's', 5)}")
     else:
         alignment = "shift given"
     ta = tc + shift

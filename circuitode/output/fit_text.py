@@ -1,6 +1,8 @@
 """Printed text of the ``fit`` command: fitted values with intervals, correlations, residual."""
 from __future__ import annotations
 
+import textwrap
+
 from ..netlist.quantities import format_si
 
 __all__ = ["fit_text"]
@@ -11,36 +13,41 @@ def fit_text(result, *, path: str = "") -> str:
     f = result.fit
     unit = "V" if result.quantity.startswith("voltage") else ("A" if result.quantity.startswith("current") else "")
     units = {n: result.circuit.spreads[n] for n in f.names}
-    lines = [
+    head = [
         f"{result.circuit.title}: {', '.join(f.names)} fitted to channel {result.channel!r} as {result.quantity}"
         + (f" ({path})" if path else ""),
         f"{f.evaluations} batch run(s) of {len(f.names) + 1} samples; capture clock + "
         f"{format_si(result.shift, 's', 6)} = model clock; probe offset fitted: {format_si(f.offset, unit)}",
+    ]
+    lines = [part for text in head for part in textwrap.wrap(text, 80, subsequent_indent="  ")]
+    lines += [
         "",
-        f"{'parameter':<14}{'nominal':>12}{'fitted':>12}  {f'{f.confidence:.0%} interval':<26}{'bounds (tolerance)':>26}",
-        "─" * 90,
+        f"{'parameter':<11}{'nominal':>10}{'fitted':>11}  {f'{f.confidence:.0%} interval':<24}{'bounds (tolerance)':>20}",
+        "─" * 78,
     ]
     for k, name in enumerate(f.names):
         spread = units[name]
         u = _unit_of(result.circuit, name)
         low, high = f.intervals[k]
         bound = f"{format_si(spread.nominal * (1 - spread.relative), u)} … {format_si(spread.nominal * (1 + spread.relative), u)}"
-        mark = "  at a bound" if name in f.at_bound else ""
-        lines.append(f"{name:<14}{format_si(result.nominal[name], u):>12}{format_si(f.values[k], u):>12}  "
-                     f"{'[' + format_si(low, u) + ', ' + format_si(high, u) + ']':<26}{bound:>26}{mark}")
+        mark = " *" if name in f.at_bound else ""
+        lines.append(f"{name[:11]:<11}{format_si(result.nominal[name], u):>10}{format_si(f.values[k], u):>11}  "
+                     f"{'[' + format_si(low, u) + ', ' + format_si(high, u) + ']':<24}{bound:>20}{mark}")
     if len(f.names) > 1:
         lines.append("")
-        lines.append("correlation  " + "".join(f"{n:>10}" for n in f.names))
-        for k, name in enumerate(f.names):
-            lines.append(f"{name:<13}" + "".join(f"{f.correlation[k, j]:>10.3f}" for j in range(len(f.names))))
+        shown = f.names[:6]  # 13 + 6 × 10 columns
+        lines.append("correlation  " + "".join(f"{n[:9]:>10}" for n in shown))
+        for k, name in enumerate(shown):
+            lines.append(f"{name[:12]:<13}" + "".join(f"{f.correlation[k, j]:>10.3f}" for j in range(len(shown))))
     lines.append("")
-    lines.append(f"residual rms {format_si(f.residual_rms, unit)} (nominal model {format_si(result.rms_nominal, unit)}); "
-                 f"Jacobian singular-value ratio {f.condition:.2g}")
+    notes = [f"residual rms {format_si(f.residual_rms, unit)} (nominal model {format_si(result.rms_nominal, unit)}); "
+             f"Jacobian singular-value ratio {f.condition:.2g}"]
     if f.at_bound:
-        lines.append("a value on a bound is held by the tolerance, not by the signal: its interval is not a "
+        notes.append("* on a bound: held by the tolerance, not by the signal, so its interval is not a "
                      "confidence interval; widen the tolerance if the part may lie beyond it")
     if any(abs(f.correlation[k, j]) > 0.95 for k in range(len(f.names)) for j in range(k)):
-        lines.append("correlations near ±1: the signal sees mainly a combination of these parameters")
+        notes.append("correlations near ±1: the signal sees mainly a combination of these parameters")
+    lines.extend(part for note in notes for part in textwrap.wrap(note, 80, subsequent_indent="  "))
     return "\n".join(lines)
 
 
