@@ -10,6 +10,8 @@ The public API, flat::
     limits = co.check_requirements(circuit.requirements, waves)
     table = co.circuit_modes(circuit)                     # ζ, ωn, Q per configuration
     job = co.run_job("netlists/precharge.cnet", out_dir="out")   # all of it + files
+    bench = co.compare_job("netlists/dc_link_ring.cnet", measured="capture.csv",
+                           channel=2, quantity="voltage at link")   # a scope capture against it
 
 Heavier pieces (the tolerance engine, plotting) are imported on first use.
 """
@@ -52,6 +54,11 @@ __all__ = [
     "circuit_modes",
     "run_job",
     "run_batch",
+    "read_capture",
+    "circuit_response",
+    "response_job",
+    "compare_job",
+    "fit_job",
     "CircuitodeError",
     "NetlistError",
     "TopologyError",
@@ -85,6 +92,11 @@ _LAZY = {
     "circuit_modes": ("analysis.modes", "circuit_modes"),
     "run_job": ("output.runner", "run_job"),
     "run_batch": ("tolerance", "run_batch"),
+    "read_capture": ("measured.capture", "read_capture"),
+    "circuit_response": ("analysis.response", "circuit_response"),
+    "response_job": ("output.response_job", "response_job"),
+    "compare_job": ("output.compare_job", "compare_job"),
+    "fit_job": ("output.fit_job", "fit_job"),
 }
 
 

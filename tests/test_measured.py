@@ -132,3 +132,19 @@ def test_missing_file_and_unknown_channel(tmp_path):
     path.write_text("time [s],CH1 [V]\n0,1\n1,2\n2,3\n", encoding="utf-8")
     with pytest.raises(CaptureError, match="1 channel\\(s\\): CH1"):
         read_capture(path).channel(2)
+
+
+def test_demo_captures_read_through_the_public_api():
+    """Both invented captures: the 12-line header with decimal commas, and the time column in µs."""
+    from pathlib import Path
+
+    import circuitode as co
+
+    folder = Path(__file__).resolve().parents[1] / "netlists" / "captures"
+    semi = co.read_capture(folder / "dc_link_ring_decimal_comma.csv")
+    timed = co.read_capture(folder / "dc_link_ring_time_column.csv")
+    assert semi.first_data_line == 13 and semi.units == {"CH1": "A", "CH2": "V"}
+    assert semi.sample_interval == pytest.approx(0.5e-6) and semi.t[0] == pytest.approx(-50e-6)
+    assert timed.units == {"current": "A", "voltage": "V"} and timed.sample_interval == pytest.approx(1e-6)
+    for cap, name in ((semi, "CH2"), (timed, "voltage")):  # the link settles near 48 V + 0.3 V offset
+        assert np.median(cap.channels[name][-200:]) == pytest.approx(48.3, abs=0.5)
