@@ -120,3 +120,9 @@ def test_cli_response_writes_csv_and_plot(tmp_path, capsys):
     assert (tmp_path / "r" / "transfer.png").stat().st_size > 0
     assert (tmp_path / "r" / "response.csv").read_text().count("\n") == 802
     assert main(["response", str(path), "--to", "voltage at b"]) == 2
+
+
+def test_impedance_at_a_node_held_by_a_voltage_source_is_zero_and_said():
+    curves, problems = circuit_response(loads(SERIES), impedance_at="in")
+    assert np.all(curves[0].magnitude == 0.0)
+    assert len(problems) == 1 and "voltage source holds the node" in problems[0]

@@ -273,6 +273,11 @@ def circuit_response(
         except SingularSystemError as exc:
             problems.append(f"{words}: not analysed: {exc}")
             continue
+        for system in systems:
+            label, _, _, _, C, D, sign, _ = system
+            if sign > 0 and label.startswith("impedance") and not (np.any(C) or np.any(D)):
+                problems.append(f"{words}: impedance at {impedance_at} is 0 Ω at every frequency: a voltage "
+                                "source holds the node (sources are set to zero, so it is a short)")
         found.extend((words, cfg.closed, system) for system in systems)
     if not found:
         return [], problems
