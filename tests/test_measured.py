@@ -148,3 +148,11 @@ def test_demo_captures_read_through_the_public_api():
     assert timed.units == {"current": "A", "voltage": "V"} and timed.sample_interval == pytest.approx(1e-6)
     for cap, name in ((semi, "CH2"), (timed, "voltage")):  # the link settles near 48 V + 0.3 V offset
         assert np.median(cap.channels[name][-200:]) == pytest.approx(48.3, abs=0.5)
+
+
+def test_a_number_in_the_header_and_trailing_text():
+    cap = parse_capture("record length\n10000\nsample interval;1 us\n1;2\n3;4\n5;6\n")
+    np.testing.assert_allclose(cap.t, [0, 1e-6, 2e-6])
+    assert list(cap.channels) == ["channel 1", "channel 2"]
+    with pytest.raises(CaptureError, match="line 6: text after the block of numbers"):
+        parse_capture("t [s],v\n0,1\n1,2\n2,3\n\nend of data\n", "f.csv")

@@ -143,22 +143,30 @@ def _header_value(lines: list[str], keys, unit: str, source: str):
     return None
 
 
+def _data_start(lines: list[str]) -> int | None:
+    """Index of the first row of numbers whose next non-blank line is also one (or is the end).
+
+    Only the header and the first data rows are looked at; a lone number inside
+    the header (followed by text) does not start the data."""
+    for k, line in enumerate(lines):
+        if not _is_data(line):
+            continue
+        following = next((other for other in lines[k + 1:k + 50] if other.strip()), None)
+        if following is None or _is_data(following):
+            return k
+    return None
+
+
 def parse_capture(text: str, source: str = "<capture>") -> Capture:
     """Read capture text (see the module notes for the layouts); raises CaptureError."""
     lines = text.lstrip("\ufeff").splitlines()
-    data_like = [_is_data(line) for line in lines]
-    filled = np.array([bool(line.strip()) for line in lines], dtype=int)
-    numeric = np.array(data_like, dtype=int)
-    rest_filled = np.cumsum(filled[::-1])[::-1]  # non-blank lines from each line to the end
-    rest_numeric = np.cumsum(numeric[::-1])[::-1]
-    # the data block starts at the first row of numbers from which on most lines are numbers
-    first = next((k for k in range(len(lines)) if data_like[k] and 2 * rest_numeric[k] > rest_filled[k]), None)
+    first = _data_start(lines)
     if first is None:
         raise CaptureError(f"{source}: no line of numbers found; expected a block of rows such as "
                            "'0.000012,1.25,0.31' after the header lines")
-    end = first
-    while end < len(lines) and lines[end].strip():
-        end += 1
+    end = len(lines)
+    while end > first and not lines[end - 1].strip():  # blank lines at the end
+        end -= 1
     sep = _separator(lines[first])
     width = len(_fields(lines[first], sep))
     header = [(k + 1, lines[k]) for k in range(first) if lines[k].strip()]
@@ -171,8 +179,13 @@ def parse_capture(text: str, source: str = "<capture>") -> Capture:
     except ValueError:
         data = None
     if data is None or data.shape[1] != width or not np.all(np.isfinite(data)):
-        for k in range(first, end):  # find and name the bad line
+        for k in range(first, end):  # only on failure: find and name the bad line
             parts = _fields(lines[k], sep)
+            if not lines[k].strip():
+                continue
+            if not any(_is_number(p, sep) for p in parts):
+                raise _fail(source, k + 1, "text after the block of numbers; expected the data to run to "
+                                           "the end of the file (remove the trailing lines)")
             if len(parts) != width:
                 raise _fail(source, k + 1, f"expected {width} fields separated by {sep!r}, like line "
                                            f"{first + 1}; got {len(parts)}")
@@ -182,14 +195,11 @@ def parse_capture(text: str, source: str = "<capture>") -> Capture:
                                                + (" (decimal point, as the separator is a comma)"
                                                   if sep == "," and "," in p else ""))
         raise _fail(source, first + 1, "the block of numbers could not be read")
-    if end < len(lines) and any(line.strip() for line in lines[end:]):
-        extra = next(k for k in range(end, len(lines)) if lines[k].strip())
-        raise _fail(source, extra + 1, "text after the block of numbers; expected the data to run to the "
-                                       "end of the file (remove the trailing lines)")
 
     names = [f"channel {j + 1}" for j in range(width)]
     units, scales = [""] * width, [1.0] * width
-    if header and len(_fields(header[-1][1], _separator(header[-1][1]))) == width:
+    last = _fields(header[-1][1], _separator(header[-1][1])) if header else []
+    if len(last) == width and last[0].lower().rstrip(":") not in _INTERVAL_KEYS + _START_KEYS:
         number, line = header[-1]
         parsed = [_name_and_unit(p, source, number) for p in _fields(line, _separator(line))]
         names = [p[0] or f"channel {j + 1}" for j, p in enumerate(parsed)]
