@@ -12,6 +12,8 @@ The public API, flat::
     job = co.run_job("netlists/precharge.cnet", out_dir="out")   # all of it + files
     grid = co.sweep("netlists/precharge.cnet", {"R_pre": "4.7Ω..100Ω/20/log"})  # .to_frame()
     fit = co.size("netlists/precharge.cnet", "R_pre", "1Ω..1kΩ")   # interval + E24 values
+    bench = co.compare_job("netlists/dc_link_ring.cnet", measured="capture.csv",
+                           channel=2, quantity="voltage at link")   # a scope capture against it
 
 Heavier pieces (the tolerance engine, plotting) are imported on first use.
 """
@@ -60,6 +62,11 @@ __all__ = [
     "read_run",
     "read_batch",
     "read_sweep",
+    "read_capture",
+    "circuit_response",
+    "response_job",
+    "compare_job",
+    "fit_job",
     "CircuitodeError",
     "NetlistError",
     "TopologyError",
@@ -99,6 +106,11 @@ _LAZY = {
     "read_batch": ("output.readback", "read_batch"),
     "read_sweep": ("output.readback", "read_sweep"),
     "size": ("studies.sizing", "size"),
+    "read_capture": ("measured.capture", "read_capture"),
+    "circuit_response": ("analysis.response", "circuit_response"),
+    "response_job": ("output.response_job", "response_job"),
+    "compare_job": ("output.compare_job", "compare_job"),
+    "fit_job": ("output.fit_job", "fit_job"),
 }
 
 

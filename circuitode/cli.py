@@ -27,6 +27,11 @@ examples:
   circuitode sweep netlists/precharge.cnet --vary R_pre=4.7Ω..100Ω/20/log --vary C_link=1mF,1.5mF,2.2mF
   circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ
   circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ --yield 99%
+  circuitode response netlists/dc_link_ring.cnet --from batt --to "voltage at link" --impedance-at link
+  circuitode compare netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
+      --channel 2 --as "voltage at link"
+  circuitode fit netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
+      --channel 2 --as "voltage at link" --free L_cab,R_damp
 
 exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
 """
@@ -82,6 +87,27 @@ examples:
   circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ --yield 99%
 
 exit codes: 0 an interval was found, 1 none, 2 bad input.
+""",
+    "response": """\
+examples:
+  circuitode response netlists/lc_filter.cnet --from Vin --to "voltage at out"
+  circuitode response netlists/dc_link_ring.cnet --from batt --to "voltage at link" --impedance-at link
+
+exit codes: 0 done, 2 bad input, 3 nothing could be computed.
+""",
+    "compare": """\
+examples:
+  circuitode compare netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
+      --channel 2 --as "voltage at link"
+
+exit codes: 0 done, 2 bad input (netlist or capture), 3 numerical failure.
+""",
+    "fit": """\
+examples:
+  circuitode fit netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
+      --channel 2 --as "voltage at link" --free L_cab,R_damp
+
+exit codes: 0 done, 2 bad input or parameters the capture cannot tell apart, 3 numerical failure.
 """,
 }
 
@@ -181,6 +207,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-tolerance next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
     _study_parsers(sub)
+    _add_bench_commands(sub)
     return parser
 
 
@@ -210,6 +237,56 @@ def _study_parsers(sub) -> None:
                    help="size so that at least P of the tolerance samples meet every requirement, e.g. 99%%")
     p.add_argument("--samples", type=int, default=500, help="tolerance samples for --yield (default 500)")
     p.add_argument("--seed", type=int, default=0, help="random seed for --yield (default 0)")
+
+
+def _add_bench_commands(sub) -> None:
+    """Commands that look at frequency response and at measured captures."""
+    p = sub.add_parser("response", help="frequency response (Bode plots) and impedance at a node, per configuration",
+                       epilog=COMMAND_EXAMPLES["response"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--from", dest="from_source", metavar="SOURCE", help="the independent source that drives")
+    p.add_argument("--to", metavar="QUANTITY", help='the response, e.g. "voltage at out"')
+    p.add_argument("--impedance-at", metavar="NODE", help="also the impedance seen at NODE (sources set to zero)")
+    p.add_argument("--lowest", type=_quantity("Hz"), help="lowest frequency (default: two decades below the poles)")
+    p.add_argument("--highest", type=_quantity("Hz"), help="highest frequency (default: two decades above)")
+    p.add_argument("--points", type=int, default=801, help="log-spaced frequencies (default 801)")
+    p.add_argument("--until", type=_quantity("s"), help="window whose switch configurations count")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
+    p.add_argument("--out", type=Path, help="folder (default: <netlist>-response next to the netlist)")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
+
+    p = sub.add_parser("compare", help="a measured capture (CSV) against the model: alignment, errors, ringing",
+                       epilog=COMMAND_EXAMPLES["compare"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--measured", required=True, metavar="CSV", help="the capture (layouts: docs/captures.md)")
+    p.add_argument("--channel", required=True, help="channel name, or number (CH2, channel 2 or the 2nd column)")
+    p.add_argument("--as", dest="quantity", required=True, metavar="QUANTITY",
+                   help='what the channel measured, e.g. "voltage at link"')
+    align = p.add_mutually_exclusive_group()
+    align.add_argument("--trigger-level", type=float, metavar="LEVEL",
+                       help="align on the first crossing of this level (in the channel's unit; "
+                            "default halfway through the model's step)")
+    align.add_argument("--shift", type=_quantity("s"), help="add this to the capture's clock instead, e.g. 102us")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
+    p.add_argument("--out", type=Path, help="folder (default: <netlist>-compare next to the netlist)")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+
+    p = sub.add_parser("fit", help="fit toleranced parameters to a measured capture (least squares, intervals)",
+                       epilog=COMMAND_EXAMPLES["fit"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("netlist", help="a .cnet file")
+    p.add_argument("--measured", required=True, metavar="CSV", help="the capture (layouts: docs/captures.md)")
+    p.add_argument("--channel", required=True, help="channel name, or number")
+    p.add_argument("--as", dest="quantity", required=True, metavar="QUANTITY",
+                   help='what the channel measured, e.g. "voltage at link"')
+    p.add_argument("--free", required=True, metavar="NAMES",
+                   help="comma-separated parameters to fit, each with a tolerance (its bounds), e.g. L_cab,R_damp")
+    align = p.add_mutually_exclusive_group()
+    align.add_argument("--trigger-level", type=float, metavar="LEVEL", help="align on this crossing level")
+    align.add_argument("--shift", type=_quantity("s"), help="add this to the capture's clock instead")
+    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
+                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
 
 
 # --------------------------------------------------------------------------
@@ -342,7 +419,49 @@ def _interrupted_words(args: argparse.Namespace, argv: Sequence[str] | None) -> 
             "a changed --samples, --seed, --sampler, --tol or netlist needs another --out.")
 
 
-COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "sweep": _sweep, "size": _size}
+def _response(args: argparse.Namespace) -> int:
+    from .output.response_job import response_job
+    from .output.response_text import response_text
+    from .output.runner import default_out_dir
+
+    if (args.from_source is None) != (args.to is None):
+        raise CircuitodeError("give --from SOURCE and --to QUANTITY together (or only --impedance-at NODE)")
+    if args.to is None and args.impedance_at is None:
+        raise CircuitodeError('nothing to compute: give --from SOURCE --to "voltage at NODE", --impedance-at NODE, or both')
+    circuit = _load(args.netlist, args.overrides)
+    result = response_job(circuit, from_source=args.from_source, to=args.to, impedance_at=args.impedance_at,
+                          until=args.until, f_min=args.lowest, f_max=args.highest, points=args.points,
+                          out_dir=args.out or default_out_dir(args.netlist, "response"), plots=not args.no_plots)
+    print(response_text(result.curves, result.problems, result.files, path=args.netlist, title=circuit.title))
+    return 0 if result.curves else 3
+
+
+def _compare(args: argparse.Namespace) -> int:
+    from .output.compare_job import compare_job
+    from .output.compare_text import compare_text
+    from .output.runner import default_out_dir
+
+    circuit = _load(args.netlist, args.overrides)
+    result = compare_job(circuit, measured=args.measured, channel=args.channel, quantity=args.quantity,
+                         shift=args.shift, level=args.trigger_level,
+                         out_dir=args.out or default_out_dir(args.netlist, "compare"), plots=not args.no_plots)
+    print(compare_text(result, path=args.netlist))
+    return 0
+
+
+def _fit(args: argparse.Namespace) -> int:
+    from .output.fit_job import fit_job
+    from .output.fit_text import fit_text
+
+    circuit = _load(args.netlist, args.overrides)
+    result = fit_job(circuit, measured=args.measured, channel=args.channel, quantity=args.quantity,
+                     free=args.free.split(","), shift=args.shift, level=args.trigger_level)
+    print(fit_text(result, path=args.netlist))
+    return 0
+
+
+COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "sweep": _sweep, "size": _size,
+            "response": _response, "compare": _compare, "fit": _fit}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
