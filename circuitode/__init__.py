@@ -98,7 +98,7 @@ _LAZY = {
     "parse_quantity": ("netlist", "parse_quantity"),
     "analyse_modes": ("analysis.modes", "analyse_modes"),
     "circuit_modes": ("analysis.modes", "circuit_modes"),
-    "run_job": ("output.runner", "run_job"),
+    "run_job": ("jobs.run", "run_job"),
     "run_batch": ("tolerance", "run_batch"),
     "sweep": ("studies.sweep", "sweep"),
     "waveform_figure": ("output.plots", "waveform_figure"),
@@ -108,9 +108,9 @@ _LAZY = {
     "size": ("studies.sizing", "size"),
     "read_capture": ("measured.capture", "read_capture"),
     "circuit_response": ("analysis.response", "circuit_response"),
-    "response_job": ("output.response_job", "response_job"),
-    "compare_job": ("output.compare_job", "compare_job"),
-    "fit_job": ("output.fit_job", "fit_job"),
+    "response_job": ("jobs.response", "response_job"),
+    "compare_job": ("jobs.compare", "compare_job"),
+    "fit_job": ("jobs.fit", "fit_job"),
 }
 
 
@@ -121,7 +121,7 @@ def simulate(source, **options):
     method, step (s), until (s), points, initial ("rest" | "given" | "steady"),
     rtol, atol, probes; ``overrides`` replaces param values when loading.
     """
-    from .output.runner import load_any
+    from .jobs.run import load_any
     from .transient import simulate as _simulate
 
     circuit = load_any(source, options.pop("overrides", None))

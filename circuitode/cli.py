@@ -320,7 +320,7 @@ def _check(args: argparse.Namespace) -> int:
 
 def _run(args: argparse.Namespace) -> int:
     from .output.report import run_text
-    from .output.runner import default_out_dir, run_job
+    from .jobs.run import default_out_dir, run_job
 
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
@@ -355,7 +355,7 @@ def _modes(args: argparse.Namespace) -> int:
 
 
 def _tolerance(args: argparse.Namespace) -> int:
-    from .output.runner import default_out_dir
+    from .jobs.run import default_out_dir
     from .tolerance import format_batch_summary, run_batch
 
     if args.samples is None and args.sampler != "corners":
@@ -384,7 +384,7 @@ def _tolerance(args: argparse.Namespace) -> int:
 
 
 def _sweep(args: argparse.Namespace) -> int:
-    from .output.runner import default_out_dir
+    from .jobs.run import default_out_dir
     from .studies import sweep
     from .studies.report import sweep_text
 
@@ -420,9 +420,9 @@ def _interrupted_words(args: argparse.Namespace, argv: Sequence[str] | None) -> 
 
 
 def _response(args: argparse.Namespace) -> int:
-    from .output.response_job import response_job
+    from .jobs.response import response_job
     from .output.response_text import response_text
-    from .output.runner import default_out_dir
+    from .jobs.run import default_out_dir
 
     if (args.from_source is None) != (args.to is None):
         raise CircuitodeError("give --from SOURCE and --to QUANTITY together (or only --impedance-at NODE)")
@@ -437,9 +437,9 @@ def _response(args: argparse.Namespace) -> int:
 
 
 def _compare(args: argparse.Namespace) -> int:
-    from .output.compare_job import compare_job
+    from .jobs.compare import compare_job
     from .output.compare_text import compare_text
-    from .output.runner import default_out_dir
+    from .jobs.run import default_out_dir
 
     circuit = _load(args.netlist, args.overrides)
     result = compare_job(circuit, measured=args.measured, channel=args.channel, quantity=args.quantity,
@@ -450,7 +450,7 @@ def _compare(args: argparse.Namespace) -> int:
 
 
 def _fit(args: argparse.Namespace) -> int:
-    from .output.fit_job import fit_job
+    from .jobs.fit import fit_job
     from .output.fit_text import fit_text
 
     circuit = _load(args.netlist, args.overrides)

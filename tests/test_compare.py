@@ -11,7 +11,7 @@ import pytest
 
 from circuitode.cli import main
 from circuitode.measured.compare import CompareError, compare_waveforms, crossing_time
-from circuitode.output.compare_job import compare_job
+from circuitode.jobs.compare import compare_job
 
 ZETA, WN = 0.1, 2 * np.pi * 1000
 

@@ -76,7 +76,7 @@ def test_cli_fit_on_the_invented_capture(capsys):
                  "--channel", "2", "--as", "voltage at link", "--free", "L_cab,C_link"])
     out = capsys.readouterr().out
     assert code == 0 and "correlation" in out and "residual rms" in out
-    from circuitode.output.fit_job import fit_job
+    from circuitode.jobs.fit import fit_job
 
     r = fit_job(DEMO, measured=CAPTURE,
                 channel=2, quantity="voltage at link", free=["L_cab", "C_link"])

@@ -1,6 +1,6 @@
 """A measured waveform against the model's: time alignment, residual and error figures.
 
-Pure functions of sampled arrays (no simulation here; output/compare_job.py runs
+Pure functions of sampled arrays (no simulation here; jobs/compare.py runs
 the model).  Time alignment adds a shift to the capture's clock so that both
 waveforms cross the same level at the same instant (the first crossing, in the
 direction of the model's step), or uses a shift given by the user.  The

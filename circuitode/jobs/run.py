@@ -40,12 +40,12 @@ class JobResult:
         return 0 if all(r.passed for r in self.limits) else 1
 
     def __repr__(self) -> str:
-        from .html import job_repr
+        from ..output.html import job_repr
 
         return job_repr(self)
 
     def _repr_html_(self) -> str:
-        from .html import job_html
+        from ..output.html import job_html
 
         return job_html(self)
 
@@ -102,7 +102,7 @@ def run_job(
     """
     from ..analysis.limits import check_requirements
     from ..analysis.measure import summarise
-    from .report import write_summary_json
+    from ..output.report import write_summary_json
     from ..transient import simulate
 
     circuit = load_any(source, overrides)
@@ -127,7 +127,7 @@ def run_job(
     if out is not None:
         if plots:
             try:
-                from .plots import plot_waveforms
+                from ..output.plots import plot_waveforms
 
                 result.files["plot"] = plot_waveforms(waveforms, out / "waveforms.png", title=circuit.title,
                                                       limits=result.limits, running=running)
@@ -142,7 +142,7 @@ def summary_of(result: JobResult) -> dict[str, Any]:
     """The JSON summary body of a run (numbers in SI, units beside them)."""
     from ..analysis.modes import mode_rows
     from ..analysis.resolution import resolution_warnings
-    from .report import requirement_words
+    from ..output.report import requirement_words
 
     w = result.waveforms
     return {

@@ -13,7 +13,7 @@ from typing import Any, Mapping
 import numpy as np
 
 from ..errors import CircuitodeError
-from .runner import load_any
+from .run import load_any
 
 __all__ = ["CompareResult", "compare_job", "closed_at"]
 
@@ -123,7 +123,7 @@ def compare_job(
         result.files["csv"] = path
         if plots:
             try:
-                from .compare_plots import plot_comparison
+                from ..output.compare_plots import plot_comparison
 
                 result.files["plot"] = plot_comparison(result, out / "comparison.png")
             except Exception as exc:  # noqa: BLE001 - the CSV is already safe; say what failed

@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
-from .runner import load_any
+from .run import load_any
 
 __all__ = ["ResponseResult", "response_job"]
 
@@ -65,7 +65,7 @@ def response_job(
     out.mkdir(parents=True, exist_ok=True)
     result.files["csv"] = _write_csv(out / "response.csv", curves)
     if plots:
-        from .response_plots import plot_response
+        from ..output.response_plots import plot_response
 
         by_label: dict[str, list] = {}
         for cu in curves:

@@ -16,7 +16,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from ..errors import CircuitodeError
-from .runner import load_any
+from .run import load_any
 
 __all__ = ["FitJobResult", "fit_job"]
 
