@@ -1,7 +1,8 @@
 """Command line: argument parsing and printing only; every action is a public API call.
 
 Exit codes: 0 all limits met, 1 a limit failed (or the yield is below
-``--min-yield``), 2 bad input, 3 numerical failure.
+``--min-yield``), 2 bad input, 3 numerical failure, 4 the environment (disk
+full, permission denied, folder locked, scheduler unreachable).
 """
 from __future__ import annotations
 
@@ -12,7 +13,7 @@ from pathlib import Path
 from typing import Sequence
 
 from . import __version__
-from .errors import CircuitodeError, NetlistError
+from .errors import CircuitodeError, NetlistError, environment_fault
 
 __all__ = ["main", "build_parser"]
 
@@ -25,7 +26,8 @@ examples:
   circuitode modes netlists/lc_filter.cnet
   circuitode tolerance netlists/precharge.cnet --samples 10000 --sampler lhs --seed 7
 
-exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
+exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure,
+  4 the environment (disk full, permission denied, folder locked, scheduler unreachable).
 """
 
 
@@ -190,6 +192,13 @@ def _tolerance(args: argparse.Namespace) -> int:
     return int(result.exit_code)
 
 
+def _reader_left() -> int:
+    """Output piped into e.g. `head`: the reader left, not an error of ours."""
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(devnull, sys.stdout.fileno())
+    return 0
+
+
 COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance}
 
 
@@ -204,11 +213,19 @@ def main(argv: Sequence[str] | None = None) -> int:
         return COMMANDS[args.command](args)
     except CircuitodeError as exc:
         print(str(exc), file=sys.stderr)
+        if exc.kept:
+            print(f"what was computed before the failure is kept in {exc.kept}", file=sys.stderr)
         return exc.exit_code
-    except BrokenPipeError:  # output piped into e.g. `head`: the reader left, not an error of ours
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
-        return 0
+    except OSError as exc:  # the machine, not the input: disk full, permissions, …
+        if isinstance(exc, BrokenPipeError):
+            return _reader_left()
+        fault = environment_fault(exc)
+        print(str(fault), file=sys.stderr)
+        return fault.exit_code
+    except MemoryError:
+        print("error: the machine ran out of memory\n  what to do: shorten the window, lengthen the step, "
+              "record fewer quantities or use fewer samples per chunk (--chunk)", file=sys.stderr)
+        return 4
     except KeyboardInterrupt:
         print("interrupted; files already written are kept.", file=sys.stderr)
         return 130
