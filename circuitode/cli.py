@@ -14,6 +14,7 @@ from typing import Sequence
 
 from . import __version__
 from .errors import CircuitodeError, NetlistError, environment_fault
+from .netlist.limits import reading_policy
 
 __all__ = ["main", "build_parser"]
 
@@ -114,6 +115,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--min-yield", type=_percent, help="exit 1 when the yield is below this, e.g. 99%%")
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-tolerance next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
+    for command in sub.choices.values():
+        command.add_argument("--include-path", dest="include_paths", action="append", type=Path, default=[],
+                             metavar="FOLDER", help="a folder (besides the netlist's own) that include "
+                             "statements may read from (repeatable)")
+        command.add_argument("--allow-large", action="store_true",
+                             help="raise every size limit (file, line, includes, points, events, memory) "
+                             "when you really mean a large job")
     return parser
 
 
@@ -210,7 +218,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
-        return COMMANDS[args.command](args)
+        with reading_policy(args.include_paths, args.allow_large):
+            return COMMANDS[args.command](args)
     except CircuitodeError as exc:
         print(str(exc), file=sys.stderr)
         if exc.kept:

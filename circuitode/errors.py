@@ -27,9 +27,14 @@ __all__ = [
     "SingularSystemError",
     "IntegrationError",
     "UnstableStepError",
+    "EXCERPT_CHARS",
     "EnvironmentFault",
     "environment_fault",
 ]
+
+
+#: an error shows at most this many characters of a line
+EXCERPT_CHARS = 120
 
 
 @dataclass(frozen=True)
@@ -49,7 +54,13 @@ class Where:
         if not self.text:
             return ""
         shown = self.text.rstrip("\n").expandtabs(1)
-        return f"    {shown}\n    {' ' * max(self.column - 1, 0)}^"
+        column = max(self.column - 1, 0)
+        if len(shown) > EXCERPT_CHARS:  # never echo a long line whole (it may be megabytes)
+            start = min(max(column - EXCERPT_CHARS // 2, 0), max(len(shown) - EXCERPT_CHARS, 0))
+            cut = shown[start:start + EXCERPT_CHARS]
+            shown = ("…" if start else "") + cut + ("…" if start + EXCERPT_CHARS < len(shown) else "")
+            column = column - start + (1 if start else 0)
+        return f"    {shown}\n    {' ' * column}^"
 
 
 class CircuitodeError(Exception):
@@ -80,7 +91,8 @@ class NetlistError(CircuitodeError):
         super().__init__(self.__str__())
 
     def __str__(self) -> str:
-        head = f"{self.where}: error: {self.message}" if self.where else f"error: {self.message}"
+        message = self.message if len(self.message) <= 3 * EXCERPT_CHARS else self.message[:3 * EXCERPT_CHARS] + "…"
+        head = f"{self.where}: error: {message}" if self.where else f"error: {message}"
         parts = [head]
         if self.where is not None and self.where.text:
             parts.append(self.where.excerpt())
