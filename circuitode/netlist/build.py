@@ -298,7 +298,10 @@ class _Builder:
                                did_you_mean(spec.kind, ["dc", "pwl", *WAVEFORM_FIELDS]))
         kwargs = self.fields(spec.fields, WAVEFORM_FIELDS[spec.kind], st.name, "waveform.",
                              f"a {spec.kind} waveform", signal)
-        return WAVEFORM_CLASSES[spec.kind](**kwargs)
+        try:
+            return WAVEFORM_CLASSES[spec.kind](**kwargs)
+        except src.WaveformError as err:  # a field out of range: say where
+            raise NetlistError(str(err), spec.where, f"see the {spec.kind} waveform in docs/language.md") from None
 
     def on_switch(self, st: SwitchStmt) -> None:
         self.declare(st.name, st.where)

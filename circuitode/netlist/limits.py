@@ -24,7 +24,7 @@ import numpy as np
 
 from ..errors import EXCERPT_CHARS, NetlistError, Where
 
-__all__ = ["LARGE_FACTOR", "ReadPolicy", "current_policy", "reading_policy", "check_text_shape", "EXCERPT_CHARS"]
+__all__ = ["LARGE_FACTOR", "ReadPolicy", "current_policy", "large_allowed", "reading_policy", "check_text_shape", "EXCERPT_CHARS"]
 
 #: ``--allow-large`` multiplies every limit by this factor.
 LARGE_FACTOR = 100
@@ -62,6 +62,11 @@ class ReadPolicy:
 
 
 _POLICY: ContextVar[ReadPolicy] = ContextVar("netlist_read_policy", default=ReadPolicy())
+
+
+def large_allowed() -> bool:
+    """Whether the user asked for larger limits (``--allow-large``)."""
+    return _POLICY.get().allow_large
 
 
 def current_policy() -> ReadPolicy:

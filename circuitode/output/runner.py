@@ -17,6 +17,7 @@ from typing import Any, Mapping
 
 from ..model.circuit import Circuit
 from ..errors import CircuitodeError, environment_fault
+from ..checks.bounds import check_run_bounds
 from .atomic import StagedFolder
 
 __all__ = ["JobResult", "default_out_dir", "load_any", "run_job"]
@@ -93,6 +94,7 @@ def run_job(
     from ..transient import simulate
 
     circuit = load_any(source, overrides)
+    check_run_bounds(circuit, step=step, until=until, out_dir=out_dir)  # before any work starts
     if out_dir is None:
         result = JobResult(circuit, simulate(circuit, method=method, step=step, until=until), {}, [], [])
         _measure(result, with_modes)

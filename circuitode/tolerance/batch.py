@@ -19,6 +19,7 @@ import numpy as np
 
 from ..model.circuit import Circuit, Coupling, PowerIn
 from ..errors import CircuitodeError, NetlistError, environment_fault
+from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..output.atomic import check_out_folder, write_atomic
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
 from ..analysis.measure import figure_unit, measure
@@ -267,6 +268,9 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     else:
         overrides = list(tol_overrides or [])
     spreads = spreads_with_overrides(circuit, overrides)
+    check_run_bounds(circuit)  # events, states: before any sample is drawn
+    check_batch_bounds(circuit, int(samples) if sampler != "corners" else 2 ** len(spreads), chunk_size,
+                       len(spreads), len(batch_figure_keys(circuit)[1]))
     table = draw_samples(spreads, int(samples), sampler, int(seed))
     _check_supported(circuit, table.names)
     probes, keys = batch_figure_keys(circuit)

@@ -39,6 +39,9 @@ def _ringing(t, y, start, floor):
     if not 0 <= floor < 1:
         raise MeasurementError(f"ringing floor must be a fraction in [0, 1), got {floor!r}")
     t, y = _checked(t, y)
+    if y.shape[-1] < 3:  # no interior sample, so no extremum: it does not ring
+        nothing = np.full(y.shape[:-1], np.nan)
+        return nothing, nothing.copy()
     ym, yk, yp = y[..., :-2], y[..., 1:-1], y[..., 2:]
     h1 = t[..., 1:-1] - t[..., :-2]
     h2 = t[..., 2:] - t[..., 1:-1]
