@@ -265,3 +265,38 @@ def test_nesting_cap_64(tmp_path, capsys):
     fine = "param p = " + "(" * 64 + "1" + ")" * 64 + "\nground gnd\n"
     code, _, err = _run(capsys, "check", _write(tmp_path, fine))
     assert "nested" not in err
+
+
+# --------------------------------------------------------------------------
+# the parser stays linear
+# --------------------------------------------------------------------------
+
+
+def test_a_megabyte_of_blank_lines_costs_memory_linear_in_its_size():
+    """A run of newlines was one regex match whose repeated group kept a backtracking
+    record per newline (about 500 bytes each); now it is a possessive group."""
+    import tracemalloc
+
+    from circuitode.netlist.parse import parse_text
+
+    text = "ground gnd\n" + "\n" * 1_000_000 + "resistor R1 a -- gnd 1 Ω\n"
+    parse_text("ground gnd\n")  # grammar compiled outside the measurement
+    tracemalloc.start()
+    try:
+        netlist = parse_text(text, "blank.cnet")
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert netlist.statements[-1].where.line == 1_000_002
+    assert peak < 60 * len(text)  # bytes per input character; was about 500
+
+
+def test_a_sum_of_200_operators_parses_and_201_is_refused_located(tmp_path, capsys):
+    fine = "ground gnd\nparam p = " + " + ".join(["1"] * 201) + "\n"
+    code, out, err = _run(capsys, "check", _write(tmp_path, fine))
+    assert "operators" not in err and "nested" not in err
+    from circuitode.netlist import loads
+    assert loads(fine).parameters["p"] == 201.0
+    too_long = "ground gnd\nparam p = " + " + ".join(["1"] * 202) + "\n"
+    code, _, err = _run(capsys, "check", _write(tmp_path, too_long))
+    assert code == 2 and "x.cnet:2:1:" in err and "201 operators (+ - * / ^); the limit is 200" in err

@@ -37,6 +37,7 @@ class ReadPolicy:
     file_bytes : largest netlist or included file (bytes).
     line_chars : longest line (characters).
     nesting : deepest bracket nesting in one expression.
+    operators : most operators (+ - * / ^) on one line (a long sum nests as deep as it is long).
     include_files : most files one netlist may include in all.
     include_depth : longest chain of files including each other.
     include_paths : folders (besides the netlist's own) that ``include`` may read from.
@@ -46,6 +47,7 @@ class ReadPolicy:
     file_bytes: int = 8 * 2**20
     line_chars: int = 4096
     nesting: int = 64
+    operators: int = 200
     include_files: int = 200
     include_depth: int = 8
     include_paths: tuple[Path, ...] = field(default=())
@@ -57,9 +59,11 @@ class ReadPolicy:
             return self
         f = LARGE_FACTOR
         return replace(self, file_bytes=self.file_bytes * f, line_chars=self.line_chars * f,
-                       nesting=self.nesting * f, include_files=self.include_files * f,
+                       nesting=self.nesting * f, operators=self.operators * 2, include_files=self.include_files * f,
                        include_depth=self.include_depth * f, allow_large=False)
 
+
+_OPERATORS = np.array([ord(c) for c in "+-*/^"], dtype=np.uint32)
 
 _POLICY: ContextVar[ReadPolicy] = ContextVar("netlist_read_policy", default=ReadPolicy())
 
@@ -106,9 +110,21 @@ def check_text_shape(text: str, file: str, lines: list[str], policy: ReadPolicy 
             f"line {k + 1} has {int(lengths[k])} characters; the limit is {policy.line_chars}",
             Where(file, k + 1, policy.line_chars + 1, lines[k]),
             raise_hint("split the statement (a record list may continue on the next line after a comma)"))
+    code = np.frombuffer(text.encode("utf-32-le"), dtype=np.uint32)
+    is_operator = np.isin(code, _OPERATORS)
+    if is_operator.any():
+        starts = np.concatenate([[0], np.flatnonzero(code == ord("\n")) + 1])
+        starts = starts[starts < code.size]
+        per_line = np.add.reduceat(is_operator.astype(np.int64), starts) if starts.size else np.zeros(0)
+        busy = np.flatnonzero(per_line > policy.operators)
+        if busy.size:
+            k = int(busy[0])
+            raise NetlistError(
+                f"line {k + 1} has {int(per_line[k])} operators (+ - * / ^); the limit is {policy.operators}",
+                Where(file, k + 1, 1, lines[k] if k < len(lines) else ""),
+                raise_hint("split the expression into several parameters"))
     if "(" not in text:
         return
-    code = np.frombuffer(text.encode("utf-32-le"), dtype=np.uint32)
     step = (code == ord("(")).astype(np.int32) - (code == ord(")")).astype(np.int32)
     depth = np.cumsum(step, dtype=np.int64)
     deepest = int(np.argmax(depth))
