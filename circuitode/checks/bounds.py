@@ -30,6 +30,9 @@ __all__ = ["WorkLimits", "LIMITS", "check_run_bounds", "check_batch_bounds", "ex
 CSV_BYTES_PER_NUMBER = 20
 #: Copies of the output arrays a run holds at once (solver output, probes, figures).
 WORKING_COPIES = 4
+#: Shares of the free memory and of the free disk a job may plan to use.
+MEMORY_SHARE = 0.8
+DISK_SHARE = 0.9
 
 
 @dataclass(frozen=True)
@@ -161,16 +164,16 @@ def check_run_bounds(circuit: Circuit, *, step: float | None = None, until: floa
                       "use a larger step or fewer points")
     memory = points * columns * 8 * WORKING_COPIES
     available = free_memory()
-    if available is not None and memory > 0.8 * available:
-        raise _refuse("the run would hold about {n} bytes of waveforms", memory, 0.8 * available,
+    if available is not None and memory > MEMORY_SHARE * available:
+        raise _refuse("the run would hold about {n} bytes of waveforms", memory, MEMORY_SHARE * available,
                       "use a larger step, fewer points or record fewer quantities (the limit is 80 % of "
                       "the free memory)", raisable=False)
     if out_dir is not None:
         csv_bytes = points * (1 + len(circuit.records)) * CSV_BYTES_PER_NUMBER
         disk = free_disk(out_dir)
-        if disk is not None and csv_bytes > 0.9 * disk:
+        if disk is not None and csv_bytes > DISK_SHARE * disk:
             raise _refuse(f"waveforms.csv would take about {{n}} bytes in {out_dir}", csv_bytes,
-                          0.9 * disk, "free disk space, choose another --out folder, use a larger step or "
+                          DISK_SHARE * disk, "free disk space, choose another --out folder, use a larger step or "
                           "record fewer quantities (the limit is 90 % of the free disk)", raisable=False)
     events = expected_events(circuit, window)
     if events > _limit(LIMITS.events):
@@ -201,8 +204,8 @@ def check_batch_bounds(circuit: Circuit, samples: int, chunk_size: int | None, p
                       "use fewer samples (the yield's interval shrinks only as 1/√N)")
     table = samples * (parameters + figures + 2) * 8 * 3
     available = free_memory()
-    if available is not None and table > 0.8 * available:
-        raise _refuse("the sample and figure tables would take about {n} bytes", table, 0.8 * available,
+    if available is not None and table > MEMORY_SHARE * available:
+        raise _refuse("the sample and figure tables would take about {n} bytes", table, MEMORY_SHARE * available,
                       "use fewer samples (the limit is 80 % of the free memory)", raisable=False)
     n = _check_states(circuit)
     chunk = min(samples, chunk_size or 4096)
