@@ -69,7 +69,10 @@ def test_nul_in_an_include_path_is_located(tmp_path, capsys):
     raw = tmp_path / "nul.cnet"
     raw.write_bytes(b'ground gnd\ninclude "a\0b"\n')
     code, _, err = _run(capsys, "check", str(raw))
-    assert code == 2 and "not a netlist" in err
+    assert code == 2 and "nul.cnet:2:11: error: a NUL character in the netlist" in err
+    raw.write_bytes(b"ground gnd\nresistor R1 a -- gnd 1 \xff\n")
+    code, _, err = _run(capsys, "check", str(raw))
+    assert code == 2 and "nul.cnet:2:24: error: bytes that are not UTF-8 text" in err
 
 
 @pytest.mark.parametrize("window", ["points 2", "step 5 ms"])

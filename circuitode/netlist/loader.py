@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from ..model import circuit as cm
-from ..errors import NetlistError
+from ..errors import NetlistError, Where
 from .build import build_circuit
 from .limits import ReadPolicy, current_policy, raise_hint
 from .parse import parse_text
@@ -77,10 +77,25 @@ def read_netlist_file(path: Path, policy: ReadPolicy, where=None, shown: str | N
         if b"\0" in data:
             raise _NotText
         text = data.decode("utf-8")
-    except (UnicodeDecodeError, _NotText):
+    except (UnicodeDecodeError, _NotText) as err:
+        if where is None:  # the user's own netlist: point at the offending byte
+            raise _located_byte_error(data, shown, err) from None
         raise NetlistError(f"'{shown}' is not a netlist (it is not UTF-8 text); its content is not shown",
                            where, "give the path of a .cnet text file") from None
     return text[1:] if text.startswith(_BOM) else text
+
+
+def _located_byte_error(data: bytes, shown: str, err: Exception) -> NetlistError:
+    """file:line:col of the first NUL or non-UTF-8 byte of a netlist."""
+    position = err.start if isinstance(err, UnicodeDecodeError) else data.index(b"\0")
+    line_start = data.rfind(b"\n", 0, position) + 1
+    line_end = data.find(b"\n", position)
+    raw = data[line_start: line_end if line_end >= 0 else len(data)]
+    text = raw.decode("utf-8", "replace").replace("\0", "\ufffd")
+    column = len(data[line_start:position].decode("utf-8", "replace")) + 1
+    what = "a NUL character" if isinstance(err, _NotText) else "bytes that are not UTF-8 text"
+    return NetlistError(f"{what} in the netlist", Where(shown, data.count(b"\n", 0, position) + 1, column, text),
+                        "save the file as UTF-8 text and remove control characters")
 
 
 def _confined(target: Path, roots: tuple[Path, ...]) -> bool:
