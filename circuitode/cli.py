@@ -150,12 +150,14 @@ def _check(args: argparse.Namespace) -> int:
 
 def _run(args: argparse.Namespace) -> int:
     from .output.report import run_text
+    from .output.progress import Ticker
     from .output.runner import default_out_dir, run_job
 
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
-    result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
-                     plots=not args.no_plots)
+    with Ticker("simulating"):  # elapsed time on a terminal once a run takes more than 3 s
+        result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
+                         plots=not args.no_plots)
     print(run_text(circuit, result.waveforms, result.figures, result.limits, result.files, path=args.netlist))
     for problem in result.problems:
         print(f"warning: {problem}", file=sys.stderr)

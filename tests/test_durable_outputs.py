@@ -239,3 +239,46 @@ def test_a_lock_of_another_host_is_not_taken_over(tmp_path):
     with pytest.raises(EnvironmentFault, match="another-machine.example"):
         FolderLock(tmp_path).acquire()
     assert json.loads((tmp_path / LOCK_NAME).read_text())["host"] == "another-machine.example"
+
+
+# --------------------------------------------------------------------------
+# progress of long single runs
+# --------------------------------------------------------------------------
+
+
+class _Terminal:
+    def __init__(self, tty):
+        self.tty, self.text = tty, ""
+
+    def isatty(self):
+        return self.tty
+
+    def write(self, text):
+        self.text += text
+
+    def flush(self):
+        pass
+
+
+def test_progress_shows_elapsed_time_on_a_terminal_and_erases_it():
+    import threading
+
+    from circuitode.output.progress import Ticker
+
+    screen = _Terminal(True)
+    seen = threading.Event()
+    with Ticker("simulating", after=0.0, every=0.01, stream=screen) as ticker:
+        for _ in range(1000):  # wait for the thread's first note (bounded, not timed)
+            if ticker.shown:
+                break
+            seen.wait(0.01)
+    assert "simulating… 0 s" in screen.text and screen.text.endswith("\r")
+
+
+def test_progress_is_silent_when_stderr_is_not_a_terminal():
+    from circuitode.output.progress import Ticker
+
+    log = _Terminal(False)
+    with Ticker("simulating", after=0.0, every=0.01, stream=log) as ticker:
+        pass
+    assert log.text == "" and ticker.shown == 0 and not ticker.enabled
