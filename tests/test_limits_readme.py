@@ -33,6 +33,7 @@ def test_every_row_of_the_limits_table_is_the_limit_in_force():
         "waveforms held in memory": 100 * bounds.MEMORY_SHARE,
         "`waveforms.csv` on disk": 100 * bounds.DISK_SHARE,
         "switching events and source corners in the window": work.events,
+        "sine periods in the window under a stepping method (all but `exact`)": work.periods,
         "states of a circuit (dense state matrix)": work.states,
         "samples of a batch": work.samples,
         "memory of one batch chunk (samples × states² × 8 bytes × 4)": work.chunk_bytes,

@@ -118,3 +118,14 @@ def test_samples_above_10_million_are_refused_before_drawing(tmp_path, capsys, m
     path = _file(tmp_path, RC + "transient until 1 ms step 10 us\n")
     code, err = _code_err(capsys, "tolerance", path, "--samples", "100000000", "--out", str(tmp_path / "o"))
     assert code == 2 and "100,000,000 samples; the limit is 10,000,000" in err
+
+
+def test_a_terahertz_sine_under_bdf_is_refused_exact_is_not(tmp_path, capsys, simulate_never):
+    body = ("voltage_source V1 a -- gnd sine amplitude 1 V frequency 1e12 Hz\n"
+            "resistor R1 a -- b 1 Ω\ncapacitor C1 b -- gnd 1 uF\nrecord voltage at b\n"
+            "transient until 1 ms points 100 method bdf\n")
+    code, err = _code_err(capsys, "run", _file(tmp_path, body), "--out", str(tmp_path / "o"))
+    assert code == 2
+    assert "1,000,000,000 periods in the window, each stepped by bdf; the limit is 1,000,000" in err
+    circuit = loads("ground gnd\n" + body)
+    bounds.check_run_bounds(circuit, method="exact")  # the exact method needs no steps per period

@@ -41,6 +41,7 @@ class WorkLimits:
 
     output_points : points on the output grid of one run.
     events : switching events and source corners in one window.
+    periods : sine periods in the window for a stepping integrator (each needs several steps).
     states : states of one circuit (the state matrix is dense, states² × 8 bytes).
     samples : samples in one batch.
     chunk_bytes : memory of one batch chunk's state matrices (samples × states² × 8 bytes × 4).
@@ -48,6 +49,7 @@ class WorkLimits:
 
     output_points: int = 10_000_000
     events: int = 100_000
+    periods: int = 1_000_000
     states: int = 4_000
     samples: int = 10_000_000
     chunk_bytes: int = 2 * 2**30
@@ -146,8 +148,22 @@ def _window(circuit: Circuit, until: float | None) -> float | None:
     return circuit.analysis.until if circuit.analysis is not None else None
 
 
+#: Integrators that step through every period of a sine (all but the exact one).
+STEPPING_METHODS = ("rk4", "rk45", "dop853", "radau", "bdf")
+
+
+def sine_periods(circuit: Circuit, until: float) -> float:
+    """Periods of every sine source within [0, until], summed."""
+    total = 0.0
+    for source in circuit.sources:
+        w = source.waveform
+        if isinstance(w, src.Sine) and w.amplitude != 0:
+            total += abs(w.frequency) * max(until - w.delay, 0.0)
+    return total
+
+
 def check_run_bounds(circuit: Circuit, *, step: float | None = None, until: float | None = None,
-                     out_dir: str | os.PathLike | None = None) -> None:
+                     out_dir: str | os.PathLike | None = None, method: str | None = None) -> None:
     """Refuse a single run whose output, events or matrices would exceed a limit or the machine.
 
     Raises
@@ -179,6 +195,11 @@ def check_run_bounds(circuit: Circuit, *, step: float | None = None, until: floa
     if events > _limit(LIMITS.events):
         raise _refuse("the window would hold {n} switching events and source corners", events,
                       _limit(LIMITS.events), "shorten the window (--until) or slow the switching")
+    method = (method or (circuit.analysis.method if circuit.analysis is not None else "auto") or "").lower()
+    periods = sine_periods(circuit, window)
+    if method in STEPPING_METHODS and periods > _limit(LIMITS.periods):
+        raise _refuse(f"the sine sources pass {{n}} periods in the window, each stepped by {method}", periods,
+                      _limit(LIMITS.periods), "use method exact (it needs no steps per period) or a shorter window")
     _check_states(circuit)
     check_event_spacing(circuit, window)
 

@@ -94,7 +94,7 @@ def run_job(
     from ..transient import simulate
 
     circuit = load_any(source, overrides)
-    check_run_bounds(circuit, step=step, until=until, out_dir=out_dir)  # before any work starts
+    check_run_bounds(circuit, step=step, until=until, out_dir=out_dir, method=method)  # before any work starts
     if out_dir is None:
         result = JobResult(circuit, simulate(circuit, method=method, step=step, until=until), {}, [], [])
         _measure(result, with_modes)
