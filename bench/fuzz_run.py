@@ -2,7 +2,7 @@
 and hangs (20 s per case).  The fixed-seed CI slice is tests/test_fuzz.py.
 
 Cases: mutations of the example netlists (checked; every 50th also run with a
-short window) and grammar-aware netlists drawn by hypothesis (checked).
+short window, every 50th from the 25th through `modes`) and grammar-aware netlists drawn by hypothesis (checked).
 
 Run: .venv/bin/python bench/fuzz_run.py [CASES] [SEED]
 """
@@ -41,6 +41,8 @@ def main() -> None:
             text = mutate(rng.choice(texts), rng)
             if k % 50 == 0 and "cable" not in text:
                 record(run_case(shorten_window(text), folder, "run"), text)
+            elif k % 50 == 25:
+                record(run_case(text, folder, "modes"), text)
             else:
                 record(run_case(text, folder, "check"), text)
             if (k + 1) % 5000 == 0:

@@ -10,6 +10,7 @@ from fuzzing import DOCUMENTED_EXIT_CODES, EXAMPLES, mutate, netlists, run_case,
 
 MUTATION_CASES = 1200
 RUN_CASES = 40
+MODES_CASES = 100
 
 
 def _assert_clean(results):
@@ -36,6 +37,16 @@ def test_mutated_examples_run_cleanly(tmp_path):
     for _ in range(RUN_CASES):
         text = shorten_window(mutate(rng.choice(texts), rng))
         results.append((run_case(text, tmp_path, "run"), text))
+    _assert_clean(results)
+
+
+def test_mutated_examples_modes_cleanly(tmp_path):
+    rng = random.Random(11)
+    texts = [p.read_text(encoding="utf-8") for p in EXAMPLES if "cable" not in p.name]
+    results = []
+    for _ in range(MODES_CASES):
+        text = mutate(rng.choice(texts), rng)
+        results.append((run_case(text, tmp_path, "modes"), text))
     _assert_clean(results)
 
 
