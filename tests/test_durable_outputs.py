@@ -282,3 +282,19 @@ def test_progress_is_silent_when_stderr_is_not_a_terminal():
     with Ticker("simulating", after=0.0, every=0.01, stream=log) as ticker:
         pass
     assert log.text == "" and ticker.shown == 0 and not ticker.enabled
+
+
+def test_a_folder_with_other_files_is_never_replaced(netlist, tmp_path, capsys):
+    """--out . or a batch folder would otherwise be swapped away whole."""
+    batch = tmp_path / "batch"
+    assert _batch(netlist, batch) == 0
+    before = sorted(p.name for p in batch.rglob("*"))
+    assert main(["run", str(netlist), "--out", str(batch), "--no-plots"]) == 2
+    err = capsys.readouterr().err
+    assert "holds files a run did not write" in err and "batch.json" in err
+    assert sorted(p.name for p in batch.rglob("*")) == before
+    home = tmp_path / "home"
+    home.mkdir()
+    (home / "thesis.tex").write_text("years of work")
+    assert main(["run", str(netlist), "--out", str(home), "--no-plots"]) == 2
+    assert (home / "thesis.tex").read_text() == "years of work"

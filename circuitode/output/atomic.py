@@ -111,18 +111,41 @@ def check_out_folder(folder: str | os.PathLike) -> Path:
     return folder
 
 
+def _refuse_foreign_content(folder: Path, own_files: frozenset[str]) -> None:
+    """A folder about to be replaced whole may hold only what a previous run wrote there:
+    never swap away someone's other files (``--out .`` or a batch folder)."""
+    try:
+        names = sorted(p.name for p in folder.iterdir()) if folder.is_dir() else []
+    except OSError as exc:
+        raise environment_fault(exc, f"look into the output folder {folder}") from None
+    foreign = [n for n in names if n not in own_files]
+    if foreign:
+        shown = ", ".join(foreign[:5]) + (f" and {len(foreign) - 5} more" if len(foreign) > 5 else "")
+        raise CircuitodeError(
+            f"error: the output folder {folder} holds files a run did not write ({shown}); a run replaces "
+            "its folder whole, so it is not used\n  hint: give --out a new or empty folder, or the folder "
+            "of an earlier run")
+
+
 class StagedFolder:
     """A run folder built beside its final place and swapped in when complete.
 
     Use ``with StagedFolder(out) as stage:`` and write every file into
-    ``stage.path``; :meth:`publish` swaps it in.  On an exception the staging
+    ``stage.path``; :meth:`publish` swaps it in.  With ``own_files`` given, an
+    existing folder holding any other name is refused before anything is done.  On an exception the staging
     folder is removed, unless :meth:`keep_on_failure` was called (e.g. once the
     waveforms are safely written): then it is renamed to ``NAME-incomplete``
     and the exception carries that folder in ``kept``.
     """
 
-    def __init__(self, target: str | os.PathLike):
-        self.target = check_out_folder(target)
+    def __init__(self, target: str | os.PathLike, own_files: frozenset[str] | None = None):
+        self.target = Path(os.path.abspath(check_out_folder(target)))
+        here = Path.cwd().resolve()
+        if self.target.exists() and (here == self.target.resolve() or self.target.resolve() in here.parents):
+            raise CircuitodeError(f"error: the output folder {target} is the current folder or holds it; "
+                                  "a run replaces its folder whole\n  hint: give --out a new folder")
+        if own_files is not None:
+            _refuse_foreign_content(self.target, own_files)
         self.path = temp_name(self.target, "staging")
         self._keep = False
         self.published = False

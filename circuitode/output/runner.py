@@ -20,7 +20,10 @@ from ..errors import CircuitodeError, environment_fault
 from ..checks.bounds import check_run_bounds
 from .atomic import StagedFolder
 
-__all__ = ["JobResult", "default_out_dir", "load_any", "run_job"]
+__all__ = ["JobResult", "RUN_FILES", "default_out_dir", "load_any", "run_job"]
+
+#: What a run folder holds; a folder holding anything else is never replaced.
+RUN_FILES = frozenset({"waveforms.csv", "summary.json", "waveforms.png"})
 
 
 @dataclass
@@ -103,7 +106,7 @@ def run_job(
     # the folder is built beside its place and swapped in whole: a reader finds the
     # previous complete run or this one, never a mix (output/atomic.py); it is made
     # first so a read-only or missing place is reported before the work starts
-    with StagedFolder(out) as stage:
+    with StagedFolder(out, RUN_FILES) as stage:
         waveforms = simulate(circuit, method=method, step=step, until=until)
         result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
         try:
