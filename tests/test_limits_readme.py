@@ -31,7 +31,7 @@ def test_every_row_of_the_limits_table_is_the_limit_in_force():
         "depth of the include chain": policy.include_depth,
         "output points of a run": work.output_points,
         "waveforms held in memory": 100 * bounds.MEMORY_SHARE,
-        "`waveforms.csv` on disk": 100 * bounds.DISK_SHARE,
+        "`waveforms.csv`, `samples.csv` and kept waveforms on disk": 100 * bounds.DISK_SHARE,
         "switching events and source corners in the window": work.events,
         "sine periods in the window under a stepping method (all but `exact`)": work.periods,
         "states of a circuit (dense state matrix)": work.states,

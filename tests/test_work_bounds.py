@@ -129,3 +129,12 @@ def test_a_terahertz_sine_under_bdf_is_refused_exact_is_not(tmp_path, capsys, si
     assert "1,000,000,000 periods in the window, each stepped by bdf; the limit is 1,000,000" in err
     circuit = loads("ground gnd\n" + body)
     bounds.check_run_bounds(circuit, method="exact")  # the exact method needs no steps per period
+
+
+def test_kept_waveforms_and_samples_csv_are_checked_against_the_free_disk(tmp_path, capsys, monkeypatch):
+    monkeypatch.setattr(bounds, "free_disk", lambda folder: 50 * 2**20)
+    path = _file(tmp_path, RC + "transient until 1 ms step 10 us\n")
+    code, err = _code_err(capsys, "tolerance", path, "--samples", "10000", "--keep-waveforms", "10000",
+                          "--out", str(tmp_path / "o"))
+    assert code == 2 and "samples.csv and the kept waveforms would take about" in err and "90 % of the free disk" in err
+    assert not (tmp_path / "o" / "chunks").exists()

@@ -214,12 +214,25 @@ def _check_states(circuit: Circuit) -> int:
 
 
 def check_batch_bounds(circuit: Circuit, samples: int, chunk_size: int | None, parameters: int,
-                       figures: int) -> None:
-    """Refuse a batch whose sample table or chunk matrices would exceed a limit or the machine.
+                       figures: int, out_dir: str | os.PathLike | None = None, keep_waveforms: int = 0,
+                       waveform_points: int = 2000) -> None:
+    """Refuse a batch whose sample table, chunk matrices or files would exceed a limit or the machine.
 
     samples : N.  chunk_size : samples per chunk (None: chosen later, at most 4096).
     parameters, figures : columns of the sample table and of the figure table.
+    out_dir, keep_waveforms, waveform_points : where samples.csv and the kept waveform
+    CSVs (about ``waveform_points`` rows each) go, for the disk check.
     """
+    if out_dir is not None:
+        kept = min(int(keep_waveforms), int(samples))
+        csv_bytes = (samples * (3 + parameters + figures) * 25
+                     + kept * waveform_points * (1 + len(circuit.records)) * CSV_BYTES_PER_NUMBER)
+        disk = free_disk(out_dir)
+        if disk is not None and csv_bytes > DISK_SHARE * disk:
+            raise _refuse(f"samples.csv and the kept waveforms would take about {{n}} bytes in {out_dir}",
+                          csv_bytes, DISK_SHARE * disk, "free disk space, choose another --out folder, or use "
+                          "fewer samples or a smaller --keep-waveforms (the limit is 90 % of the free disk)",
+                          raisable=False)
     if samples > _limit(LIMITS.samples):
         raise _refuse("the batch asks for {n} samples", samples, _limit(LIMITS.samples),
                       "use fewer samples (the yield's interval shrinks only as 1/√N)")

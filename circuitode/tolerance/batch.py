@@ -270,7 +270,8 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     spreads = spreads_with_overrides(circuit, overrides)
     check_run_bounds(circuit)  # events, states: before any sample is drawn
     check_batch_bounds(circuit, int(samples) if sampler != "corners" else 2 ** len(spreads), chunk_size,
-                       len(spreads), len(batch_figure_keys(circuit)[1]))
+                       len(spreads), len(batch_figure_keys(circuit)[1]), out_dir, int(keep_waveforms),
+                       _WAVEFORM_POINTS)
     table = draw_samples(spreads, int(samples), sampler, int(seed))
     _check_supported(circuit, table.names)
     probes, keys = batch_figure_keys(circuit)
