@@ -24,7 +24,8 @@ import numpy as np
 
 from ..errors import EXCERPT_CHARS, NetlistError, Where
 
-__all__ = ["LARGE_FACTOR", "ReadPolicy", "current_policy", "large_allowed", "reading_policy", "check_text_shape", "EXCERPT_CHARS"]
+__all__ = ["LARGE_FACTOR", "ReadPolicy", "current_policy", "large_allowed", "reading_policy", "check_text_shape",
+           "raise_hint"]
 
 #: ``--allow-large`` multiplies every limit by this factor.
 LARGE_FACTOR = 100

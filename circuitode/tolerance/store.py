@@ -150,33 +150,36 @@ class ChunkStore:
         ForeignChunkError : naming the file and what does not match.
         """
         path = self.path(chunk)
-        redo = (f"delete {path} to have it computed again, or choose another --out folder; "
-                "results of different batches are never mixed")
+        redo = (f"delete {path} to have it computed again, or choose another --out folder "
+                "(results of different batches are never mixed)")
         try:
             with np.load(path, allow_pickle=False) as data:
                 arrays = {k: data[k] for k in data.files}
         except OSError as exc:
             raise environment_fault(exc, f"read the chunk file {path}") from None
         except Exception:  # noqa: BLE001 - any undecodable content is a damaged file
-            raise ForeignChunkError(f"the chunk file {path} is damaged and cannot be read; {redo}") from None
+            raise ForeignChunkError(f"error: the chunk file {path} is damaged and cannot be read\n"
+                                    f"  what to do: {redo}") from None
         stored_sum = str(arrays.pop(_CHECKSUM_KEY, ""))
         if _IDENTITY_KEY not in arrays:
-            raise ForeignChunkError(f"the chunk file {path} carries no batch identity (written by an older "
-                                    f"version or another program); {redo}")
+            raise ForeignChunkError(f"error: the chunk file {path} carries no batch identity (written by an older "
+                                    f"version or another program)\n  what to do: {redo}")
         if stored_sum != _checksum(arrays):
-            raise ForeignChunkError(f"the chunk file {path} is damaged (its checksum does not match); {redo}")
+            raise ForeignChunkError(f"error: the chunk file {path} is damaged (its checksum does not match)\n"
+                                    f"  what to do: {redo}")
         try:
             identity = json.loads(str(arrays.pop(_IDENTITY_KEY)))
         except ValueError:
-            raise ForeignChunkError(f"the chunk file {path} has an unreadable identity; {redo}") from None
+            raise ForeignChunkError(f"error: the chunk file {path} has an unreadable identity\n"
+                                    f"  what to do: {redo}") from None
         if identity.get("batch") != self.identity:
-            raise ForeignChunkError(f"the chunk file {path} belongs to another batch (another netlist, "
-                                    f"seed, sampler, sample count or settings); {redo}")
+            raise ForeignChunkError(f"error: the chunk file {path} belongs to another batch (another netlist, "
+                                    f"seed, sampler, sample count or settings)\n  what to do: {redo}")
         if identity.get("chunk") != chunk:
-            raise ForeignChunkError(f"the chunk file {path} holds chunk {identity.get('chunk')} of this batch, "
-                                    f"not chunk {chunk} (it was copied or renamed); {redo}")
+            raise ForeignChunkError(f"error: the chunk file {path} holds chunk {identity.get('chunk')} of this batch, "
+                                    f"not chunk {chunk} (it was copied or renamed)\n  what to do: {redo}")
         expected = self.ranges.get(chunk)
         if expected is not None and identity.get("samples") != list(expected):
-            raise ForeignChunkError(f"the chunk file {path} holds samples {identity.get('samples')}, not "
-                                    f"{list(expected)}; {redo}")
+            raise ForeignChunkError(f"error: the chunk file {path} holds samples {identity.get('samples')}, not "
+                                    f"{list(expected)}\n  what to do: {redo}")
         return arrays
