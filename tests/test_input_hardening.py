@@ -303,3 +303,9 @@ def test_a_sum_of_200_operators_parses_and_201_is_refused_located(tmp_path, caps
     too_long = "ground gnd\nparam p = " + " + ".join(["1"] * 202) + "\n"
     code, _, err = _run(capsys, "check", _write(tmp_path, too_long))
     assert code == 2 and "x.cnet:2:1:" in err and "201 operators (+ - * / ^); the limit is 200" in err
+
+
+def test_a_step_longer_than_the_window_is_located(tmp_path, capsys):
+    path = _write(tmp_path, RC.format(window="step 6 ms"))
+    code, _, err = _run(capsys, "run", path, "--out", str(tmp_path / "o"))
+    assert code == 2 and "x.cnet:7:1: error: the step (0.006 s) must be positive and no longer than the window" in err

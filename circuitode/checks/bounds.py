@@ -173,6 +173,13 @@ def check_run_bounds(circuit: Circuit, *, step: float | None = None, until: floa
     window = _window(circuit, until)
     if window is None or not window > 0:
         return  # the driver reports a missing or wrong window in its own words
+    a = circuit.analysis
+    if step is None and a is not None and a.step is not None and not 0 < a.step <= window:
+        from ..errors import NetlistError
+
+        raise NetlistError(f"the step ({a.step:g} s) must be positive and no longer than the window "
+                           f"({window:g} s)", a.where, "write a shorter step, e.g. step "
+                           f"{window / 1000:g} s, or a longer 'until'")
     points = output_points(circuit, step, until)
     columns = 1 + len(circuit.records) + len(circuit.state_names)
     if points > _limit(LIMITS.output_points):
