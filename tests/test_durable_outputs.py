@@ -298,3 +298,23 @@ def test_a_folder_with_other_files_is_never_replaced(netlist, tmp_path, capsys):
     (home / "thesis.tex").write_text("years of work")
     assert main(["run", str(netlist), "--out", str(home), "--no-plots"]) == 2
     assert (home / "thesis.tex").read_text() == "years of work"
+
+
+def test_lock_without_hard_links_and_an_unreadable_fresh_lock(tmp_path, monkeypatch):
+    import errno as errno_
+
+    def no_links(*args):
+        raise OSError(errno_.EPERM, "Operation not permitted")
+
+    monkeypatch.setattr(os, "link", no_links)
+    with FolderLock(tmp_path) as lock:  # exclusive create instead of a hard link
+        assert json.loads((tmp_path / LOCK_NAME).read_text())["pid"] == os.getpid()
+        assert lock.held
+    assert not (tmp_path / LOCK_NAME).exists()
+    (tmp_path / LOCK_NAME).write_text("")  # being written by someone right now
+    with pytest.raises(EnvironmentFault, match="in use"):
+        FolderLock(tmp_path).acquire()
+    old = os.path.getmtime(tmp_path / LOCK_NAME) - 60
+    os.utime(tmp_path / LOCK_NAME, (old, old))  # a minute old and still empty: a crash left it
+    with FolderLock(tmp_path):
+        pass

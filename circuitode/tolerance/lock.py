@@ -11,6 +11,7 @@ named.
 from __future__ import annotations
 
 import contextlib
+import errno
 import json
 import os
 import socket
@@ -23,6 +24,8 @@ from ..output.atomic import temp_name
 __all__ = ["LOCK_NAME", "FolderLock"]
 
 LOCK_NAME = "batch.lock"
+#: Seconds an unreadable lock file is respected before it counts as stale.
+UNREADABLE_GRACE = 10.0
 
 
 def _alive(pid: int) -> bool:
@@ -60,7 +63,7 @@ class FolderLock:
                 os.fsync(handle.fileno())
             for _ in range(3):
                 try:
-                    os.link(tmp, self.path)
+                    self._place(tmp, body)
                     self.held = True
                     return self
                 except FileExistsError:
@@ -88,6 +91,23 @@ class FolderLock:
         self.release()
 
     # -- helpers -----------------------------------------------------------
+    def _place(self, tmp: Path, body: bytes) -> None:
+        """Put the lock in place, complete, or raise FileExistsError.  A file system without
+        hard links gets an exclusive create instead (its content is written just after)."""
+        try:
+            os.link(tmp, self.path)
+            return
+        except FileExistsError:
+            raise
+        except OSError as exc:
+            if exc.errno not in (errno.EPERM, errno.ENOTSUP, errno.EOPNOTSUPP, errno.EXDEV, errno.EMLINK):
+                raise
+        fd = os.open(self.path, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o644)
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(body)
+            handle.flush()
+            os.fsync(handle.fileno())
+
     @staticmethod
     def _read(path: Path) -> dict | None:
         try:
@@ -97,8 +117,11 @@ class FolderLock:
         return body if isinstance(body, dict) else None
 
     def _is_stale(self, holder: dict | None) -> bool:
-        if holder is None:  # unreadable: written by no version of ours, or emptied by a crash
-            return True
+        if holder is None:  # unreadable: a crash, or a lock being written right now
+            try:
+                return time.time() - self.path.stat().st_mtime > UNREADABLE_GRACE
+            except OSError:
+                return True
         if holder.get("host") != self.owner["host"]:
             return False  # another machine's process: we cannot tell whether it is alive
         pid = holder.get("pid")
