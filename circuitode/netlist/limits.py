@@ -22,7 +22,7 @@ from typing import Iterator
 
 import numpy as np
 
-from ..errors import EXCERPT_CHARS, NetlistError, Where
+from ..errors import NetlistError, Where
 
 __all__ = ["LARGE_FACTOR", "ReadPolicy", "current_policy", "large_allowed", "reading_policy", "check_text_shape",
            "raise_hint"]

@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import io
 import json
-import os
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
