@@ -46,7 +46,8 @@ def main() -> None:
             else:
                 record(run_case(text, folder, "check"), text)
             if (k + 1) % 5000 == 0:
-                print(f"  {k + 1} mutated cases, {time.perf_counter() - started:.0f} s", file=sys.stderr)
+                tally = ", ".join(f"exit {c}: {n}" for c, n in sorted(counts.items(), key=lambda kv: str(kv[0])))
+                print(f"  {k + 1} mutated cases, {time.perf_counter() - started:.0f} s ({tally})", flush=True)
 
         @settings(max_examples=cases - mutated, database=None, deadline=None, derandomize=False,
                   suppress_health_check=list(HealthCheck))
