@@ -1,7 +1,8 @@
 """Command line: argument parsing and printing only; every action is a public API call.
 
 Exit codes: 0 all limits met, 1 a limit failed (or the yield is below
-``--min-yield``), 2 bad input, 3 numerical failure.
+``--min-yield``), 2 bad input, 3 numerical failure, 4 the environment (disk
+full, permission denied, folder locked, scheduler unreachable).
 """
 from __future__ import annotations
 
@@ -12,7 +13,8 @@ from pathlib import Path
 from typing import Sequence
 
 from . import __version__
-from .errors import CircuitodeError, NetlistError
+from .errors import CircuitodeError, NetlistError, environment_fault
+from .netlist.limits import reading_policy
 
 __all__ = ["main", "build_parser"]
 
@@ -33,7 +35,8 @@ examples:
   circuitode fit netlists/dc_link_ring.cnet --measured netlists/captures/dc_link_ring_decimal_comma.csv \\
       --channel 2 --as "voltage at link" --free L_cab,R_damp
 
-exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure.
+exit codes: 0 all limits met, 1 a limit failed, 2 bad input, 3 numerical failure,
+  4 the environment (disk full, permission denied, folder locked, scheduler unreachable).
 """
 
 #: The examples printed at the end of each subcommand's --help.
@@ -208,6 +211,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--no-plots", action="store_true", help="skip the PNGs")
     _study_parsers(sub)
     _add_bench_commands(sub)
+    for command in sub.choices.values():
+        command.add_argument("--include-path", dest="include_paths", action="append", type=Path, default=[],
+                             metavar="FOLDER", help="a folder (besides the netlist's own) that include "
+                             "statements may read from (repeatable)")
+        command.add_argument("--allow-large", action="store_true",
+                             help="raise every size limit (file, line, includes, points, events, memory) "
+                             "when you really mean a large job")
     return parser
 
 
@@ -321,11 +331,13 @@ def _check(args: argparse.Namespace) -> int:
 def _run(args: argparse.Namespace) -> int:
     from .output.report import run_text
     from .jobs.run import default_out_dir, run_job
+    from .output.progress import Ticker
 
     circuit = _load(args.netlist, args.overrides)
     out = args.out or default_out_dir(args.netlist)
-    result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
-                     plots=not args.no_plots, running=tuple(args.running), insist=args.insist)
+    with Ticker("simulating"):  # elapsed time on a terminal once a run takes more than 3 s
+        result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
+                         plots=not args.no_plots, running=tuple(args.running), insist=args.insist)
     print(run_text(circuit, result.waveforms, result.figures, result.limits, result.files, path=args.netlist))
     for problem in result.problems:
         print(f"warning: {problem}", file=sys.stderr)
@@ -460,6 +472,13 @@ def _fit(args: argparse.Namespace) -> int:
     return 0
 
 
+def _reader_left() -> int:
+    """Output piped into e.g. `head`: the reader left, not an error of ours."""
+    devnull = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(devnull, sys.stdout.fileno())
+    return 0
+
+
 COMMANDS = {"check": _check, "run": _run, "modes": _modes, "tolerance": _tolerance, "sweep": _sweep, "size": _size,
             "response": _response, "compare": _compare, "fit": _fit}
 
@@ -472,14 +491,23 @@ def main(argv: Sequence[str] | None = None) -> int:
         parser.print_help()
         return 2
     try:
-        return COMMANDS[args.command](args)
+        with reading_policy(args.include_paths, args.allow_large):
+            return COMMANDS[args.command](args)
     except CircuitodeError as exc:
         print(str(exc), file=sys.stderr)
+        if exc.kept:
+            print(f"what was computed before the failure is kept in {exc.kept}", file=sys.stderr)
         return exc.exit_code
-    except BrokenPipeError:  # output piped into e.g. `head`: the reader left, not an error of ours
-        devnull = os.open(os.devnull, os.O_WRONLY)
-        os.dup2(devnull, sys.stdout.fileno())
-        return 0
+    except OSError as exc:  # the machine, not the input: disk full, permissions, …
+        if isinstance(exc, BrokenPipeError):
+            return _reader_left()
+        fault = environment_fault(exc)
+        print(str(fault), file=sys.stderr)
+        return fault.exit_code
+    except MemoryError:
+        print("error: the machine ran out of memory\n  what to do: shorten the window, lengthen the step, "
+              "record fewer quantities or use fewer samples per chunk (--chunk)", file=sys.stderr)
+        return 4
     except KeyboardInterrupt:
         print(_interrupted_words(args, argv), file=sys.stderr)
         return 130

@@ -1,8 +1,9 @@
 """One exception tree for everything circuitode reports to its user.
 
 Every error a user can cause derives from :class:`CircuitodeError` and carries
-an ``exit_code`` (2 bad input, 3 numerical failure) so the command line never
-has to inspect classes.  Messages say what is wrong *and* what to change.
+an ``exit_code`` (2 bad input, 3 numerical failure, 4 the environment: disk
+full, permission denied, folder locked, scheduler unreachable) so the command
+line never has to inspect classes.  Messages say what is wrong *and* what to change.
 """
 from __future__ import annotations
 
@@ -27,7 +28,14 @@ __all__ = [
     "ImpulsiveSwitchingError",
     "IntegrationError",
     "UnstableStepError",
+    "EXCERPT_CHARS",
+    "EnvironmentFault",
+    "environment_fault",
 ]
+
+
+#: an error shows at most this many characters of a line
+EXCERPT_CHARS = 120
 
 
 @dataclass(frozen=True)
@@ -47,13 +55,24 @@ class Where:
         if not self.text:
             return ""
         shown = self.text.rstrip("\n").expandtabs(1)
-        return f"    {shown}\n    {' ' * max(self.column - 1, 0)}^"
+        column = max(self.column - 1, 0)
+        if len(shown) > EXCERPT_CHARS:  # never echo a long line whole (it may be megabytes)
+            start = min(max(column - EXCERPT_CHARS // 2, 0), max(len(shown) - EXCERPT_CHARS, 0))
+            cut = shown[start:start + EXCERPT_CHARS]
+            shown = ("…" if start else "") + cut + ("…" if start + EXCERPT_CHARS < len(shown) else "")
+            column = column - start + (1 if start else 0)
+        return f"    {shown}\n    {' ' * column}^"
 
 
 class CircuitodeError(Exception):
-    """Base of every error circuitode reports to a user. Exit code 2 unless overridden."""
+    """Base of every error circuitode reports to a user. Exit code 2 unless overridden.
+
+    ``kept`` names a folder where what was computed before the failure was kept
+    (None when nothing was).
+    """
 
     exit_code = 2
+    kept: str | None = None
 
 
 class NetlistError(CircuitodeError):
@@ -73,7 +92,8 @@ class NetlistError(CircuitodeError):
         super().__init__(self.__str__())
 
     def __str__(self) -> str:
-        head = f"{self.where}: error: {self.message}" if self.where else f"error: {self.message}"
+        message = self.message if len(self.message) <= 3 * EXCERPT_CHARS else self.message[:3 * EXCERPT_CHARS] + "…"
+        head = f"{self.where}: error: {message}" if self.where else f"error: {message}"
         parts = [head]
         if self.where is not None and self.where.text:
             parts.append(self.where.excerpt())
@@ -193,3 +213,38 @@ class UnstableStepError(IntegrationError):
     def __init__(self, message: str, largest_stable_step: float | None = None):
         self.largest_stable_step = largest_stable_step
         super().__init__(message)
+
+
+class EnvironmentFault(CircuitodeError):
+    """The machine, not the input: disk full, permission denied, folder locked,
+    scheduler unreachable or not a scheduler.  The message names the path or
+    address and what to do."""
+
+    exit_code = 4
+
+
+_ERRNO_ADVICE = {
+    "ENOSPC": "the disk is full; free space there or choose another --out folder",
+    "EDQUOT": "the disk quota is used up; free space there or choose another --out folder",
+    "EACCES": "permission denied; choose a folder you may write to (--out) or change its permissions",
+    "EPERM": "operation not permitted; choose a folder you may write to (--out) or change its permissions",
+    "EROFS": "the file system is read-only; choose another --out folder",
+    "ENOTDIR": "a part of the path is a file, not a folder; choose another --out folder",
+    "EISDIR": "a folder stands where a file should be written; choose another --out folder",
+    "EMFILE": "too many open files; close other programs or raise the limit (ulimit -n)",
+    "ENAMETOOLONG": "the path is too long; choose a shorter --out folder",
+}
+
+
+def environment_fault(exc: OSError, doing: str = "") -> EnvironmentFault:
+    """An :class:`EnvironmentFault` worded from an ``OSError``: what failed, on which path,
+    and what to do."""
+    import errno
+
+    name = errno.errorcode.get(exc.errno or 0, "")
+    path = exc.filename if exc.filename is not None else ""
+    reason = exc.strerror or type(exc).__name__
+    advice = _ERRNO_ADVICE.get(name, "check the path and the free space, then run again")
+    what = f"cannot {doing}" if doing else "a file operation failed"
+    where = f" {path}" if path else ""
+    return EnvironmentFault(f"error: {what}{where}: {reason}\n  what to do: {advice}")

@@ -193,11 +193,28 @@ def _digits(text: str) -> tuple[Decimal, bool]:
         return (base if letter == "R" else base.scaleb(PREFIX_EXPONENTS[letter])), letter == "R"
     if not _DECIMAL.fullmatch(text):
         raise NetlistError(f"'{text}' is not a number", hint="write digits such as 4.7, 1e-3 or 4k7")
+    mantissa, _, exponent = text.lower().partition("e")
+    if len(mantissa) > _MAX_DIGITS or (exponent and abs(int(exponent[:_MAX_DIGITS])) > _MAX_EXPONENT):
+        raise NetlistError(f"'{_shorten(text)}' is out of range",
+                           hint=f"write at most {_MAX_DIGITS} digits and an exponent between "
+                                f"-{_MAX_EXPONENT} and {_MAX_EXPONENT}; use a prefix such as k, M, m or u")
     return Decimal(text), False
 
 
+#: a number is written with at most this many digits, and an exponent of at most this size
+_MAX_DIGITS = 60
+_MAX_EXPONENT = 400
+
+
+def _shorten(text: str, width: int = 40) -> str:
+    return text if len(text) <= width else text[: width - 1] + "…"
+
+
 def _to_float(value: Decimal, text: str) -> float:
-    result = float(value)
+    try:
+        result = float(value)
+    except ArithmeticError:
+        result = math.inf
     if not math.isfinite(result) or (result == 0.0 and value != 0):
         raise NetlistError(f"'{text}' is out of range", hint="use a prefix such as k, M, G or m, u, n, p")
     return result

@@ -269,10 +269,30 @@ def solve_companion(circuit: Circuit, layout: Layout, conductance: np.ndarray, s
         Z = splu(matrix).solve(rhs)[None] if rhs.shape[1] else np.zeros((1, K, 0))
     elif solver == "dense":
         matrix = _dense(rows, cols, vals, K)
-        Z = np.linalg.solve(matrix, np.broadcast_to(rhs, (N,) + rhs.shape))
+        Z = _solve_stack(matrix, np.broadcast_to(rhs, (N,) + rhs.shape))
     else:
         raise StateSpaceRequestError(f"unknown MNA solver {solver!r}; choose 'auto', 'dense' or 'sparse'")
     return np.concatenate([Z, np.zeros((N, 1, rhs.shape[1]))], axis=1)
+
+
+def _solve_stack(matrix: np.ndarray, rhs: np.ndarray) -> np.ndarray:
+    """Solve (N, K, K) systems; a numerically singular one (values many decades apart,
+    such as a 1e28 Ω resistance) is an error for one circuit and NaN for a batch sample."""
+    try:
+        return np.linalg.solve(matrix, rhs)
+    except np.linalg.LinAlgError:
+        if matrix.shape[0] == 1:
+            raise SingularSystemError(
+                "the circuit's equations are numerically singular: element values span too many decades "
+                "for double precision (look for an extreme resistance, e.g. an on-resistance written in the "
+                "wrong unit)") from None
+    out = np.full(rhs.shape, np.nan)
+    for i in range(matrix.shape[0]):  # only after the stacked solve failed: find the singular samples
+        try:
+            out[i] = np.linalg.solve(matrix[i], rhs[i])
+        except np.linalg.LinAlgError:
+            pass
+    return out
 
 
 # --------------------------------------------------------------------------

@@ -4,7 +4,10 @@
 files) and is what ``circuitode run`` calls; a notebook user gets the same
 result object.  Files are written in the order they become available
 (waveforms CSV first), so a failure late in the chain never loses what was
-already computed.
+already computed.  The folder is built as a fresh sibling and swapped in when
+complete (:class:`~circuitode.output.atomic.StagedFolder`): it holds one complete run or the
+previous one, never a mix; a run that fails after its waveforms were written
+leaves them in ``<out>-incomplete``.
 """
 from __future__ import annotations
 
@@ -13,9 +16,14 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from ..model.circuit import Circuit
-from ..errors import CircuitodeError
+from ..errors import CircuitodeError, environment_fault
+from ..checks.bounds import check_run_bounds
+from ..output.atomic import StagedFolder
 
-__all__ = ["JobResult", "default_out_dir", "load_any", "run_job"]
+__all__ = ["JobResult", "RUN_FILES", "default_out_dir", "load_any", "run_job"]
+
+#: What a run folder holds; a folder holding anything else is never replaced.
+RUN_FILES = frozenset({"waveforms.csv", "summary.json", "waveforms.png"})
 
 
 @dataclass
@@ -100,42 +108,63 @@ def run_job(
     ------
     CircuitodeError subclasses for bad input (exit 2) or numerical failure (exit 3).
     """
-    from ..analysis.limits import check_requirements
-    from ..analysis.measure import summarise
     from ..output.report import write_summary_json
     from ..transient import simulate
 
     circuit = load_any(source, overrides)
-    waveforms = simulate(circuit, method=method, step=step, until=until, insist=insist)
-    result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
-
-    out = Path(out_dir) if out_dir is not None else None
-    if out is not None:
-        out.mkdir(parents=True, exist_ok=True)
-        result.files["waveforms"] = Path(waveforms.to_csv(out / "waveforms.csv") or out / "waveforms.csv")
-
-    result.figures = summarise(waveforms)
-    result.limits = check_requirements(circuit.requirements, waveforms)
-    if with_modes:
+    check_run_bounds(circuit, step=step, until=until, out_dir=out_dir, method=method)  # before any work starts
+    if out_dir is None:
+        result = JobResult(circuit, simulate(circuit, method=method, step=step, until=until, insist=insist),
+                           {}, [], [])
+        _measure(result, with_modes)
+        return result
+    out = Path(out_dir)
+    # the folder is built beside its place and swapped in whole: a reader finds the
+    # previous complete run or this one, never a mix (output/atomic.py); it is made
+    # first so a read-only or missing place is reported before the work starts
+    with StagedFolder(out, RUN_FILES) as stage:
+        waveforms = simulate(circuit, method=method, step=step, until=until, insist=insist)
+        result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
         try:
-            from ..analysis.modes import circuit_modes
-
-            result.modes = circuit_modes(circuit, until=float(waveforms.t[-1]))
-        except CircuitodeError as exc:  # a mode table is a bonus; never lose the run for it
-            result.problems.append(f"modes not computed: {exc}")
-
-    if out is not None:
+            waveforms.to_csv(stage.path / "waveforms.csv")
+        except OSError as exc:
+            raise environment_fault(exc, f"write the waveforms into {out}") from None
+        stage.keep_on_failure()  # from here on the waveforms are never lost
+        result.files["waveforms"] = out / "waveforms.csv"
+        _measure(result, with_modes)
         if plots:
             try:
                 from ..output.plots import plot_waveforms
 
-                result.files["plot"] = plot_waveforms(waveforms, out / "waveforms.png", title=circuit.title,
-                                                      limits=result.limits, running=running)
+                plot_waveforms(waveforms, stage.path / "waveforms.png", title=circuit.title,
+                               limits=result.limits, running=running)
+                result.files["plot"] = out / "waveforms.png"
             except Exception as exc:  # noqa: BLE001 - the CSV is already safe; say what failed
                 result.problems.append(f"plot not drawn: {type(exc).__name__}: {exc}")
         result.files["summary"] = out / "summary.json"
-        write_summary_json(result.files["summary"], summary_of(result))
+        try:
+            write_summary_json(stage.path / "summary.json", summary_of(result))
+        except OSError as exc:
+            raise environment_fault(exc, f"write the summary into {out}") from None
+        stage.publish()
     return result
+
+
+def _measure(result: JobResult, with_modes: bool) -> None:
+    """Figures, limit verdicts and (optionally) the mode table of a finished run."""
+    from ..analysis.limits import check_requirements
+    from ..analysis.measure import summarise
+
+    waveforms = result.waveforms
+    result.figures = summarise(waveforms)
+    result.limits = check_requirements(result.circuit.requirements, waveforms)
+    if with_modes:
+        try:
+            from ..analysis.modes import circuit_modes
+
+            result.modes = circuit_modes(result.circuit, until=float(waveforms.t[-1]))
+        except CircuitodeError as exc:  # a mode table is a bonus; never lose the run for it
+            result.problems.append(f"modes not computed: {exc}")
 
 
 def summary_of(result: JobResult) -> dict[str, Any]:

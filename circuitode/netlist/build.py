@@ -308,7 +308,10 @@ class _Builder:
                              f"a {spec.kind} waveform", signal)
         if spec.kind == "pulses":
             kwargs = pulse_times(kwargs, {f.name: f for f in spec.fields}, spec.where)
-        return WAVEFORM_CLASSES[spec.kind](**kwargs)
+        try:
+            return WAVEFORM_CLASSES[spec.kind](**kwargs)
+        except src.WaveformError as err:  # a field out of range: say where
+            raise NetlistError(str(err), spec.where, f"see the {spec.kind} waveform in docs/language.md") from None
 
     def on_switch(self, st: SwitchStmt) -> None:
         self.declare(st.name, st.where)

@@ -19,6 +19,7 @@ from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean
 from ..quantities import read_quantity, split_unit
+from .limits import check_text_shape
 from .vocabulary import WAVEFORM_WORDS, word_hint
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, Netlist, ParamStmt, ProbeSpec, RecordStmt,
@@ -532,6 +533,7 @@ def parse_text(text: str, file: str = "<text>") -> Netlist:
     NetlistError : located at the first mistake, with what was expected.
     """
     lines = [line.rstrip("\r") for line in text.split("\n")]  # lark counts lines by "\n" only
+    check_text_shape(text, file, lines)  # line length and bracket depth, before lark sees the text
     _CURRENT.set((file, lines, text))
     try:
         tree = _parser().parse(text)

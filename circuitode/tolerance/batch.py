@@ -7,8 +7,8 @@ message for each of its samples instead of stopping the batch.
 """
 from __future__ import annotations
 
+import io
 import json
-import os
 import sys
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -17,8 +17,10 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..model.circuit import Circuit, Coupling, PowerIn
-from ..errors import CircuitodeError, NetlistError
+from ..errors import CircuitodeError, NetlistError, environment_fault
+from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..netlist.parts import expose_parts
+from ..output.atomic import check_out_folder, write_atomic
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
 from ..analysis.measure import figure_unit, measure
 from ..analysis.window_integrals import figure_from_integrals
@@ -27,6 +29,7 @@ from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
 from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
+from .lock import FolderLock
 from .store import ChunkStore, fingerprint_text
 
 __all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys"]
@@ -287,6 +290,9 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
             raise CircuitodeError(f"cannot read netlist {path}: {exc.strerror}") from None
         circuit = load(path, varied=_override_names(tol_overrides))
         identity = text
+    check_out_folder(out_dir)
+    # corners runs every ± extreme whatever the count, so it needs none
+    _check_counts(**({} if sampler == "corners" else {"samples": samples}), seed=seed, keep_waveforms=keep_waveforms)
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
     refuse_diodes(circuit)
@@ -298,6 +304,10 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
         overrides = list(tol_overrides or [])
     circuit = expose_parts(circuit, _override_names(overrides), "--tol")  # R1=5%, K_main.on=10%
     spreads = spreads_with_overrides(circuit, overrides)
+    check_run_bounds(circuit)  # events, states: before any sample is drawn
+    check_batch_bounds(circuit, int(samples) if sampler != "corners" else 2 ** len(spreads), chunk_size,
+                       len(spreads), len(batch_figure_keys(circuit)[1]), out_dir, int(keep_waveforms),
+                       _WAVEFORM_POINTS)
     table = draw_samples(spreads, int(samples), sampler, int(seed))
     _check_supported(circuit, table.names)
     probes, keys = batch_figure_keys(circuit)
@@ -314,11 +324,39 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
         raise CircuitodeError(f"chunk size must be at least 1, got {chunk_size}")
     N = table.count
     n_chunks = -(-N // chunk_size)
-    store = ChunkStore(out_dir, {
-        "netlist_sha256": fingerprint_text(identity), "seed": int(seed), "sampler": sampler,
-        "samples": N, "chunk_size": chunk_size, "overrides": overrides, "method": method,
-        "keep_waveforms": int(keep_waveforms),
-    })
+    with _locked(out_dir):
+        store = ChunkStore(out_dir, {
+            "netlist_sha256": fingerprint_text(identity), "seed": int(seed), "sampler": sampler,
+            "samples": N, "chunk_size": chunk_size, "overrides": overrides, "method": method,
+            "keep_waveforms": int(keep_waveforms),
+        }, {c: (c * chunk_size, min(N, (c + 1) * chunk_size)) for c in range(n_chunks)})
+        return _run_chunks(circuit, table, store, n_chunks, chunk_size, keys, probes, method, keep_waveforms,
+                           workers, scheduler, progress, min_yield, plots)
+
+
+def _check_counts(**counts) -> None:
+    """Counts given on the command line are whole numbers ≥ 0 (samples ≥ 1), seeds < 2³²."""
+    for name, value in counts.items():
+        flag = "--" + name.replace("_", "-")
+        lowest = 1 if name == "samples" else 0
+        if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < lowest:
+            raise CircuitodeError(f"error: {flag} must be a whole number of at least {lowest}, got {value!r}\n"
+                                  f"  hint: e.g. {flag} {max(lowest, 1) if name != 'seed' else 7}")
+        if name == "seed" and value >= 2**32:
+            raise CircuitodeError(f"error: --seed must be below 2^32 = {2**32}, got {value}")
+
+
+def _locked(out_dir) -> FolderLock:
+    try:
+        Path(out_dir).mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise environment_fault(exc, f"create the output folder {out_dir}") from None
+    return FolderLock(out_dir)
+
+
+def _run_chunks(circuit, table, store, n_chunks, chunk_size, keys, probes, method, keep_waveforms,
+                workers, scheduler, progress, min_yield, plots) -> BatchResult:
+    N = table.count
     done = store.finished()
     todo = [c for c in range(n_chunks) if c not in done]
     bar = _Progress(N, progress)
@@ -381,10 +419,11 @@ def _write_waveforms(parts, probes, folder: Path) -> dict:
         (folder / "waveforms").mkdir(exist_ok=True)
         for k, index in enumerate(part["wave_index"]):
             path = folder / "waveforms" / f"sample_{int(index)}.csv"
-            with open(path, "w", newline="", encoding="utf-8") as fh:
-                w = csv.writer(fh)
-                w.writerow(["time [s]"] + [f"{p.label} [{p.unit}]" for p in probes])
-                w.writerows(np.column_stack([part["wave_t"][k], part["wave_y"][k].T]).tolist())
+            lines = [["time [s]"] + [f"{p.label} [{p.unit}]" for p in probes]]
+            lines += np.column_stack([part["wave_t"][k], part["wave_y"][k].T]).tolist()
+            text = io.StringIO(newline="")
+            csv.writer(text).writerows(lines)
+            write_atomic(path, text.getvalue().encode("utf-8"))
             files[f"waveform {int(index)}"] = path
     return files
 
@@ -414,16 +453,19 @@ def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
     header = ["sample", "ok", "message"] + [f"{n}" for n in table.names] + [
         f"{f} of {label} [{u}]" for (f, label), u in zip(result.figure_keys, result.figure_units)] + [
         f"pass: {words}" for words in limit_words]
-    tmp = path.with_name(".samples.csv.tmp")
-    with open(tmp, "w", newline="", encoding="utf-8") as fh:
+    rows = np.concatenate([table.values, result.figures], axis=1)
+
+    def write_rows(binary):
+        fh = io.TextIOWrapper(binary, encoding="utf-8", newline="")
         w = csv.writer(fh)
         w.writerow(header)
-        values = table.values
-        rows = np.concatenate([values, result.figures], axis=1)
         for i in range(table.count):  # writing text rows; the numerics are done
             w.writerow([i, int(result.ok[i]), result.messages[i]] + [repr(float(v)) for v in rows[i]]
                        + [int(p) for p in passes[i]])
-    os.replace(tmp, path)
+        fh.flush()
+        fh.detach()  # the binary handle stays open for write_atomic to sync and rename
+
+    write_atomic(path, write_rows)  # unique temp name, renamed into place
     files["samples"] = path
     summary = {
         "samples": table.count, "sampler": table.sampler, "seed": table.seed, "note": table.note,
@@ -441,7 +483,7 @@ def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
         "safety": SAFETY_TEXT,
     }
     path = folder / "batch_summary.json"
-    path.write_text(json.dumps(summary, indent=2, default=float).replace("NaN", "null"), encoding="utf-8")
+    write_atomic(path, json.dumps(summary, indent=2, default=float).replace("NaN", "null").encode("utf-8"))
     files["summary"] = path
     if plots:
         from .plots import write_plots

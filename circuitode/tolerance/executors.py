@@ -12,7 +12,8 @@ import os
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from typing import Any, Callable, Iterable, Iterator
 
-from ..errors import CircuitodeError
+from ..errors import CircuitodeError, EnvironmentFault
+from .scheduler_probe import probe_scheduler
 
 __all__ = ["InProcessExecutor", "LocalProcessExecutor", "DaskExecutor", "make_executor", "CONNECT_TIMEOUT"]
 
@@ -81,12 +82,14 @@ class DaskExecutor:
             address = scheduler.scheduler.address
         else:
             address = str(scheduler)
+            probe_scheduler(address, timeout=min(timeout or CONNECT_TIMEOUT, 5.0))
             try:
                 self.client = distributed.Client(address, timeout=timeout or CONNECT_TIMEOUT)
-            except (OSError, TimeoutError, ValueError) as exc:
-                raise CircuitodeError(
-                    f"cannot reach the Dask scheduler at {address!r} ({exc}); check the "
-                    "address (e.g. tcp://host:8786) and that the scheduler is running"
+            except Exception as exc:  # noqa: BLE001 - whatever Dask raises, the cause is the address
+                raise EnvironmentFault(
+                    f"error: cannot use the Dask scheduler at {address!r} ({type(exc).__name__}: "
+                    f"{str(exc)[:200]})\n  what to do: check the address (e.g. tcp://host:8786) and "
+                    "that the scheduler is running"
                 ) from None
             self._own = True
         self.name = f"Dask scheduler {address}"

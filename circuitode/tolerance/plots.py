@@ -14,6 +14,7 @@ import numpy as np
 
 from ..quantities import format_si, si_scale
 from .summary import figure_label, varies
+from ..output.atomic import write_atomic
 
 __all__ = ["write_plots"]
 
@@ -41,8 +42,10 @@ def _save(plt, fig, ax, path: Path) -> Path:
     ax.grid(True, color="#e3e3e3", lw=0.7)
     ax.set_axisbelow(True)
     fig.tight_layout()
-    fig.savefig(path)
-    plt.close(fig)
+    try:
+        write_atomic(path, lambda handle: fig.savefig(handle, format="png"))  # never a half-written PNG
+    finally:
+        plt.close(fig)
     return path
 
 
