@@ -345,3 +345,14 @@ def test_every_integrator_follows_the_diode(method):
     ref = exact["voltage at dc"]
     np.testing.assert_allclose(np.interp(exact.t, other.t, other["voltage at dc"]), ref, rtol=0,
                                atol=1e-4 * np.max(np.abs(ref)))
+
+
+def test_a_diode_is_called_a_diode_in_diagnostics():
+    # A dangling diode terminal was reported as "reached only by coupling D1".
+    from circuitode.checks import diagnose
+    from circuitode.netlist import loads
+
+    circuit = loads("ground gnd\nvoltage_source V1 a -- gnd constant 5 V\nresistor R1 a -- m 1 kΩ\n"
+                    "capacitor C1 m -- gnd 1 uF\ndiode D1 m -- out drop 0.7 V\n")
+    messages = [d.message for d in diagnose(circuit) if d.code == "unconnected-node"]
+    assert messages and "diode D1" in messages[0]

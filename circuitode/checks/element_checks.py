@@ -16,7 +16,9 @@ import numpy as np
 from ..model.circuit import (
     Capacitor,
     Circuit,
+    Coupling,
     CurrentSource,
+    Diode,
     Inductor,
     PeriodicSchedule,
     Resistor,
@@ -43,7 +45,9 @@ def _kind(e) -> str:
         VoltageSource: "voltage source",
         CurrentSource: "current source",
         Switch: "switch",
-    }.get(type(e), "coupling")
+        Diode: "diode",
+        Coupling: "coupling",
+    }.get(type(e), type(e).__name__.lower())
 
 
 
