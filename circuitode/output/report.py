@@ -332,13 +332,20 @@ def unit_of_parameter(circuit: Circuit, name: str) -> str:
 # circuitode run
 # --------------------------------------------------------------------------
 
+#: Levels below this fraction of the row's largest are printed as 0: about 50 ulps of it.
+_ROUNDING = 1e-14
+
 _COLUMNS = (("peak", "peak"), ("time_of_peak", "at"), ("minimum", "minimum"), ("final", "final"))
 
 
 def _figure_line(label: str, row: Mapping[str, tuple[Any, str]]) -> list[str]:
     cells = [f"{_fit(label, 26):<27}"]
+    scale = max((abs(v) for v, _ in (row.get(k, (None, "")) for k, _ in _COLUMNS)
+                 if isinstance(v, float) and math.isfinite(v)), default=0.0)
     for key, _ in _COLUMNS:
         value, unit = row.get(key, (None, ""))
+        if key != "time_of_peak" and isinstance(value, float) and abs(value) <= _ROUNDING * scale:
+            value = 0.0  # rounding of the solution (e.g. -8e-16 A beside 42 A), not a level
         cells.append(f"{_si(value, unit):>12}")
     lines = ["".join(cells)]
     extras = []
