@@ -268,6 +268,19 @@ def _add_bench_commands(sub) -> None:
 
     p = sub.add_parser("compare", help="a measured capture (CSV) against the model: alignment, errors, ringing",
                        epilog=COMMAND_EXAMPLES["compare"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    _capture_arguments(p)
+    p.add_argument("--out", type=Path, help="folder (default: <netlist>-compare next to the netlist)")
+    p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+
+    p = sub.add_parser("fit", help="fit toleranced parameters to a measured capture (least squares, intervals)",
+                       epilog=COMMAND_EXAMPLES["fit"], formatter_class=argparse.RawDescriptionHelpFormatter)
+    _capture_arguments(p)
+    p.add_argument("--free", required=True, metavar="NAMES",
+                   help="comma-separated parameters to fit, each with a tolerance (its bounds), e.g. L_cab,R_damp")
+
+
+def _capture_arguments(p) -> None:
+    """The netlist, the capture, its channel and how to line it up: shared by compare and fit."""
     p.add_argument("netlist", help="a .cnet file")
     p.add_argument("--measured", required=True, metavar="CSV", help="the capture (layouts: docs/captures.md)")
     p.add_argument("--channel", required=True, help="channel name, or number (CH2, channel 2 or the 2nd column)")
@@ -279,25 +292,7 @@ def _add_bench_commands(sub) -> None:
                             "default halfway through the model's step)")
     align.add_argument("--shift", type=_quantity("s"), help="add this to the capture's clock instead, e.g. 102us")
     p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
-                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
-    p.add_argument("--out", type=Path, help="folder (default: <netlist>-compare next to the netlist)")
-    p.add_argument("--no-plots", action="store_true", help="skip the PNG")
-
-    p = sub.add_parser("fit", help="fit toleranced parameters to a measured capture (least squares, intervals)",
-                       epilog=COMMAND_EXAMPLES["fit"], formatter_class=argparse.RawDescriptionHelpFormatter)
-    p.add_argument("netlist", help="a .cnet file")
-    p.add_argument("--measured", required=True, metavar="CSV", help="the capture (layouts: docs/captures.md)")
-    p.add_argument("--channel", required=True, help="channel name, or number")
-    p.add_argument("--as", dest="quantity", required=True, metavar="QUANTITY",
-                   help='what the channel measured, e.g. "voltage at link"')
-    p.add_argument("--free", required=True, metavar="NAMES",
-                   help="comma-separated parameters to fit, each with a tolerance (its bounds), e.g. L_cab,R_damp")
-    align = p.add_mutually_exclusive_group()
-    align.add_argument("--trigger-level", type=float, metavar="LEVEL", help="align on this crossing level")
-    align.add_argument("--shift", type=_quantity("s"), help="add this to the capture's clock instead")
-    p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],
-                   metavar="NAME=VALUE", help="replace a param value (repeatable)")
-
+                   metavar="NAME=VALUE", help="replace a param or part value (repeatable)")
 
 # --------------------------------------------------------------------------
 # commands
