@@ -91,7 +91,13 @@ def test_trbdf2_damps_a_stiff_mode_trapezoidal_does_not():
     z = -1e9 * 1e-6
     np.testing.assert_allclose(trap, ((1 + z / 2) / (1 - z / 2)) ** np.arange(11), rtol=1e-9)
     assert np.all(np.sign(trap[1:-1]) != np.sign(trap[2:]))  # alternating, barely damped
-    assert np.all(np.abs(tr[1:]) < 1e-3)
+    # TR-BDF2's own R(z) = [(1 + d z)/(1 − d z) − (1 − γ)²] / (γ (2 − γ)(1 − d z)), d = γ/2,
+    # written out from the two stages; |R(−1000)| ≈ 5e-3 and → 0 as z → −∞.
+    g = 2 - np.sqrt(2)
+    d = g / 2
+    R = ((1 + d * z) / (1 - d * z) - (1 - g) ** 2) / (g * (2 - g) * (1 - d * z))
+    np.testing.assert_allclose(tr, R ** np.arange(11), rtol=1e-9)
+    assert abs(R) < 5e-3
 
 
 def test_observe_keeps_only_the_requested_rows():
