@@ -114,7 +114,13 @@ def run_job(
 
     result.figures = summarise(waveforms)
     result.limits = check_requirements(circuit.requirements, waveforms)
-    if with_modes:
+    from ..sparse_transient import SPARSE_STATES
+
+    if with_modes and len(circuit.state_names) > SPARSE_STATES:  # the table is a dense O(n³) eig
+        result.problems.append(
+            f"modes not computed: {len(circuit.state_names)} states is above {SPARSE_STATES}, and the "
+            "mode table needs every eigenvalue and eigenvector of a dense matrix (O(n³) work)")
+    elif with_modes:
         try:
             from ..analysis.modes import circuit_modes
 
