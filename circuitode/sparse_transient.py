@@ -80,6 +80,13 @@ def simulate_sparse(circuit, settings, name: str, reason: str, probes=None):
     closed = tuple(sw.initially_closed for sw in circuit.switches)
     desc = cache.get(closed)
     n, slack = desc.n_states, 1e-12 * s.until
+    if n:
+        from .solvers.sparse_spectrum import largest_rate
+
+        fastest = largest_rate(desc.E, desc.A, n, tol=1e-2, maxiter=50)
+        reason += ("; fastest |λ| not estimated (the sparse eigensolver did not converge)" if fastest is None
+                   else f"; fastest |λ| ≈ {fastest:.3g} 1/s at the start (sparse Arnoldi estimate, ~1 %), "
+                        f"h·|λ| = {step * fastest:.3g}")
     keep_states = n * grid.size <= STATE_ROWS_LIMIT
     if not keep_states:
         warnings += (f"note: the {n} states are not kept per output row ({grid.size} rows would need "

@@ -141,3 +141,17 @@ def test_run_skips_the_dense_mode_table_above_the_size_and_says_so(tmp_path):
     result = run_job(ladder(SPARSE_STATES // 2 + 1, until="50 us"), out_dir=None)
     assert result.modes == []
     assert any("modes not computed" in p and "O(n³)" in p for p in result.problems)
+
+
+def test_sparse_estimate_of_the_fastest_rate_matches_dense_eigenvalues():
+    # scipy.linalg.eigvals of the dense A as the reference library; the estimate (ARPACK at
+    # tol 1e-2) is within 1 % of the largest |λ|, never forming the n × n matrix.
+    from circuitode.solvers.sparse_spectrum import largest_rate
+
+    for source in ("netlists/cable_ladder.cnet", COUPLED):
+        circuit = co.load(source) if source.endswith(".cnet") else co.loads(source)
+        for closed in [(False,) * len(circuit.switches), (True,) * len(circuit.switches)]:
+            sparse = assemble_sparse(circuit, closed)
+            want = np.max(np.abs(np.linalg.eigvals(assemble(circuit, closed).A)))
+            got = largest_rate(sparse.E, sparse.A, sparse.n_states, tol=1e-2, maxiter=50)
+            assert got == pytest.approx(want, rel=1e-2)
