@@ -114,8 +114,16 @@ class DescriptorIntegrator:
         factors = []
         for j in range(lengths.size):
             hj = float(np.mean(h[which == j]))
-            factors.append((hj, splu(sp.csc_matrix(E - (self.d * hj) * A))))
+            dh = self.d * hj
+            # (E − d h A) for the solve; E + d h A on the differential rows for the right side
+            explicit = sp.csr_matrix(E + sp.diags(dh * differential) @ A)
+            factors.append((hj, (splu(sp.csc_matrix(E - dh * A)), explicit)))
         U = self._input_table(segment, nodes, h)
+        # B u only on B's nonzero rows: (input times, r), scattered into the right side per step
+        rows = np.unique(B.tocoo().row)
+        forcing = U @ B[rows].toarray().T if rows.size else np.zeros((U.shape[0], 0))
+        U = (rows, forcing, differential[rows])
+        E = sp.csr_matrix(E)
         keep = np.searchsorted(nodes, t_out)
         observe = None if observe is None else sp.csr_matrix(observe)
         out = np.empty((t_out.size, segment.A.shape[0] if observe is None else observe.shape[0]))
@@ -145,4 +153,6 @@ class DescriptorIntegrator:
         raise NotImplementedError
 
     def _advance(self, lu, E, A, B, differential, w, h, U, k):
+        """One step of length h from w; ``lu`` is (LU of E − d h A, E + d h diag(differential) A),
+        ``U`` is (rows, forcing, differential on rows) with forcing = B u on B's nonzero rows."""
         raise NotImplementedError

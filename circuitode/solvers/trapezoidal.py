@@ -28,8 +28,10 @@ class Trapezoidal(DescriptorIntegrator):
         return segment.input_values(nodes)
 
     def _advance(self, lu, E, A, B, differential, w, h, U, k):
-        now = A @ w + (B @ U[k] if U.shape[1] else 0.0)
-        rhs = E @ w + (0.5 * h) * differential * now
-        if U.shape[1]:
-            rhs = rhs + (0.5 * h) * (B @ U[k + 1])
-        return lu.solve(rhs)
+        solver, explicit = lu
+        rows, forcing, diff_rows = U
+        dh = 0.5 * h
+        rhs = explicit @ w
+        if rows.size:
+            rhs[rows] += dh * (diff_rows * forcing[k] + forcing[k + 1])
+        return solver.solve(rhs)

@@ -36,14 +36,14 @@ class TRBDF2(DescriptorIntegrator):
         return segment.input_values(t)
 
     def _advance(self, lu, E, A, B, differential, w, h, U, k):
+        solver, explicit = lu
+        rows, forcing, diff_rows = U
         dh = self.d * h
-        m = U.shape[1]
-        now = A @ w + (B @ U[2 * k] if m else 0.0)
-        rhs = E @ w + dh * differential * now
-        if m:
-            rhs = rhs + dh * (B @ U[2 * k + 1])
-        w_gamma = lu.solve(rhs)
+        rhs = explicit @ w
+        if rows.size:
+            rhs[rows] += dh * (diff_rows * forcing[2 * k] + forcing[2 * k + 1])
+        w_gamma = solver.solve(rhs)
         rhs = E @ ((w_gamma - (1.0 - GAMMA) ** 2 * w) / (GAMMA * (2.0 - GAMMA)))
-        if m:
-            rhs = rhs + dh * (B @ U[2 * k + 2])
-        return lu.solve(rhs)
+        if rows.size:
+            rhs[rows] += dh * forcing[2 * k + 2]
+        return solver.solve(rhs)
