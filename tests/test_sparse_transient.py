@@ -155,3 +155,33 @@ def test_sparse_estimate_of_the_fastest_rate_matches_dense_eigenvalues():
             want = np.max(np.abs(np.linalg.eigvals(assemble(circuit, closed).A)))
             got = largest_rate(sparse.E, sparse.A, sparse.n_states, tol=1e-2, maxiter=50)
             assert got == pytest.approx(want, rel=1e-2)
+
+
+def test_scheduled_switch_on_the_sparse_path_matches_dense_exact():
+    # A contactor closes the ladder onto the source at 0.2 ms; the sparse path (trbdf2 named,
+    # 40 states) against the dense exact method on the same netlist: the same event, the
+    # two rows at the switching instant, and waveforms within the h² error of the step.
+    text = ladder(20, until="0.6 ms").replace(
+        f"resistor R_s src -- n0 {Z0!r} Ω",
+        f"resistor R_s src -- a {Z0!r} Ω\nswitch Q1 a -- n0 closes at 0.2 ms off 10 MΩ")
+    exact = co.simulate(text, method="exact")
+    for step, bound in ((1e-6, 0.02), (0.25e-6, 0.02 / 16 * 1.3)):
+        w = co.simulate(text, method="trbdf2", step=step)
+        assert [(e.time, e.switch, e.closed) for e in w.events] == [(2e-4, "Q1", True)]
+        assert np.count_nonzero(w.t == 2e-4) == 2
+        pick = np.searchsorted(w.t, exact.t[exact.t != 2e-4])
+        for label in ("voltage at n20", "current through R_s"):
+            assert np.max(np.abs(w[label][pick] - exact[label][exact.t != 2e-4])) < bound, (label, step)
+        before = w.t < 2e-4
+        assert np.max(np.abs(w["current through R_s"][before])) < 1.001e-7  # 1 V across 10 MΩ (and the step error)
+
+
+def test_dc_steady_start_on_the_sparse_path_stays_put():
+    # Lossy matched ladder at DC (Ohm's law along the series chain, capacitors open):
+    # I = 1 V / (2 Z₀ + S · 50 mΩ), far end at I · Z₀; a steady start stays there.
+    S = 300
+    w = co.simulate(ladder(S, until="0.1 ms").replace("initial rest", "initial steady"))
+    assert w.method == "trbdf2"
+    current = 1.0 / (2 * Z0 + S * 0.05)
+    np.testing.assert_allclose(w[f"voltage at n{S}"], current * Z0, rtol=1e-9)
+    np.testing.assert_allclose(w["current through R_s"], current, rtol=1e-9)
