@@ -46,23 +46,45 @@ def sparse_choice(circuit, method: str) -> tuple[str, str] | None:
                 f"{', '.join(thresholds)} act on a threshold; use method exact, radau or bdf")
         return method, f"{method}: chosen by the user (sparse descriptor equations, {n} states)"
     if method == "auto" and n > SPARSE_STATES and not thresholds:
-        return "trbdf2", (
-            f"trbdf2: {n} states is above {SPARSE_STATES}, so the equations stay sparse "
-            "(descriptor form, one sparse LU per configuration and step length) and no "
-            "dense eigenvalues are computed; TR-BDF2 is L-stable and of order 2, "
-            "fixed step = the output step")
+        return "auto", (f"{n} states is above {SPARSE_STATES}, so the equations stay sparse "
+                        "(descriptor form) and no dense eigenvalues are computed")
     return None
 
 
-def simulate_sparse(circuit, settings, name: str, reason: str, probes=None):
+def _auto_method(fastest: float | None, until: float, rows: int, size: int, n: int) -> tuple[str, str]:
+    """rk45 or trbdf2 by estimated cost, in sparse solves, and the sentence that says why.
+
+    rk45's step is held by stability to about 3/|λ|max (Dormand–Prince reaches about
+    −3.3 on the negative real axis, from memory): about until·|λ|max/3 steps of 6 solves
+    of the K = size − n algebraic unknowns.  TR-BDF2 takes at least one step per output
+    row, 2 solves of all ``size`` unknowns each.
+    """
+    if fastest is None:
+        return "trbdf2", "trbdf2: the fastest rate could not be estimated, so an L-stable method"
+    explicit = 2.0 * until * fastest * (size - n)
+    implicit = 2.0 * rows * size
+    figures = (f"fastest |λ| ≈ {fastest:.3g} 1/s (sparse Arnoldi estimate, ~1 %), "
+               f"rk45 about {explicit:.3g} and trbdf2 about {implicit:.3g} unknowns solved")
+    if explicit <= implicit:
+        return "rk45", f"rk45: not stiff enough to need an implicit method over {until:g} s ({figures})"
+    return "trbdf2", (f"trbdf2: stiff (the stability of an explicit method would cost more; {figures}); "
+                      "L-stable, order 2, fixed step = the output step")
+
+
+def simulate_sparse(circuit, settings, name: str, reason: str, probes=None, rtol: float = 1e-6,
+                    atol: float = 1e-9):
     """The run of :func:`circuitode.transient.simulate` on the sparse path; returns Waveforms.
 
-    ``settings`` are the checked settings of ``transient._settings``.
+    ``settings`` are the checked settings of ``transient._settings``; ``name`` is
+    "trapezoidal", "trbdf2" or "auto" (rk45 or trbdf2 by estimated cost, see
+    :func:`_auto_method`); rtol, atol are rk45's.
     """
     import scipy.sparse as sp  # loads slowly: only large circuits take this path
 
     from .equations.sparse_statespace import SparseDescriptorCache
     from .solvers.descriptor import DescriptorSegment
+    from .solvers.sparse_explicit import SparseRK45
+    from .solvers.sparse_spectrum import largest_rate
     from .solvers.trapezoidal import Trapezoidal
     from .solvers.trbdf2 import TRBDF2
     from .transient import (Event, Waveforms, _linear_probes, _output_grid, _schedule,
@@ -76,17 +98,20 @@ def simulate_sparse(circuit, settings, name: str, reason: str, probes=None):
     bank = SourceBank.of(circuit)
     grid = _output_grid(s)
     step = s.step if s.step is not None else s.until / (s.points - 1)
-    integrator = {"trapezoidal": Trapezoidal, "trbdf2": TRBDF2}[name](step=step)
     closed = tuple(sw.initially_closed for sw in circuit.switches)
     desc = cache.get(closed)
     n, slack = desc.n_states, 1e-12 * s.until
-    if n:
-        from .solvers.sparse_spectrum import largest_rate
-
-        fastest = largest_rate(desc.E, desc.A, n, tol=1e-2, maxiter=50)
-        reason += ("; fastest |λ| not estimated (the sparse eigensolver did not converge)" if fastest is None
-                   else f"; fastest |λ| ≈ {fastest:.3g} 1/s at the start (sparse Arnoldi estimate, ~1 %), "
-                        f"h·|λ| = {step * fastest:.3g}")
+    fastest = largest_rate(desc.E, desc.A, n, tol=1e-2, maxiter=50) if n else 0.0
+    if name == "auto":
+        name, why = _auto_method(fastest, s.until, grid.size, desc.size, n)
+        reason = f"{why}; {reason} (rate estimated in the configuration at the start)"
+    elif fastest is not None:
+        reason += f"; fastest |λ| ≈ {fastest:.3g} 1/s at the start (sparse Arnoldi estimate, ~1 %)"
+    if name in ("trapezoidal", "trbdf2"):
+        integrator = {"trapezoidal": Trapezoidal, "trbdf2": TRBDF2}[name](step=step)
+        reason += f", h·|λ| = {step * (fastest or 0.0):.3g}"
+    else:
+        integrator = SparseRK45(rtol=rtol, atol=atol)
     keep_states = n * grid.size <= STATE_ROWS_LIMIT
     if not keep_states:
         warnings += (f"note: the {n} states are not kept per output row ({grid.size} rows would need "

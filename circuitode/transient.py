@@ -333,7 +333,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     from .sparse_transient import simulate_sparse, sparse_choice  # large circuits: sparse path
     sparse = sparse_choice(circuit, s.method)
     if sparse is not None:
-        return simulate_sparse(circuit, s, *sparse, probes=probes)
+        return simulate_sparse(circuit, s, *sparse, probes=probes, rtol=rtol, atol=atol)
     warnings = _verify(circuit, s.until)
     wanted = recorded_probes(circuit, probes)
     linear = _linear_probes(wanted)

@@ -109,6 +109,23 @@ def test_observe_keeps_only_the_requested_rows():
     np.testing.assert_allclose(full.x[:, 1], np.exp(-2 * np.array([0.5, 1.0])), rtol=1e-4)
 
 
+def test_sparse_rk45_on_the_descriptor_rlc():
+    # The same descriptor RLC, adaptive Dormand–Prince on the eliminated system, against
+    # the closed form of Nilsson & Riedel, ch. 8, within its tolerance.
+    from circuitode.solvers.sparse_explicit import SparseRK45
+
+    R, L, C, V = 4.0, 1e-3, 10e-6, 24.0
+    E = sp.diags([C, L, 0.0])
+    A = np.array([[0.0, 1.0, 0.0], [-1.0, 0.0, 1.0], [0.0, -R, -1.0]])
+    seg = DescriptorSegment(E, A, [[0.0], [0.0], [1.0]], Constant(V), 0.0, 1e-3, [0.0, 0.0, V])
+    t = np.linspace(0.0, 1e-3, 41)
+    res = SparseRK45(rtol=1e-9, atol=1e-12).solve(seg, t)
+    v, i = series_rlc_step(R, L, C, V, t)
+    assert np.max(np.abs(res.x[:, 0] - v)) < 1e-6 * V
+    assert np.max(np.abs(res.x[:, 1] - i)) < 1e-6 * V / R
+    np.testing.assert_allclose(res.x[:, 2], V - R * res.x[:, 1], rtol=1e-12, atol=1e-12)  # algebraic row
+
+
 def test_needs_a_step_and_refuses_events():
     with pytest.raises(CircuitodeError, match="needs a positive step"):
         Trapezoidal()

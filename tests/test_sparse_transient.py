@@ -105,15 +105,33 @@ def test_auto_takes_the_sparse_path_above_the_size_and_says_why():
     small = co.loads(ladder(SPARSE_STATES // 2))
     assert sparse_choice(small, "auto") is None
     w = co.simulate(ladder(SPARSE_STATES // 2 + 1, until="0.1 ms"))
-    assert w.method == "trbdf2"
+    assert w.method == "rk45" and w.method_reason.startswith("rk45: not stiff")
     assert f"{SPARSE_STATES + 2} states is above {SPARSE_STATES}" in w.method_reason
     assert "no dense eigenvalues" in w.method_reason
+    # a 1 nF capacitor behind the 3.16 Ω source resistor: a 3 ns time constant makes the
+    # explicit method's stability cost exceed TR-BDF2's, so auto turns to TR-BDF2
+    stiff = ladder(SPARSE_STATES // 2 + 1, until="0.1 ms").replace(
+        "resistor R_t", "capacitor C_fast n0 -- gnd 1 nF\nresistor R_t")
+    w = co.simulate(stiff)
+    assert w.method == "trbdf2" and w.method_reason.startswith("trbdf2: stiff")
+
+
+def test_sparse_rk45_against_dense_exact():
+    # auto's rk45 on the sparse path (600 states, 2 ms: the front passes 200 sections)
+    # against the dense exact method: within the global error of rtol 1e-6.
+    text = ladder(300)
+    w = co.simulate(text)
+    assert w.method == "rk45"
+    exact = co.simulate(text, method="exact")
+    for label in exact.signals:
+        assert np.max(np.abs(w[label] - exact[label])) < 1e-4, label
 
 
 def test_lossless_ladder_delay_and_matched_line():
     S = 300
     delay = S * np.sqrt(L_SEC * C_SEC)  # 948.7 µs
     w = co.simulate(ladder(S, lossless=True, until="3 ms"))
+    assert w.method == "rk45"
     t, far = w.t, w[f"voltage at n{S}"]
     k = np.argmax(far > 0.5 / 3)  # first row above 1/3 of the final 0.5 V
     crossing = t[k - 1] + (0.5 / 3 - far[k - 1]) * (t[k] - t[k - 1]) / (far[k] - far[k - 1])
@@ -180,8 +198,10 @@ def test_dc_steady_start_on_the_sparse_path_stays_put():
     # Lossy matched ladder at DC (Ohm's law along the series chain, capacitors open):
     # I = 1 V / (2 Z₀ + S · 50 mΩ), far end at I · Z₀; a steady start stays there.
     S = 300
-    w = co.simulate(ladder(S, until="0.1 ms").replace("initial rest", "initial steady"))
-    assert w.method == "trbdf2"
-    current = 1.0 / (2 * Z0 + S * 0.05)
-    np.testing.assert_allclose(w[f"voltage at n{S}"], current * Z0, rtol=1e-9)
-    np.testing.assert_allclose(w["current through R_s"], current, rtol=1e-9)
+    for method in ("auto", "trbdf2"):
+        w = co.simulate(ladder(S, until="0.1 ms").replace("initial rest", "initial steady"), method=method)
+        assert w.method == ("rk45" if method == "auto" else method)
+        current = 1.0 / (2 * Z0 + S * 0.05)
+        rtol = 1e-9 if method == "trbdf2" else 2e-6  # rk45 drifts within its own rtol (1e-6)
+        np.testing.assert_allclose(w[f"voltage at n{S}"], current * Z0, rtol=rtol)
+        np.testing.assert_allclose(w["current through R_s"], current, rtol=rtol)

@@ -1,0 +1,93 @@
+"""Adaptive Dormand–Prince (scipy's RK45) on a sparse descriptor system that is not stiff.
+
+For ``E w' = A w + B u(t)`` with the differential unknowns first,
+``E = diag(E₁₁, 0)``, the algebraic unknowns are ``z = −A₂₂⁻¹ (A₂₁ x + B₂ u)``
+and ``E₁₁ x' = A₁₁ x + A₁₂ z + B₁ u``: each right-hand side costs one sparse
+LU solve with A₂₂ (factored once per segment) and one with E₁₁.  Steps are taken
+one at a time and the outputs inside each step come from the method's own
+interpolant, so only ``observe @ w`` at the output times is kept (memory linear
+in the system, not n × output rows).  Knows nothing of circuits.
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import IntegrationError
+from .base import SegmentResult
+
+__all__ = ["SparseRK45"]
+
+
+class SparseRK45:
+    """RK45 on a :class:`circuitode.solvers.descriptor.DescriptorSegment` whose first
+    ``n`` rows are the differential ones; rtol, atol as for solve_ivp."""
+
+    name = "rk45"
+    fixed_step = False
+    stiff = False
+    sparse = True
+
+    def __init__(self, *, rtol: float = 1e-6, atol: float = 1e-9, step: float | None = None, **_ignored):
+        self.rtol, self.atol, self.step = float(rtol), float(atol), step
+
+    def solve(self, segment, t_out, observe=None, events=()) -> SegmentResult:
+        import scipy.sparse as sp
+        from scipy.integrate import RK45
+        from scipy.sparse.linalg import splu
+
+        if events:
+            raise IntegrationError("the sparse rk45 path does not locate threshold events; "
+                                   "use method exact, radau or bdf for threshold switches")
+        algebraic = segment.algebraic
+        n = int(np.count_nonzero(~algebraic))
+        if np.any(algebraic[:n]):
+            raise IntegrationError("the differential rows must come first for the sparse rk45 path")
+        A, B, E = segment.A.tocsc(), segment.B.tocsc(), segment.E.tocsc()
+        A11, A12, A21, A22 = A[:n, :n], A[:n, n:], A[n:, :n], A[n:, n:]
+        B1, B2 = B[:n], B[n:]
+        E11 = splu(sp.csc_matrix(E[:n, :n]))
+        G = splu(sp.csc_matrix(A22)) if A.shape[0] > n else None
+        m = segment.n_inputs
+
+        def algebraic_part(x, u):  # x (n, k), u (m, k) → z (K, k)
+            if G is None:
+                return np.zeros((0, x.shape[1]))
+            rhs = A21 @ x + (B2 @ u if m else 0.0)
+            return -G.solve(np.asarray(rhs, dtype=float))
+
+        def rate(t, x):
+            u = segment.input_values(np.array([t])).T
+            z = algebraic_part(x[:, None], u)[:, 0]
+            total = A11 @ x + A12 @ z + ((B1 @ u)[:, 0] if m else 0.0)
+            return E11.solve(np.asarray(total, dtype=float))
+
+        t_out = np.clip(np.asarray(t_out, dtype=float).reshape(-1), segment.t0, segment.t1)
+        rows = segment.A.shape[0] if observe is None else observe.shape[0]
+        out = np.empty((t_out.size, rows))
+
+        def record(which, x_cols, t):
+            u = segment.input_values(t).T
+            w = np.vstack([x_cols, algebraic_part(x_cols, u)])
+            out[which] = (w if observe is None else observe @ w).T
+
+        span = segment.t1 - segment.t0
+        solver = RK45(rate, segment.t0, segment.w0[:n].copy(), segment.t1, rtol=self.rtol,
+                      atol=self.atol, max_step=min(self.step, span) if self.step else span)
+        done = np.searchsorted(t_out, segment.t0, side="right")
+        if done:
+            record(slice(0, done), np.repeat(segment.w0[:n, None], done, axis=1), t_out[:done])
+        steps = 0
+        while solver.status == "running":
+            message = solver.step()
+            steps += 1
+            if solver.status == "failed":
+                raise IntegrationError(f"method rk45 failed on [{segment.t0:g}, {segment.t1:g}] s: {message}")
+            upto = np.searchsorted(t_out, solver.t, side="right")
+            if upto > done:
+                record(slice(done, upto), solver.dense_output()(t_out[done:upto]), t_out[done:upto])
+                done = upto
+        x_end = solver.y
+        w_end = np.concatenate([x_end, algebraic_part(x_end[:, None], segment.input_values(
+            np.array([segment.t1])).T)[:, 0]])
+        counters = {"steps": steps, "rhs_evaluations": int(solver.nfev)}
+        return SegmentResult(t_out.copy(), out, None, None, w_end, counters)
