@@ -18,7 +18,7 @@ import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
 from ..errors import CircuitodeError, IntegrationError
-from .base import SegmentResult
+from .base import SegmentResult, generator_matrices
 from .rk4 import rk4_step_grid
 
 __all__ = ["DescriptorSegment", "DescriptorIntegrator"]
@@ -66,6 +66,23 @@ class DescriptorSegment:
     @property
     def n_inputs(self) -> int:
         return self.B.shape[1]
+
+    def held_inputs(self) -> np.ndarray | None:
+        """u (m,) when every input is constant on the segment (its generator has F = 0),
+        else None; inputs without generators count as varying."""
+        generators = getattr(self.inputs, "generators", None)
+        if self.n_inputs == 0:
+            return np.zeros(0)
+        if generators is None:
+            return None
+        try:
+            gen = generators(self.t0, self.t1)
+        except (ValueError, NotImplementedError):
+            return None
+        if gen is None:
+            return None
+        F, z0, H = generator_matrices(gen, self.n_inputs)
+        return H @ z0 if not np.any(F) else None
 
     def input_values(self, t: np.ndarray) -> np.ndarray:
         """Inputs (nt, m) at times t, nudged inside the segment as in LinearSegment."""

@@ -27,6 +27,10 @@ class SparseRK45:
     stiff = False
     sparse = True
 
+    #: The reduced matrix E₁₁⁻¹(A₁₁ − A₁₂ A₂₂⁻¹ A₂₁) is formed (sparse) only when
+    #: n · K stays below this: forming it costs one solve per state, O(n · K) work.
+    budget = 5e7
+
     def __init__(self, *, rtol: float = 1e-6, atol: float = 1e-9, step: float | None = None, **_ignored):
         self.rtol, self.atol, self.step = float(rtol), float(atol), step
 
@@ -45,9 +49,15 @@ class SparseRK45:
         A, B, E = segment.A.tocsc(), segment.B.tocsc(), segment.E.tocsc()
         A11, A12, A21, A22 = A[:n, :n], A[:n, n:], A[n:, :n], A[n:, n:]
         B1, B2 = B[:n], B[n:]
-        E11 = splu(sp.csc_matrix(E[:n, :n]))
+        E11 = sp.csc_matrix(E[:n, :n])
         G = splu(sp.csc_matrix(A22)) if A.shape[0] > n else None
         m = segment.n_inputs
+        if E11.nnz == np.count_nonzero(E11.diagonal()):  # diagonal (no coupled inductors)
+            scale = sp.diags(1.0 / E11.diagonal())
+            solve_e = scale.__matmul__
+        else:
+            lu_e = splu(E11)
+            scale, solve_e = None, (lambda v: lu_e.solve(np.asarray(v, dtype=float)))
 
         def algebraic_part(x, u):  # x (n, k), u (m, k) → z (K, k)
             if G is None:
@@ -55,11 +65,21 @@ class SparseRK45:
             rhs = A21 @ x + (B2 @ u if m else 0.0)
             return -G.solve(np.asarray(rhs, dtype=float))
 
-        def rate(t, x):
-            u = segment.input_values(np.array([t])).T
-            z = algebraic_part(x[:, None], u)[:, 0]
-            total = A11 @ x + A12 @ z + ((B1 @ u)[:, 0] if m else 0.0)
-            return E11.solve(np.asarray(total, dtype=float))
+        reduced = _reduced_matrix(A11, A12, A21, G, scale, self.budget)
+        held = segment.held_inputs() if m else np.zeros(0)
+        if reduced is not None and held is not None:  # x' = A_r x + b: one sparse product per call
+            b = solve_e(B1 @ held + A12 @ algebraic_part(np.zeros((n, 1)), held[:, None])[:, 0]) if m \
+                else np.zeros(n)
+            b = np.asarray(b, dtype=float).reshape(-1)
+
+            def rate(t, x):
+                return reduced @ x + b
+        else:
+            def rate(t, x):
+                u = held[:, None] if held is not None else segment.input_values(np.array([t])).T
+                z = algebraic_part(x[:, None], u)[:, 0]
+                total = A11 @ x + A12 @ z + ((B1 @ u)[:, 0] if m else 0.0)
+                return np.asarray(solve_e(total), dtype=float).reshape(-1)
 
         t_out = np.clip(np.asarray(t_out, dtype=float).reshape(-1), segment.t0, segment.t1)
         rows = segment.A.shape[0] if observe is None else observe.shape[0]
@@ -91,3 +111,22 @@ class SparseRK45:
             np.array([segment.t1])).T)[:, 0]])
         counters = {"steps": steps, "rhs_evaluations": int(solver.nfev)}
         return SegmentResult(t_out.copy(), out, None, None, w_end, counters)
+
+
+def _reduced_matrix(A11, A12, A21, G, scale, budget: float, block: int = 256):
+    """Sparse E₁₁⁻¹(A₁₁ − A₁₂ G⁻¹ A₂₁) (n × n), from solves of ``block`` columns at a time,
+    or None when E₁₁ is not diagonal or n · K exceeds ``budget`` (the operator is used then)."""
+    import scipy.sparse as sp
+
+    n = A11.shape[0]
+    if scale is None or (G is not None and n * A21.shape[0] > budget):
+        return None
+    if G is None:
+        return sp.csr_matrix(scale @ A11)
+    A21 = sp.csc_matrix(A21)
+    parts = []
+    for start in range(0, n, block):
+        cols = A21[:, start:start + block].toarray()
+        parts.append(sp.csc_matrix(A12 @ G.solve(cols)))
+    coupling = sp.hstack(parts, format="csc") if parts else sp.csc_matrix((n, 0))
+    return sp.csr_matrix(scale @ (A11 - coupling))
