@@ -116,9 +116,15 @@ def test_auto_takes_the_sparse_path_above_the_size_and_says_why():
     assert w.method == "trbdf2" and w.method_reason.startswith("trbdf2: stiff")
 
 
-def test_sparse_rk45_against_dense_exact():
+@pytest.mark.parametrize("reduced", [True, False])
+def test_sparse_rk45_against_dense_exact(reduced, monkeypatch):
     # auto's rk45 on the sparse path (600 states, 2 ms: the front passes 200 sections)
-    # against the dense exact method: within the global error of rtol 1e-6.
+    # against the dense exact method: within the global error of rtol 1e-6; both with
+    # the reduced sparse matrix and (budget 0) with the operator that never forms it.
+    from circuitode.solvers.sparse_explicit import SparseRK45
+
+    if not reduced:
+        monkeypatch.setattr(SparseRK45, "budget", 0)
     text = ladder(300)
     w = co.simulate(text)
     assert w.method == "rk45"
