@@ -51,16 +51,25 @@ def sparse_choice(circuit, method: str) -> tuple[str, str] | None:
     return None
 
 
-def _auto_method(fastest: float | None, until: float, rows: int, size: int, n: int) -> tuple[str, str]:
+def _auto_method(fastest: float | None, until: float, rows: int, size: int, n: int,
+                 budget: float) -> tuple[str, str]:
     """rk45 or trbdf2 by estimated cost, in sparse solves, and the sentence that says why.
 
     rk45's step is held by stability to about 3/|λ|max (Dormand–Prince reaches about
     −3.3 on the negative real axis, from memory): about until·|λ|max/3 steps of 6 solves
     of the K = size − n algebraic unknowns.  TR-BDF2 takes at least one step per output
-    row, 2 solves of all ``size`` unknowns each.
+    row, 2 solves of all ``size`` unknowns each.  rk45 is only considered while its
+    reduced sparse matrix can be formed (n·K ≤ ``budget``): without it every right-hand
+    side is a sparse solve, and on the 40,000-state ladder of bench/ladder_scaling.py that
+    was slower than TR-BDF2 (47 s against 28 s).
     """
     if fastest is None:
         return "trbdf2", "trbdf2: the fastest rate could not be estimated, so an L-stable method"
+    if n * (size - n) > budget:
+        return "trbdf2", (f"trbdf2: too large to form the reduced matrix an explicit method needs "
+                          f"({n} states × {size - n} nodal unknowns > {budget:.0e}); L-stable, order 2, "
+                          f"fixed step = the output step (fastest |λ| ≈ {fastest:.3g} 1/s, sparse "
+                          "Arnoldi estimate, ~1 %)")
     explicit = 2.0 * until * fastest * (size - n)
     implicit = 2.0 * rows * size
     figures = (f"fastest |λ| ≈ {fastest:.3g} 1/s (sparse Arnoldi estimate, ~1 %), "
@@ -103,7 +112,7 @@ def simulate_sparse(circuit, settings, name: str, reason: str, probes=None, rtol
     n, slack = desc.n_states, 1e-12 * s.until
     fastest = largest_rate(desc.E, desc.A, n, tol=1e-2, maxiter=50) if n else 0.0
     if name == "auto":
-        name, why = _auto_method(fastest, s.until, grid.size, desc.size, n)
+        name, why = _auto_method(fastest, s.until, grid.size, desc.size, n, SparseRK45.budget)
         reason = f"{why}; {reason} (rate estimated in the configuration at the start)"
     elif fastest is not None:
         reason += f"; fastest |λ| ≈ {fastest:.3g} 1/s at the start (sparse Arnoldi estimate, ~1 %)"

@@ -116,6 +116,14 @@ def test_auto_takes_the_sparse_path_above_the_size_and_says_why():
     assert w.method == "trbdf2" and w.method_reason.startswith("trbdf2: stiff")
 
 
+def test_auto_takes_trbdf2_when_the_reduced_matrix_would_be_too_large(monkeypatch):
+    from circuitode.solvers.sparse_explicit import SparseRK45
+
+    monkeypatch.setattr(SparseRK45, "budget", 1e5)  # 502 states × 753 nodal unknowns exceed it
+    w = co.simulate(ladder(SPARSE_STATES // 2 + 1, until="0.1 ms"))
+    assert w.method == "trbdf2" and "too large to form the reduced matrix" in w.method_reason
+
+
 @pytest.mark.parametrize("reduced", [True, False])
 def test_sparse_rk45_against_dense_exact(reduced, monkeypatch):
     # auto's rk45 on the sparse path (600 states, 2 ms: the front passes 200 sections)

@@ -85,10 +85,28 @@ class SparseRK45:
         rows = segment.A.shape[0] if observe is None else observe.shape[0]
         out = np.empty((t_out.size, rows))
 
-        def record(which, x_cols, t):
-            u = segment.input_values(t).T
-            w = np.vstack([x_cols, algebraic_part(x_cols, u)])
-            out[which] = (w if observe is None else observe @ w).T
+        if observe is not None and G is not None:
+            # observe @ [x; z] with z = −G⁻¹(A₂₁ x + B₂ u) is (O_x − Y A₂₁) x − Y B₂ u with
+            # Y = O_z G⁻¹: one transposed solve per observed row that touches z, not one per step
+            observe = sp.csr_matrix(observe)
+            O_x, O_z = observe[:, :n], observe[:, n:]
+            touched = np.unique(O_z.tocoo().row)
+            Y = np.zeros((observe.shape[0], O_z.shape[1]))
+            if touched.size:
+                Y[touched] = G.solve(np.asarray(O_z[touched].toarray().T, dtype=float), trans="T").T
+            obs_x = O_x - sp.csr_matrix(Y) @ A21
+            obs_u = -(sp.csr_matrix(Y) @ B2).toarray() if m else np.zeros((observe.shape[0], 0))
+
+            def record(which, x_cols, t):
+                y = obs_x @ x_cols
+                if m:
+                    y = y + obs_u @ segment.input_values(t).T
+                out[which] = np.asarray(y).T
+        else:
+            def record(which, x_cols, t):
+                u = segment.input_values(t).T
+                w = np.vstack([x_cols, algebraic_part(x_cols, u)])
+                out[which] = (w if observe is None else observe @ w).T
 
         span = segment.t1 - segment.t0
         solver = RK45(rate, segment.t0, segment.w0[:n].copy(), segment.t1, rtol=self.rtol,
