@@ -165,7 +165,7 @@ def build_parser() -> argparse.ArgumentParser:
     p = sub.add_parser("run", help="simulate the transient, measure it, check limits, write a run folder",
                        epilog=COMMAND_EXAMPLES["run"], formatter_class=argparse.RawDescriptionHelpFormatter)
     p.add_argument("netlist", help="a .cnet file")
-    p.add_argument("--method", help="integrator: auto, exact, rk4, rk45, dop853, radau, bdf")
+    p.add_argument("--method", help="integrator: auto, exact, rk4, rk45, dop853, radau, bdf, trapezoidal, trbdf2")
     p.add_argument("--step", type=_quantity("s"), help="output (and rk4) step, e.g. 5us")
     p.add_argument("--until", type=_quantity("s"), help="end of the window, e.g. 60ms")
     p.add_argument("--set", dest="overrides", action="append", type=_assignment, default=[],

@@ -214,8 +214,9 @@ def test_transient_settings():
 
 def test_method_names_match_the_solvers():
     from circuitode.solvers import METHODS
+    from circuitode.transient.sparse_driver import SPARSE_METHODS
 
-    assert set(METHOD_NAMES) == set(METHODS) | {"auto"}
+    assert set(METHOD_NAMES) == set(METHODS) | set(SPARSE_METHODS) | {"auto"}
 
 
 def test_record_all_probe_kinds_without_repeats():

@@ -18,6 +18,7 @@ from typing import Any, Mapping
 from ..model.circuit import Circuit
 from ..errors import CircuitodeError, environment_fault
 from ..checks.bounds import check_run_bounds
+from ..transient.sparse_driver import SPARSE_STATES
 from ..output.atomic import StagedFolder
 
 __all__ = ["JobResult", "RUN_FILES", "default_out_dir", "load_any", "run_job"]
@@ -158,7 +159,12 @@ def _measure(result: JobResult, with_modes: bool) -> None:
     waveforms = result.waveforms
     result.figures = summarise(waveforms)
     result.limits = check_requirements(result.circuit.requirements, waveforms)
-    if with_modes:
+    n_states = len(result.circuit.state_names)
+    if with_modes and n_states > SPARSE_STATES:  # the table is a dense O(n³) eig
+        result.problems.append(
+            f"modes not computed: {n_states} states is above {SPARSE_STATES}, and the "
+            "mode table needs every eigenvalue and eigenvector of a dense matrix (O(n³) work)")
+    elif with_modes:
         try:
             from ..analysis.modes import circuit_modes
 

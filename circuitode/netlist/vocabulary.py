@@ -15,7 +15,7 @@ __all__ = ["METHOD_NAMES", "WAVEFORM_FIELDS", "WAVEFORM_CLASSES", "WAVEFORM_WORD
            "ELEMENT_UNITS", "PULSE_EDGE_WORDS", "word_hint", "written_field"]
 
 #: Integrator names a `transient` statement may give (see circuit.Analysis).
-METHOD_NAMES = ("auto", "rk4", "rk45", "dop853", "radau", "bdf", "exact")
+METHOD_NAMES = ("auto", "rk4", "rk45", "dop853", "radau", "bdf", "exact", "trapezoidal", "trbdf2")
 
 #: Waveform kind → written field → (dataclass field, unit role, default or None when required).
 #: Unit roles: "signal" (V or A by source kind), "s", "Hz", "rad", "count".

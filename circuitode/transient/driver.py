@@ -274,6 +274,10 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     if probes is not None and not all(hasattr(p, "label") and hasattr(p, "unit") for p in probes):
         raise CircuitodeError("probes must be probe objects such as NodeVoltage('out') or "
                               "CurrentThrough('R1'), not text")
+    from .sparse_driver import simulate_sparse, sparse_choice  # large circuits: sparse path
+    sparse = sparse_choice(circuit, s.method)
+    if sparse is not None:
+        return simulate_sparse(circuit, s, *sparse, probes=probes, rtol=rtol, atol=atol)
     warnings = _verify(circuit, s.until)
     wanted = recorded_probes(circuit, probes)
     linear = _linear_probes(wanted + diode_probes(circuit))  # diode rows for their events
