@@ -25,6 +25,7 @@ __all__ = [
     "BadValueError",
     "DuplicateNameError",
     "SingularSystemError",
+    "NoSteadyStateError",
     "ImpulsiveSwitchingError",
     "IntegrationError",
     "UnstableStepError",
@@ -184,7 +185,41 @@ class SingularSystemError(CircuitodeError):
     """A linear system that should have one solution has none or many.
 
     Raised with words about the circuit (which loop or cut set) wherever possible.
+    The equation stage says what it knows; a caller that runs after the checks
+    may add their words.
+
+    closed : the switch states of the configuration at fault (one bool per
+        switch, in ``circuit.switches`` order), when known.
+    reasons : the raising stage's own words, one per problem found, when known.
     """
+
+    def __init__(self, message: str, *, closed=None, reasons=()):
+        super().__init__(message)
+        self.closed = None if closed is None else tuple(bool(c) for c in closed)
+        self.reasons = tuple(reasons)
+
+
+class NoSteadyStateError(SingularSystemError):
+    """The DC steady state at the start of a run is not unique, so it cannot be the initial state.
+
+    configuration : words for the switch states (e.g. "with K1 closed").
+    closed, reasons : as :class:`SingularSystemError`; ``reasons`` are the
+        equation stage's words (the nodes with no DC path, the loops it found).
+    """
+
+    def __init__(self, configuration: str, closed, reasons):
+        self.configuration = configuration
+        message = (f"cannot start from the DC steady state of the circuit {configuration}: "
+                   + ("; ".join(reasons) or "the state matrix A is singular"))
+        super().__init__(message, closed=closed, reasons=reasons)
+
+    def __reduce__(self):  # the message is built from the fields: rebuild from them
+        return type(self), (self.configuration, self.closed, self.reasons)
+
+    def explained(self, words: str) -> "NoSteadyStateError":
+        """The same refusal worded by ``words`` (the checks' account of the loops and
+        cut sets at fault) instead of the equation stage's own; itself when ``words`` is empty."""
+        return self if not words else NoSteadyStateError(self.configuration, self.closed, (words,))
 
 
 class ImpulsiveSwitchingError(CircuitodeError):

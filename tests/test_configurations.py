@@ -128,16 +128,6 @@ def test_configurations_match_the_schedules_sampled_in_time(controls):
         assert tuple(_state_at(ctl, first + 1e-9) for ctl in controls) == closed
 
 
-def test_old_import_path_still_works():
-    # topology re-exports the configurations for the modules and tests that import them from there
-    import circuitode.model.configurations as configurations
-    import circuitode.checks.topology as topology
-
-    assert topology.reachable_configurations is configurations.reachable_configurations
-    assert topology.Configuration is configurations.Configuration
-    assert topology.MAX_CONFIGURATIONS == configurations.MAX_CONFIGURATIONS
-
-
 def test_docstring_examples_run():
     # the examples in the module's docstrings are part of its documentation; they must hold
     import doctest

@@ -60,12 +60,9 @@ from circuitode.errors import (
     Where,
 )
 from circuitode.model.sources import Dc, Step
-from circuitode.checks.topology import (
-    diagnose,
-    explain_singular_dc,
-    reachable_configurations,
-    verify,
-)
+from circuitode.checks.dc import explain_singular_dc
+from circuitode.checks.topology import diagnose, verify
+from circuitode.model.configurations import reachable_configurations
 
 
 def circuit(*elements, couplings=(), ground="gnd", until=None):

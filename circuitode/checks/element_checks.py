@@ -2,9 +2,9 @@
 
 Each check looks at elements one by one (or a coupling and the inductors it
 names) rather than at the wiring, returns a list of
-:class:`~circuitode.errors.Diagnostic` and raises nothing.  The graph checks,
-:func:`~circuitode.checks.topology.diagnose` and :func:`~circuitode.checks.topology.verify`
-are in :mod:`circuitode.checks.topology`, which re-exports these.
+:class:`~circuitode.errors.Diagnostic` and raises nothing.  The graph checks are
+in :mod:`circuitode.checks.nodes` and :mod:`circuitode.checks.loops`;
+:func:`~circuitode.checks.topology.diagnose` runs them all.
 """
 from __future__ import annotations
 

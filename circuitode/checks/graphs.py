@@ -5,7 +5,7 @@ configuration -- which elements are shorts or opens, the fundamental loops of a
 set of elements, the node groups reached only through a given kind of element,
 the parts with no path to ground.  Answers are element indices (positions in
 ``circuit.elements``) and node names; no verdicts and no messages, which are
-:mod:`circuitode.checks.topology`'s job.
+the job of :mod:`circuitode.checks.nodes`, :mod:`circuitode.checks.loops` and :mod:`circuitode.checks.dc`.
 """
 from __future__ import annotations
 

@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from typing import Sequence
 
 from ..model.circuit import Capacitor, Circuit, CurrentSource, Diode, Inductor, Resistor, Switch
-from ..errors import CircuitodeError, SingularSystemError, TopologyError
+from ..errors import CircuitodeError, SingularSystemError
 
 __all__ = [
     "StateSpaceRequestError",
@@ -280,37 +280,13 @@ def _floating_words(floating: list[str], dc: bool) -> str:
     )
 
 
-def _topology_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
-    """The topology module's error diagnostics, when that module offers ``diagnose``."""
-    try:
-        from ..checks import topology
-    except ImportError:
-        return ""
-    diagnose = getattr(topology, "diagnose", None)
-    if diagnose is None:
-        return ""
-    try:
-        found = diagnose(circuit)
-    except TopologyError as exc:
-        found = exc.diagnostics
-    except Exception:  # diagnostics are only extra words; never mask the real error
-        return ""
-    errors = [d for d in (found or ()) if getattr(d, "severity", "error") == "error"]
-    return "\n".join(str(d) for d in errors)
-
-
 def build_layout(circuit: Circuit, closed: tuple[bool, ...]) -> Layout:
     """Number the unknowns of the companion network, or raise SingularSystemError in words."""
     kept, conductors, problems, tied, held, cut_off = _structure(circuit, closed, dc=False, constrained=True)
     if problems:
-        words = _topology_words(circuit, closed)
-        message = (
-            f"the circuit {describe_configuration(circuit, closed)} has no unique solution: "
-            + "; ".join(problems)
-        )
-        if words:
-            message += "\nthe topology checks found:\n" + words
-        raise SingularSystemError(message)
+        raise SingularSystemError(
+            f"the circuit {describe_configuration(circuit, closed)} has no unique solution: " + "; ".join(problems),
+            closed=closed, reasons=problems)
     ground = circuit.ground
     node = {n: i for i, n in enumerate(n for n in circuit.nodes if n != ground)}
     index = dict(node, **{ground: -1})

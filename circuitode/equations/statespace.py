@@ -46,7 +46,7 @@ from .companion import (
     check_structure,
     describe_configuration,
 )
-from ..errors import SingularSystemError
+from ..errors import NoSteadyStateError
 from .constraints import solve_constrained
 from .mna import (SPARSE_THRESHOLD, VARIABLE_FIELDS, Samples, dense_system, inductance_matrix, probe_rows,
                   solve_companion)
@@ -311,22 +311,6 @@ class StateSpaceCache:
         return len(self._cache)
 
 
-def _dc_words(circuit: Circuit, closed: tuple[bool, ...]) -> str:
-    """Why the DC steady state is undetermined: topology's words if it has them, else ours."""
-    try:
-        from ..checks import topology
-
-        explain = getattr(topology, "explain_singular_dc", None)
-        if explain is not None:
-            words = explain(circuit, closed)
-            if words:
-                return str(words)
-    except Exception:  # extra words only; fall back to our own
-        pass
-    _, _, problems = check_structure(circuit, closed, dc=True)
-    return "; ".join(problems) or "the state matrix A is singular"
-
-
 def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None) -> np.ndarray:
     """The state at the start of a run.
 
@@ -341,6 +325,12 @@ def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None)
     Returns
     -------
     x0 : (n,) for a single circuit, (N, n) for a batch (V for capacitors, A for inductors).
+
+    Raises
+    ------
+    NoSteadyStateError : "steady" where the DC network has no unique solution,
+        worded with what this stage sees (nodes with no DC path, loops);
+        :func:`circuitode.checks.dc.explain_singular_dc` words it by element.
     """
     n, N = ss_at_start.n_states, ss_at_start.batch_size
     shape = (n,) if N is None else (N, n)
@@ -352,11 +342,8 @@ def initial_state(circuit: Circuit, mode: str, ss_at_start: StateSpace, u0=None)
     if mode != "steady":
         raise StateSpaceRequestError(f"unknown initial state {mode!r}; choose 'rest', 'given' or 'steady'")
     _, _, problems = check_structure(circuit, ss_at_start.closed, dc=True)
-    if problems:
-        raise SingularSystemError(
-            f"cannot start from the DC steady state of the circuit "
-            f"{describe_configuration(circuit, ss_at_start.closed)}: "
-            + _dc_words(circuit, ss_at_start.closed))
+    if problems:  # our own words; a caller that ran the checks may word it better (checks.dc)
+        raise NoSteadyStateError(describe_configuration(circuit, ss_at_start.closed), ss_at_start.closed, problems)
     m = ss_at_start.n_inputs
     u = np.zeros(m) if u0 is None else np.asarray(u0, dtype=float)
     if u.shape[-1:] != (m,) or (N is None and u.ndim > 1):

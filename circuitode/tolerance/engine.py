@@ -35,8 +35,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from ..checks.dc import explain_singular_dc
 from ..model.circuit import Circuit, CurrentThrough, Diode, PowerIn, ThresholdRule, VoltageAcross
-from ..errors import CircuitodeError
+from ..errors import CircuitodeError, NoSteadyStateError
 from ..model.source_batch import SourceBatch
 from ..model.sources import SourceBank
 from ..equations.statespace import VARIABLE_FIELDS
@@ -204,7 +205,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     note(ss0)
     mode = circuit.analysis.initial if circuit.analysis is not None else "given"
     u_before = bank.values(-np.finfo(float).tiny) if m else np.zeros(0)  # (m,) or (N, m)
-    x = np.asarray(initial_state(circuit, mode, ss0, np.broadcast_to(u_before, (N, m))), dtype=float)
+    try:
+        x = np.asarray(initial_state(circuit, mode, ss0, np.broadcast_to(u_before, (N, m))), dtype=float)
+    except NoSteadyStateError as exc:  # worded by the checks: the loops and cut sets at fault
+        raise exc.explained(explain_singular_dc(circuit, exc.closed)) from None
     x = np.where(ok[:, None], x, 0.0)
     n = x.shape[1]
     x = _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, 0.0, ok, problems,

@@ -24,7 +24,7 @@ import numpy as np
 from ..model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from ..model.configurations import reachable_configurations
-from ..errors import CircuitodeError
+from ..errors import CircuitodeError, NoSteadyStateError
 from ..notebook import WaveformsView
 from ..solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from ..solvers.explicit_guard import check_explicit_work
@@ -32,6 +32,7 @@ from ..model.sources import SourceBank
 from ..equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from ..equations.entry import enter
 from .commutation import Commutation, diode_probes
+from ..checks.dc import explain_singular_dc
 from ..checks.topology import verify
 from .carried import carried_by_run
 from .settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
@@ -167,6 +168,15 @@ def _verify(circuit: Circuit, until: float) -> tuple[str, ...]:
     return tuple(str(d) for d in verify(circuit, until) if d.severity != "error")
 
 
+def _initial_state(circuit: Circuit, mode: str, ss0, u_before) -> np.ndarray:
+    """:func:`~circuitode.equations.statespace.initial_state`, a refused DC steady state
+    worded by the checks (the loops and cut sets at fault, by element)."""
+    try:
+        return initial_state(circuit, mode, ss0, u_before)
+    except NoSteadyStateError as exc:
+        raise exc.explained(explain_singular_dc(circuit, exc.closed)) from None
+
+
 def _eigenvalue_sets(cache: StateSpaceCache, configurations) -> list[tuple[tuple[bool, ...], np.ndarray]]:
     """Eigenvalues of A per configuration; configurations that cannot be assembled are
     left out (they raise, with their own words, if the run ever reaches them), except
@@ -299,7 +309,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
 
     # -- initial state ---------------------------------------------------
     u_before = bank.values(np.array([-np.finfo(float).tiny]))[0] if bank.m else np.zeros(0)
-    x = np.asarray(initial_state(circuit, s.initial, ss0, u_before), dtype=float)
+    x = np.asarray(_initial_state(circuit, s.initial, ss0, u_before), dtype=float)
     x = enter(circuit, ss0, x, 0.0, f"the {s.initial} initial state {describe_configuration(circuit, start)}")
 
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
