@@ -25,7 +25,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from circuitode.analysis.measure import measure  # noqa: E402
 from circuitode.netlist import loads  # noqa: E402
-from circuitode.model.sources import SourceBank  # noqa: E402
+from circuitode.model import SourceBank  # noqa: E402
 from circuitode.equations.statespace import assemble  # noqa: E402
 from circuitode.tolerance import run_batch  # noqa: E402
 from circuitode.tolerance.batch import _element_values, batch_figure_keys  # noqa: E402

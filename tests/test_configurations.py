@@ -13,7 +13,7 @@ import math
 
 from hypothesis import given, settings, strategies as st
 
-from circuitode.model.circuit import (
+from circuitode.model import (
     Analysis,
     Capacitor,
     Circuit,
@@ -26,7 +26,7 @@ from circuitode.model.circuit import (
     VoltageSource,
 )
 from circuitode.model.configurations import MAX_CONFIGURATIONS, reachable_configurations
-from circuitode.model.sources import Dc
+from circuitode.model import Dc
 from circuitode.checks.topology import diagnose, verify
 
 

@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 from scipy.optimize import brentq
 
 from circuitode.errors import CircuitodeError
-from circuitode.model.circuit import (
+from circuitode.model import (
     Analysis,
     Capacitor,
     Circuit,
@@ -26,7 +26,7 @@ from circuitode.model.circuit import (
     VoltageAcross,
     VoltageSource,
 )
-from circuitode.model.sources import Dc, Sine
+from circuitode.model import Dc, Sine
 from circuitode.netlist import loads
 from circuitode.transient import simulate
 

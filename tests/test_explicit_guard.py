@@ -5,8 +5,8 @@ import pytest
 
 import circuitode.solvers.explicit_guard as guard
 from circuitode.errors import UnstableStepError
-from circuitode.model.circuit import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
-from circuitode.model.sources import Dc
+from circuitode.model import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
+from circuitode.model import Dc
 from circuitode.transient import simulate
 
 

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from circuitode.errors import CircuitodeError, NetlistError
-from circuitode.model.circuit import HysteresisRule
+from circuitode.model import HysteresisRule
 from circuitode.netlist import loads
 from circuitode.transient import simulate
 
@@ -65,7 +65,7 @@ def test_batch_with_hysteresis_equals_single_runs():
     # closes and opens at instants that depend on R1); the batch equals single runs.
     import dataclasses
 
-    from circuitode.model.circuit import CurrentThrough, NodeVoltage
+    from circuitode.model import CurrentThrough, NodeVoltage
     from circuitode.tolerance.engine import simulate_chunk
 
     base = loads(DUMP)

@@ -11,9 +11,9 @@ from scipy.integrate import quad_vec
 from scipy.linalg import expm
 
 from circuitode.analysis.measure import summarise
-from circuitode.model.circuit import (Capacitor, Circuit, CurrentThrough, Inductor, NodeVoltage,
+from circuitode.model import (Capacitor, Circuit, CurrentThrough, Inductor, NodeVoltage,
                                       PowerIn, Resistor, VoltageSource)
-from circuitode.model.sources import Dc, PulseTrain
+from circuitode.model import Dc, PulseTrain
 from circuitode.solvers.integrals import output_moments
 from circuitode.transient import simulate
 

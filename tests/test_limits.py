@@ -6,7 +6,7 @@ from types import SimpleNamespace
 import numpy as np
 import pytest
 
-from circuitode.model.circuit import CurrentThrough, NodeVoltage, PowerIn, Requirement
+from circuitode.model import CurrentThrough, NodeVoltage, PowerIn, Requirement
 from circuitode.errors import CircuitodeError
 from circuitode.analysis.limits import (
     LimitError,

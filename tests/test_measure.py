@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.optimize import brentq
 
-from circuitode.model.circuit import FIGURES
+from circuitode.model import FIGURES
 from circuitode.errors import CircuitodeError
 from circuitode.analysis.measure import MeasurementError
 

@@ -15,9 +15,9 @@ import math
 import numpy as np
 import pytest
 
-from circuitode.model.circuit import (Capacitor, Circuit, Coupling, CurrentThrough, Inductor,
+from circuitode.model import (Capacitor, Circuit, Coupling, CurrentThrough, Inductor,
                                       NodeVoltage, Resistor, Switch, ThresholdRule, VoltageSource)
-from circuitode.model.sources import Dc
+from circuitode.model import Dc
 from circuitode.solvers.scipy_ivp import ROW_ERROR_FACTOR
 from circuitode.transient import simulate
 

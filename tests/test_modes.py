@@ -287,11 +287,11 @@ def test_circuit_modes_for_each_switch_configuration():
     # bypassed by K_main at 2 ms, 100 µH cable inductance, 1 mF link capacitor.
     # Each configuration is a series RLC: ζ = (R/2)√(C/L), ω0 = 1/√(LC)
     # (Nilsson & Riedel ch. 8) with R = R_int + R_pre before the bypass, R_int after.
-    from circuitode.model.circuit import (
+    from circuitode.model import (
         Capacitor, Circuit, Inductor, Resistor, Switch, TimedSchedule, VoltageSource,
     )
     from circuitode.analysis.modes import circuit_modes
-    from circuitode.model.sources import Dc
+    from circuitode.model import Dc
 
     R_int, R_pre, L, C = 0.05, 0.2, 100e-6, 1e-3
     circuit = Circuit(
@@ -325,12 +325,12 @@ def test_simulated_waveform_zeta_matches_modal_zeta_in_each_configuration():
     # at 1 ms while the link still rings.  Each configuration is one series-RLC mode, so
     # the link voltage rings about 48 V with that mode's ζ and ωd; the logarithmic
     # decrement on the waveform (Ogata ch. 5) must agree with the modal ζ within 2 %.
-    from circuitode.model.circuit import (
+    from circuitode.model import (
         Analysis, Capacitor, Circuit, Inductor, NodeVoltage, Resistor, Switch, TimedSchedule,
         VoltageSource,
     )
     from circuitode.analysis.modes import circuit_modes
-    from circuitode.model.sources import Dc
+    from circuitode.model import Dc
     from circuitode.transient import simulate
 
     R_int, R_pre, L, C = 0.05, 0.2, 100e-6, 1e-3

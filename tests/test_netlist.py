@@ -7,8 +7,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from circuitode.model import circuit as cm
-from circuitode.model import sources as src
+from circuitode import model as cm
+from circuitode import model as src
 from circuitode.errors import NetlistError
 from circuitode.netlist import load, loads
 from circuitode.netlist.build import FIGURE_WORDS, METHOD_NAMES

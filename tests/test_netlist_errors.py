@@ -8,7 +8,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from circuitode.model.circuit import Circuit
+from circuitode.model import Circuit
 from circuitode.errors import NetlistError
 from circuitode.netlist import loads
 from circuitode.netlist.parse import _parser

@@ -12,7 +12,7 @@ import scipy.signal
 from circuitode.analysis.response import ResponseError, circuit_response, transfer
 from circuitode.cli import main
 from circuitode.equations.statespace import assemble
-from circuitode.model.circuit import CurrentThrough, NodeVoltage
+from circuitode.model import CurrentThrough, NodeVoltage
 from circuitode.netlist import loads
 from circuitode.netlist.probe_words import ProbeWordsError, probe_from_words
 

@@ -17,7 +17,7 @@ from circuitode.solvers import (METHODS, EXACT_MAX_STATES, LinearEvent, LinearSe
                                 check_rk4_step, choose_method, get_integrator,
                                 rk4_stability_limit, stiffness_ratio)
 from circuitode.solvers.scipy_ivp import jacobian_for
-from circuitode.model.sources import LinearGenerator
+from circuitode.model import LinearGenerator
 
 ALL = sorted(METHODS)
 # Relative error allowed per method at the settings of `integrator()` below.

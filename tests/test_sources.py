@@ -17,7 +17,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.linalg import expm
 
-from circuitode.model.sources import (
+from circuitode.model import (
     Dc,
     Exponential,
     LinearGenerator,
@@ -205,7 +205,7 @@ def test_empty_bank():
 ])
 def test_nonsense_fields_raise_our_error(make, words):
     from circuitode.errors import CircuitodeError
-    from circuitode.model.sources import WaveformError
+    from circuitode.model import WaveformError
 
     with pytest.raises(WaveformError, match=words) as err:
         make()
@@ -264,7 +264,7 @@ def test_source_batch_equals_one_bank_per_sample():
         gen, ref = batch.generators(t0, t1), single.generators(t0, t1)
         np.testing.assert_allclose(gen.z0[i], ref.z0, rtol=1e-13, atol=1e-12)
         np.testing.assert_array_equal(gen.F, ref.F)
-    from circuitode.model.sources import WaveformError
+    from circuitode.model import WaveformError
 
     with pytest.raises(WaveformError, match="timing stays common"):
         SourceBatch(bank, {("hum", "waveform.frequency"): np.ones(N)})

@@ -16,8 +16,8 @@ import pytest
 from circuitode.checks.dc import explain_singular_dc
 from circuitode.errors import NoSteadyStateError, SingularSystemError
 from circuitode.equations.statespace import assemble, initial_state
-from circuitode.model.circuit import Capacitor, Circuit, CurrentSource, Resistor
-from circuitode.model.sources import Dc
+from circuitode.model import Capacitor, Circuit, CurrentSource, Resistor
+from circuitode.model import Dc
 from circuitode.transient import simulate
 
 PACKAGE = Path(__file__).resolve().parents[1] / "circuitode"

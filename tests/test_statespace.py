@@ -15,7 +15,7 @@ import sympy
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from circuitode.model.circuit import (
+from circuitode.model import (
     Capacitor,
     Circuit,
     Coupling,
@@ -32,7 +32,7 @@ from circuitode.model.circuit import (
     VoltageSource,
 )
 from circuitode.errors import BadValueError, CircuitodeError, SingularSystemError
-from circuitode.model.sources import Dc
+from circuitode.model import Dc
 from circuitode.equations.statespace import (
     StateSpaceCache,
     StateSpaceRequestError,

@@ -11,7 +11,7 @@ import pytest
 from circuitode.analysis.modes import circuit_modes
 from circuitode.errors import ImpulsiveSwitchingError, SingularSystemError
 from circuitode.equations.statespace import assemble
-from circuitode.model.circuit import (
+from circuitode.model import (
     Analysis,
     Capacitor,
     Circuit,
@@ -25,7 +25,7 @@ from circuitode.model.circuit import (
     VoltageAcross,
     VoltageSource,
 )
-from circuitode.model.sources import Dc, Step
+from circuitode.model import Dc, Step
 from circuitode.tolerance.engine import simulate_chunk
 from circuitode.transient import simulate
 
@@ -211,7 +211,7 @@ def test_batch_marks_the_sample_that_would_interrupt_a_current():
 def test_batch_threshold_switch_opening_on_a_current_fails_that_sample():
     # [Structural] as the single run refuses it, a batch marks the sample whose threshold
     # switch would interrupt the inductor current as failed, with the same words.
-    from circuitode.model.circuit import ThresholdRule
+    from circuitode.model import ThresholdRule
 
     base = interrupted()
     trip = Switch("K", "b", "c", ThresholdRule(False, CurrentThrough("L1"), True, 10.0))

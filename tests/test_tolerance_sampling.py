@@ -3,7 +3,7 @@ import numpy as np
 import pytest
 from scipy.stats import norm
 
-from circuitode.model.circuit import Circuit, Resistor, Spread
+from circuitode.model import Circuit, Resistor, Spread
 from circuitode.errors import CircuitodeError
 from circuitode.tolerance.sampling import (
     MAX_CORNER_PARAMETERS,

@@ -31,7 +31,7 @@ import pytest
 import sympy
 from hypothesis import assume, given, settings, strategies as st
 
-from circuitode.model.circuit import (
+from circuitode.model import (
     Analysis,
     Capacitor,
     Circuit,
@@ -59,7 +59,7 @@ from circuitode.errors import (
     UnconnectedNodeError,
     Where,
 )
-from circuitode.model.sources import Dc, Step
+from circuitode.model import Dc, Step
 from circuitode.checks.dc import explain_singular_dc
 from circuitode.checks.topology import diagnose, verify
 from circuitode.model.configurations import reachable_configurations

@@ -16,11 +16,11 @@ import scipy.linalg as la
 import scipy.signal as signal
 from scipy.integrate import simpson
 
-from circuitode.model.circuit import (Analysis, Capacitor, Circuit, Coupling, CurrentSource,
+from circuitode.model import (Analysis, Capacitor, Circuit, Coupling, CurrentSource,
                                 CurrentThrough, Inductor, NodeVoltage, PeriodicSchedule, PowerIn,
                                 Resistor, Switch, ThresholdRule, TimedSchedule, VoltageSource)
 from circuitode.errors import CircuitodeError, UnstableStepError
-from circuitode.model.sources import Dc, Ramp, Sine, Step
+from circuitode.model import Dc, Ramp, Sine, Step
 from circuitode.transient import Waveforms, simulate
 
 ALL = ["bdf", "dop853", "exact", "radau", "rk4", "rk45"]

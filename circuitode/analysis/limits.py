@@ -1,6 +1,6 @@
 """Requirements → pass / fail, with the margin by which each limit is met or missed.
 
-A :class:`circuitode.model.circuit.Requirement` limits one figure (see
+A :class:`circuitode.model.run_settings.Requirement` limits one figure (see
 :mod:`circuitode.analysis.measure`) of one probed quantity, e.g. "peak current through R1
 < 2 A".  :func:`check_requirements` measures it on a single run's waveforms;
 :func:`check_requirements_batch` applies the same limits to figure arrays of a

@@ -34,9 +34,9 @@ from scipy.signal import find_peaks
 
 from ..errors import CircuitodeError, SingularSystemError
 from ..equations.statespace import assemble, describe_configuration
-from ..model.circuit import Circuit, CurrentSource, NodeVoltage, CurrentThrough
+from ..model import Circuit, CurrentSource, NodeVoltage, CurrentThrough
 from ..model.configurations import reachable_configurations
-from ..model.sources import Dc
+from ..model import Dc
 
 __all__ = ["CHUNK_ELEMENTS", "ResponseError", "Resonance", "ResponseCurve", "transfer",
            "find_resonances", "frequency_grid", "circuit_response"]
@@ -211,7 +211,7 @@ def _impedance_system(circuit: Circuit, node: str, closed):
     if node not in circuit.nodes or node == circuit.ground:
         raise ResponseError(f"--impedance-at {node!r}: not a node of the circuit other than ground "
                             f"({circuit.ground}); nodes: {', '.join(n for n in circuit.nodes if n != circuit.ground)}")
-    from ..model.circuit import VoltageSource
+    from ..model import VoltageSource
 
     others = tuple(e for e in circuit.elements if e.name != _TEST_SOURCE)
     try:  # inject 1 A from ground into the node: Z = V(node) / I

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from typing import Iterable, Sequence
 
-from ..model.circuit import Circuit, Switch
+from ..model import Circuit, Switch
 from ..model.configurations import Configuration, _list, reachable_configurations
 
 

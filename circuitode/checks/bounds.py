@@ -19,8 +19,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from ..errors import CircuitodeError
-from ..model import sources as src
-from ..model.circuit import Circuit, PeriodicSchedule, TimedSchedule
+from .. import model as src
+from ..model import Circuit, PeriodicSchedule, TimedSchedule
 from ..netlist.limits import LARGE_FACTOR, large_allowed
 
 __all__ = ["WorkLimits", "LIMITS", "check_run_bounds", "check_batch_bounds", "expected_events",

@@ -8,7 +8,7 @@ from __future__ import annotations
 from typing import Sequence
 
 from ..errors import CircuitodeError
-from ..model.circuit import Capacitor, Circuit, CurrentSource, Inductor, Switch
+from ..model import Capacitor, Circuit, CurrentSource, Inductor, Switch
 from ..model.configurations import _list
 from ._words import _names, _nodes_label
 from .graphs import floating_nodes, fundamental_loops, is_open, isolated_groups, switch_states

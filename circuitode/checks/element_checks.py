@@ -13,7 +13,7 @@ import math
 import networkx as nx
 import numpy as np
 
-from ..model.circuit import (
+from ..model import (
     Capacitor,
     Circuit,
     Coupling,

@@ -13,7 +13,7 @@ from typing import Sequence
 
 import networkx as nx
 
-from ..model.circuit import Circuit, Switch
+from ..model import Circuit, Switch
 
 __all__ = [
     "is_short",

@@ -25,7 +25,7 @@ from __future__ import annotations
 from typing import Sequence
 
 from ..errors import Diagnostic
-from ..model.circuit import Capacitor, Circuit, CurrentSource, Inductor, Switch, VoltageSource
+from ..model import Capacitor, Circuit, CurrentSource, Inductor, Switch, VoltageSource
 from ..model.configurations import Configuration, _list
 from ._words import _configurations, _distinct, _names, _nodes_label, _switches_in, _where
 from .graphs import fundamental_loops, is_open, is_short, isolated_groups, node_users, switch_indices, switch_states

@@ -20,7 +20,7 @@ from typing import Sequence
 import networkx as nx
 
 from ..errors import Diagnostic
-from ..model.circuit import Capacitor, Circuit, Diode, VoltageSource
+from ..model import Capacitor, Circuit, Diode, VoltageSource
 from ..model.configurations import Configuration, _list
 from ._words import _configurations, _distinct, _names, _nodes_label, _where
 from .element_checks import _kind

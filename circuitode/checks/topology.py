@@ -28,7 +28,7 @@ from ..errors import (
     TopologyError,
     UnconnectedNodeError,
 )
-from ..model.circuit import Circuit
+from ..model import Circuit
 from ..model.configurations import enumerate_configurations
 from .element_checks import check_couplings, check_duplicate_names, check_values
 from .loops import check_capacitor_loops, check_inductor_cutsets, check_shorted_sources
@@ -70,8 +70,8 @@ def diagnose(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
 
     Examples
     --------
-    >>> from circuitode.model.circuit import Capacitor, Circuit, Resistor, VoltageSource
-    >>> from circuitode.model.sources import Dc
+    >>> from circuitode.model import Capacitor, Circuit, Resistor, VoltageSource
+    >>> from circuitode.model import Dc
     >>> c = Circuit("demo", "gnd", (VoltageSource("V1", "in", "gnd", Dc(5.0)),
     ...                             Capacitor("C1", "in", "gnd", 1e-6)))
     >>> [(d.code, d.elements) for d in diagnose(c)]
@@ -101,7 +101,7 @@ def verify(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
 
     Examples
     --------
-    >>> from circuitode.model.circuit import Circuit, Resistor
+    >>> from circuitode.model import Circuit, Resistor
     >>> c = Circuit("demo", None, (Resistor("R1", "a", "b", 1.0), Resistor("R2", "a", "b", 2.0)))
     >>> verify(c)
     Traceback (most recent call last):

@@ -17,7 +17,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Sequence
 
-from ..model.circuit import Capacitor, Circuit, CurrentSource, Diode, Inductor, Resistor, Switch
+from ..model import Capacitor, Circuit, CurrentSource, Diode, Inductor, Resistor, Switch
 from ..errors import CircuitodeError, SingularSystemError
 
 __all__ = [

@@ -25,7 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import ImpulsiveSwitchingError
-from ..model.circuit import Capacitor, Circuit, Inductor
+from ..model import Capacitor, Circuit, Inductor
 from .statespace import StateSpace
 
 __all__ = ["ENTRY_TOLERANCE", "enter", "batch_entry", "entry_violations"]

@@ -11,7 +11,7 @@ from typing import Mapping
 
 import numpy as np
 
-from ..model.circuit import (
+from ..model import (
     Capacitor,
     Circuit,
     CurrentThrough,

@@ -29,7 +29,7 @@ import scipy.sparse as sp
 from scipy.sparse.linalg import splu
 
 from ..errors import BadCouplingError, Diagnostic, SingularSystemError
-from ..model.circuit import Circuit, VoltageSource
+from ..model import Circuit, VoltageSource
 from .companion import build_layout, check_closed, check_structure, describe_configuration
 from .mna import Samples, _stamp, probe_rows
 

@@ -38,7 +38,7 @@ from typing import Mapping, Sequence
 
 import numpy as np
 
-from ..model.circuit import Circuit, CurrentSource
+from ..model import Circuit, CurrentSource
 from .companion import (
     StateSpaceRequestError,
     build_layout,
@@ -208,8 +208,8 @@ def assemble(
     --------
     An RC low-pass, 1 kΩ and 1 µF: A = −1/RC = −1000 1/s.
 
-    >>> from circuitode.model.circuit import Capacitor, Circuit, Resistor, VoltageSource, NodeVoltage
-    >>> from circuitode.model.sources import Dc
+    >>> from circuitode.model import Capacitor, Circuit, Resistor, VoltageSource, NodeVoltage
+    >>> from circuitode.model import Dc
     >>> rc = Circuit("rc", "gnd", (VoltageSource("V", "in", "gnd", Dc(1.0)),
     ...                            Resistor("R", "in", "out", 1e3), Capacitor("C", "out", "gnd", 1e-6)))
     >>> ss = assemble(rc, (), [NodeVoltage("out")])

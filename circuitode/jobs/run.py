@@ -15,7 +15,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Mapping
 
-from ..model.circuit import Circuit
+from ..model import Circuit
 from ..errors import CircuitodeError, environment_fault
 from ..checks.bounds import check_run_bounds
 from ..transient.sparse_driver import SPARSE_STATES

@@ -17,7 +17,9 @@ from dataclasses import dataclass
 from typing import Sequence
 
 from ..quantities import format_si
-from .circuit import Circuit, DiodeRule, PeriodicSchedule, Switch, ThresholdRule, TimedSchedule
+from .circuit import Circuit
+from .elements import Switch
+from .switch_controls import DiodeRule, PeriodicSchedule, ThresholdRule, TimedSchedule
 
 __all__ = [
     "Configuration",
@@ -216,7 +218,7 @@ def reachable_configurations(circuit: Circuit, until: float | None = None) -> li
 
     Examples
     --------
-    >>> from circuitode.model.circuit import Circuit, Resistor, Switch, TimedSchedule
+    >>> from circuitode.model import Circuit, Resistor, Switch, TimedSchedule
     >>> k = Switch("K", "a", "b", TimedSchedule(False, ((1e-3, True),)))
     >>> c = Circuit("demo", "b", (Resistor("R", "a", "b", 1.0), k))
     >>> [(x.closed, x.first_time) for x in reachable_configurations(c)]

@@ -21,18 +21,10 @@ from typing import Mapping
 
 import numpy as np
 
-from .sources import (
-    Dc,
-    Exponential,
-    LinearGenerator,
-    PiecewiseLinear,
-    PulseTrain,
-    Ramp,
-    Sine,
-    SourceBank,
-    Step,
-    WaveformError,
-)
+from .aperiodic import Dc, Exponential, PiecewiseLinear, Ramp, Step
+from .periodic import PulseTrain, Sine
+from .sources import SourceBank
+from .waveforms import LinearGenerator, WaveformError
 
 __all__ = ["LEVEL_FIELDS", "SourceBatch"]
 

@@ -3,7 +3,7 @@
 Parameters may be defined in any order and reference each other; cycles are
 reported.  Each element value is checked against its element's unit.  Every
 probe, coupling and requirement must name an element or node that exists.
-Tolerances become :class:`~circuitode.model.circuit.Spread` objects, and every element
+Tolerances become :class:`~circuitode.model.run_settings.Spread` objects, and every element
 field that depends on a toleranced value gets a *recipe*: its expression
 rewritten in terms of spread names only, so a batch can recompute it from
 sampled parameters (floats or numpy arrays alike).
@@ -14,8 +14,8 @@ import math
 from pathlib import Path
 from typing import Any, Mapping
 
-from ..model import circuit as cm
-from ..model import sources as src
+from .. import model as cm
+from .. import model as src
 from ..errors import NetlistError, Where
 from . import expressions as ex
 from .expressions import did_you_mean

@@ -3,7 +3,7 @@
 Nodes: :class:`Number`, :class:`Name`, :class:`Unary`, :class:`Binary`,
 :class:`Call`.  Operators ``+ - * / ^`` and the functions ``sqrt exp log``
 (natural logarithm) ``log10 abs``; the constant ``pi``.  Every node satisfies
-the ``Recipe`` protocol of :mod:`circuitode.model.circuit`: ``.names`` is the
+the ``Recipe`` protocol of :mod:`circuitode.model.run_settings`: ``.names`` is the
 frozenset of parameter names it reads and ``.evaluate(env)`` computes it from a
 mapping of names to floats or numpy arrays (shapes broadcast), so the same tree
 serves one nominal build and a batch of a million tolerance samples.

@@ -18,7 +18,7 @@ import stat
 from pathlib import Path
 from typing import Any, Mapping
 
-from ..model import circuit as cm
+from .. import model as cm
 from ..errors import NetlistError, Where
 from .build import build_circuit
 from .limits import ReadPolicy, current_policy, raise_hint

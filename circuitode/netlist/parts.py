@@ -30,8 +30,8 @@ from dataclasses import dataclass
 from typing import Any, Iterable, Mapping
 
 from ..errors import NetlistError
-from ..model import circuit as cm
-from ..model import sources as src
+from .. import model as cm
+from .. import model as src
 from . import expressions as ex
 from .expressions import did_you_mean
 from ..quantities import parse_quantity

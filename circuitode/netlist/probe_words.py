@@ -8,7 +8,7 @@ from __future__ import annotations
 import re
 
 from ..errors import CircuitodeError
-from ..model.circuit import Circuit, CurrentThrough, NodeVoltage, PowerIn, VoltageAcross, VoltageBetween
+from ..model import Circuit, CurrentThrough, NodeVoltage, PowerIn, VoltageAcross, VoltageBetween
 from .expressions import did_you_mean
 
 __all__ = ["ProbeWordsError", "probe_from_words"]

@@ -24,7 +24,7 @@ __all__ = ["pulse_times"]
 
 
 def pulse_times(resolved: dict[str, Any], written: dict[str, Any], where: Where) -> dict[str, Any]:
-    """Keyword arguments of :class:`~circuitode.model.sources.PulseTrain` from resolved pulse fields.
+    """Keyword arguments of :class:`~circuitode.model.periodic.PulseTrain` from resolved pulse fields.
 
     Parameters
     ----------

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import math
 
-from ..model import sources as src
+from .. import model as src
 
 from .expressions import did_you_mean
 

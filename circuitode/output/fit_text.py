@@ -53,7 +53,7 @@ def fit_text(result, *, path: str = "") -> str:
 
 def _unit_of(circuit, name: str) -> str:
     """The unit of a parameter, from the element values that use it (Ω, F, H), else none."""
-    from ..model.circuit import Capacitor, Inductor, Resistor
+    from ..model import Capacitor, Inductor, Resistor
 
     for (element, field_), recipe in circuit.recipes.items():
         if name in getattr(recipe, "names", ()):

@@ -16,7 +16,7 @@ from typing import Any, Iterable, Mapping, Sequence
 import numpy as np
 
 from .. import __version__
-from ..model.circuit import (
+from ..model import (
     Capacitor,
     Circuit,
     CurrentSource,

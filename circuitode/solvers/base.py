@@ -12,7 +12,7 @@ Inputs
 ``values(t)``
     ``t`` an array of times (s), shape ``(nt,)``; returns ``u``, shape ``(nt, m)``.
 ``generators(t0, t1)``
-    a :class:`circuitode.model.sources.LinearGenerator` with ``u(t) = H @ z(t)``,
+    a :class:`circuitode.model.waveforms.LinearGenerator` with ``u(t) = H @ z(t)``,
     ``z' = F z``, ``z(t0) = z0`` on ``[t0, t1]`` (``H`` shape ``(m, q)``, or
     ``(q,)`` when ``m == 1``).  Only the exact integrator asks for it.
 """

@@ -28,7 +28,7 @@ import numpy as np
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
 from ..analysis.measure import figure_unit
 from ..errors import CircuitodeError, NetlistError
-from ..model.circuit import Circuit
+from ..model import Circuit
 from ..netlist.parts import expose_parts, resolve_part
 from ..quantities import parse_quantity
 from ..tolerance.batch import _check_supported, batch_figure_keys, run_chunk

@@ -16,7 +16,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
-from ..model.circuit import Circuit, Coupling, PowerIn
+from ..model import Circuit, Coupling, PowerIn
 from ..errors import CircuitodeError, NetlistError, environment_fault
 from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..netlist.parts import expose_parts

@@ -36,10 +36,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..checks.dc import explain_singular_dc
-from ..model.circuit import Circuit, CurrentThrough, Diode, PowerIn, ThresholdRule, VoltageAcross
+from ..model import Circuit, CurrentThrough, Diode, PowerIn, ThresholdRule, VoltageAcross
 from ..errors import CircuitodeError, NoSteadyStateError
 from ..model.source_batch import SourceBatch
-from ..model.sources import SourceBank
+from ..model import SourceBank
 from ..equations.statespace import VARIABLE_FIELDS
 from ..equations.statespace import StateSpaceCache, initial_state
 from ..equations.entry import batch_entry

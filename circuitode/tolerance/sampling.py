@@ -25,7 +25,7 @@ from typing import Iterable, Mapping
 import numpy as np
 from scipy.stats import qmc, truncnorm
 
-from ..model.circuit import Circuit, Spread
+from ..model import Circuit, Spread
 from ..errors import CircuitodeError
 
 __all__ = [

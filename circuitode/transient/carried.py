@@ -13,7 +13,7 @@ from typing import Sequence
 import numpy as np
 
 from .extrema import BetweenRows, refine_extrema
-from ..model.circuit import PowerIn
+from ..model import PowerIn
 from ..solvers.visibility import fastest_seen_rate
 from .window_integrals import IntegralTally
 

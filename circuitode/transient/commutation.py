@@ -1,7 +1,7 @@
 """Diode states during a run: events that end a conduction or start one, and the one
 consistent configuration at an instant.
 
-An ideal diode (:class:`~circuitode.model.circuit.Diode`) is a switch that moves on
+An ideal diode (:class:`~circuitode.model.elements.Diode`) is a switch that moves on
 its own: blocking, it turns on when its voltage rises through its drop; conducting,
 it turns off when its current falls through zero.  Both are
 :class:`~circuitode.solvers.LinearEvent` on rows of the configuration's ``C``,
@@ -45,7 +45,7 @@ import numpy as np
 
 from ..equations.entry import enter, entry_violations
 from ..errors import CircuitodeError, IntegrationError
-from ..model.circuit import Circuit, CurrentThrough, Diode, VoltageAcross
+from ..model import Circuit, CurrentThrough, Diode, VoltageAcross
 from ..solvers import LinearEvent
 
 __all__ = ["DIODE_BAND", "DIODE_TIE", "CHATTER_EVENTS", "CHATTER_WINDOW", "MAX_ENUMERATED", "Commutation", "diode_probes"]

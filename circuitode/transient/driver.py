@@ -21,14 +21,14 @@ from typing import Sequence
 
 import numpy as np
 
-from ..model.circuit import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from ..model import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from ..model.configurations import reachable_configurations
 from ..errors import CircuitodeError, NoSteadyStateError
 from ..notebook import WaveformsView
 from ..solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from ..solvers.explicit_guard import check_explicit_work
-from ..model.sources import SourceBank
+from ..model import SourceBank
 from ..equations.statespace import StateSpaceCache, describe_configuration, initial_state
 from ..equations.entry import enter
 from .commutation import Commutation, diode_probes
@@ -267,8 +267,8 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
 
     Examples
     --------
-    >>> from circuitode.model.circuit import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
-    >>> from circuitode.model.sources import Dc
+    >>> from circuitode.model import Capacitor, Circuit, NodeVoltage, Resistor, VoltageSource
+    >>> from circuitode.model import Dc
     >>> rc = Circuit("rc", "gnd", (VoltageSource("V1", "in", "gnd", Dc(10.0)),
     ...                            Resistor("R1", "in", "out", 1e3),
     ...                            Capacitor("C1", "out", "gnd", 1e-6)),

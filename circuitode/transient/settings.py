@@ -11,7 +11,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import CircuitodeError
-from ..model.circuit import INITIAL_STATES, Circuit
+from ..model import INITIAL_STATES, Circuit
 
 __all__ = ["DEFAULT_POINTS"]
 

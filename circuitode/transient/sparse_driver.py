@@ -17,8 +17,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import CircuitodeError
-from ..model.circuit import CurrentThrough, DiodeRule, PowerIn, ThresholdRule, VoltageAcross
-from ..model.sources import SourceBank
+from ..model import CurrentThrough, DiodeRule, PowerIn, ThresholdRule, VoltageAcross
+from ..model import SourceBank
 
 __all__ = ["SPARSE_STATES", "SPARSE_METHODS", "STATE_ROWS_LIMIT", "sparse_choice", "simulate_sparse"]
 

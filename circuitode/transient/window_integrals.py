@@ -13,7 +13,7 @@ from typing import Sequence
 
 import numpy as np
 
-from ..model.circuit import CurrentThrough, PowerIn, VoltageAcross
+from ..model import CurrentThrough, PowerIn, VoltageAcross
 from ..solvers.integrals import IntegralValues, OutputIntegrals
 
 __all__ = ["IntegralTally"]
