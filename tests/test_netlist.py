@@ -505,7 +505,7 @@ def test_grammar_cache_is_never_stale(tmp_path):
 
     from lark.exceptions import UnexpectedInput
 
-    from circuitode.netlist.parse import _CURRENT, build_parser
+    from circuitode.netlist.lark_parser import CURRENT_TEXT as _CURRENT, build_parser
 
     grammar = resources.files("circuitode.netlist").joinpath("grammar.lark").read_text(encoding="utf-8")
     cache = tmp_path / "grammar.cache"
@@ -528,7 +528,7 @@ def test_the_package_parser_caches_in_a_private_folder(tmp_path, monkeypatch):
     import os
     import stat
 
-    from circuitode.netlist.parse import _cache_file
+    from circuitode.netlist.lark_parser import grammar_cache_file as _cache_file
 
     monkeypatch.setenv("XDG_CACHE_HOME", str(tmp_path))
     path = _cache_file("grammar text")

@@ -11,7 +11,7 @@ from hypothesis import strategies as st
 from circuitode.model import Circuit
 from circuitode.errors import NetlistError
 from circuitode.netlist import loads
-from circuitode.netlist.parse import _parser
+from circuitode.netlist.lark_parser import cached_parser as _parser
 
 BASE = "ground g\nvoltage_source V1 a -- g constant 1 V\nresistor R1 a -- b 1\ncapacitor C1 b -- g 1 uF\n"  # 4 lines
 

@@ -20,7 +20,8 @@ the window like the single run; every switching instant is recorded twice
 the breakpoints and the initial state follow :mod:`circuitode.transient`, so
 each sample's figures equal a single run's.
 
-Runs of equal grid steps are taken in blocks of up to :data:`MAX_BLOCK` steps
+Runs of equal grid steps are taken in blocks of up to
+:data:`.block_stepper.MAX_BLOCK` steps
 (``w_j = Φ^j w_0`` with the powers of Φ tabulated once per stretch and
 configuration), so the Python work is per block, not per step; crossings are
 found from a whole block's outputs at once and located for all the samples
@@ -45,8 +46,9 @@ from ..equations.statespace import StateSpaceCache, initial_state
 from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from .batch_integrals import ChunkIntegrals, integral_pairs
+from .block_stepper import BlockStepper
 from .stepping import Record, Stretch, matvec
-from .thresholds import Watch, fire_at_start, handle_crossings
+from .thresholds import Watch, fire_at_start
 
 __all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes", "refuse_diodes",
            "simulate_chunk"]
@@ -268,7 +270,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         if not last or stops.size == 0 or stops[-1] < b - slack:
             stops, slots = np.append(stops, b), np.append(slots, -1)
         lengths = np.diff(np.concatenate([[a], stops]))
-        stepper = _Stepper(stretch, watch, code, ok, G_cur, record, tally)
+        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally)
         w, y_now, g_prev = stepper.run(w, g_prev, a, stops, lengths, slots >= 0)
         x = w[:, :n]
         y_end_before = y_now
@@ -281,169 +283,9 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
                       None if tally is None else tally.by_recipe(recipe))
 
 
-#: Bytes the per-sample table of step-matrix powers of one block may take, and the
-#: longest block (grid steps taken by one stacked product).
-POWER_TABLE_BYTES = 16e6
-MAX_BLOCK = 256
-#: Steps whose lengths agree to this fraction are one run of equal steps (grid instants
-#: differ from multiples of the step only by rounding, about 1e-12 of it).
-SAME_STEP = 1e-9
-
-
-class _Stepper:
-    """Steps the samples of one chunk through one stretch, updating code and the record.
-
-    Runs of equal recorded steps go in blocks of up to K steps (one stacked product
-    with the tabulated powers Φ^1…Φ^K; crossings found from the whole block's
-    outputs at once); other steps (a stretch's partial first or last step) one by one.
-    """
-
-    def __init__(self, stretch: Stretch, watch: Watch, code, ok, G_cur, record: Record,
-                 tally: ChunkIntegrals | None = None):
-        self.stretch, self.watch, self.code, self.ok = stretch, watch, code, ok
-        self.G_cur, self.record, self.tally = G_cur, record, tally
-        self.moments: dict = {}  # (configuration code, step length) → integral operators
-        self.phi: dict = {}  # step length → (N, s, s), each sample's configuration
-        self.powers: dict = {}  # (step length, K) → (N, K, s, s), each sample's configuration
-
-    def run(self, w, g_prev, a: float, stops, lengths, recorded):
-        """Step from instant a through stops (each with its length; recorded: (steps,) bool,
-        a row goes to the record).  Returns (w, y, g) at the last stop."""
-        N, s = w.shape
-        k_max = int(min(MAX_BLOCK, max(1, POWER_TABLE_BYTES // (N * s * s * 8))))
-        t_prev, i, count = a, 0, stops.size
-        y = None
-        while i < count:
-            h = float(lengths[i])
-            run = 1
-            if k_max > 1 and recorded[i]:
-                same = recorded[i:] & (np.abs(lengths[i:] - h) <= SAME_STEP * h)
-                run = same.size if same.all() else int(np.argmin(same))
-            if run >= 2:
-                h_run = float((stops[i + run - 1] - t_prev) / run)  # no drift over the run
-                K = min(k_max, run)
-                for first in range(i, i + run, K):
-                    ts = stops[first:min(first + K, i + run)]
-                    w, y, g_prev = self.block(w, g_prev, t_prev, h_run, ts, K)
-                    t_prev = float(ts[-1])
-                i += run
-            else:
-                w, y, g_prev = self.step(w, g_prev, t_prev, h, stops[i] if recorded[i] else None)
-                t_prev = float(stops[i])
-                i += 1
-        return w, y, g_prev
-
-    def refresh(self, idx: np.ndarray) -> None:
-        """Samples idx changed configuration: their rows of every held matrix follow."""
-        st, code = self.stretch, self.code
-        self.G_cur[idx] = st.G(code, idx)
-        for h, phi in self.phi.items():
-            phi[idx] = st.phi(code, h, idx)
-        for (h, K), P in self.powers.items():
-            P[idx] = st.powers(code, h, K, idx)
-
-    def count(self, starts, col_code, h: float) -> None:
-        """Add the integrals of steps of length h from states starts (N, K, s), each in the
-        configuration col_code (N, K) (−1: a step split by a switch, counted where it was
-        split)."""
-        if self.tally is None:
-            return
-        for c in np.unique(col_code[col_code >= 0]):
-            key = (int(c), h)
-            if key not in self.moments:
-                full = np.full(self.code.size, c)
-                self.moments[key] = self.tally.operators(self.stretch.M(full), self.stretch.G(full), h)
-            rho, P = self.moments[key]
-            self.tally.steps(rho, P, starts, col_code == c)
-
-    def step(self, w, g_prev, t_prev: float, h: float, t_row):
-        """One step of length h for every sample; a row at t_row unless it is None."""
-        watch = self.watch
-        col_code = self.code.copy()[:, None]
-        if h not in self.phi:
-            self.phi[h] = self.stretch.phi(self.code, h)
-        w_new = matvec(self.phi[h], w)
-        y = matvec(self.G_cur, w_new)
-        g = watch.values(y, self.code)
-        if watch.k:
-            turned = (g_prev < 0.0) & (g >= 0.0)
-            if turned.any() and (crossed := turned & watch.pending(self.code) & self.ok[:, None]).any():
-                idx = np.flatnonzero(crossed.any(axis=1))
-                w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, crossed[idx], self.code,
-                                                 w[idx], g[idx], t_prev, h, self.record,
-                                                 tally=self.tally)
-                col_code[idx, 0] = -1
-                self.refresh(idx)
-                w_new[idx], y[idx], g[idx] = w_e, y_e, g_e
-        self.count(w[:, None], col_code, h)
-        if t_row is not None:
-            self.record.all(float(t_row), y)
-        return w_new, y, g
-
-    def block(self, w, g_prev, t_start: float, h: float, ts, K: int):
-        """len(ts) ≤ K recorded steps of length h from t_start, every sample at once.
-
-        States at the block's instants are Φ^j w; a sample whose pending threshold is
-        crossed in step j switches there (:func:`handle_crossings`), and its later
-        instants are recomputed from the new state in its new configuration.
-        """
-        watch, code, record = self.watch, self.code, self.record
-        Kb = ts.size
-        if (h, K) not in self.powers:
-            self.powers[h, K] = self.stretch.powers(code, h, K)
-        W = _apply_powers(self.powers[h, K][:, :Kb], w)  # (N, Kb, s)
-        Y = self.G_cur @ np.swapaxes(W, 1, 2)  # (N, p, Kb)
-        g = watch.values(Y, code)  # (N, k, Kb)
-        col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
-        if watch.k:
-            cols = np.arange(Kb)
-            t_before = np.concatenate([[t_start], ts[:-1]])
-            settled = np.full(w.shape[0], -1)  # instants up to here are final, per sample
-            c0 = record.common
-            while True:
-                prev = np.concatenate([g_prev[:, :, None], g[:, :, :-1]], axis=2)
-                turned = (prev < 0.0) & (g >= 0.0)
-                if not turned.any():
-                    break
-                turned &= (watch.pending(code) & self.ok[:, None])[:, :, None]
-                turned &= (cols[None, :] > settled[:, None])[:, None, :]
-                hit = turned.any(axis=1)  # (N, Kb)
-                idx = np.flatnonzero(hit.any(axis=1))
-                if idx.size == 0:
-                    break
-                j = np.argmax(hit[idx], axis=1)  # each sample's first step with a crossing
-                w_prev = np.where((j > 0)[:, None], W[idx, np.maximum(j - 1, 0)], w[idx])
-                w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, turned[idx, :, j], code,
-                                                 w_prev, g[idx, :, j], t_before[j], h, record, c0 + j,
-                                                 tally=self.tally)
-                self.refresh(idx)
-                W[idx, j], Y[idx, :, j], g[idx, :, j] = w_e, y_e, g_e
-                later = cols[None, :] > j[:, None]  # (R, Kb): instants after the switch
-                col_code[idx] = np.where(later, code[idx, None], col_code[idx])
-                col_code[idx, j] = -1
-                if later.any():
-                    tail = _apply_powers(self.powers[h, K][idx, :Kb - 1], w_e)
-                    back = np.clip(cols[None, :] - j[:, None] - 1, 0, None)
-                    W_idx = np.where(later[:, :, None], np.take_along_axis(tail, back[:, :, None], axis=1), W[idx])
-                    W[idx] = W_idx
-                    Y_new = self.G_cur[idx] @ np.swapaxes(W_idx, 1, 2)
-                    Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
-                    g[idx] = watch.values(Y[idx], code[idx])
-                settled[idx] = j
-        self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
-        record.columns(np.asarray(ts, dtype=float), Y)
-        return W[:, -1], Y[:, :, -1], g[:, :, -1]
-
-
 # --------------------------------------------------------------------------
 # helpers
 # --------------------------------------------------------------------------
-
-
-def _apply_powers(P: np.ndarray, w: np.ndarray) -> np.ndarray:
-    """(N, K, s): P[n, k] @ w[n] for P (N, K, s, s) and w (N, s), as one stacked product."""
-    N, K, s = P.shape[:3]
-    return (P.reshape(N, K * s, s) @ w[:, :, None]).reshape(N, K, s)
 
 
 def _with_batch_axis(circuit: Circuit, values: dict, N: int) -> dict:
