@@ -48,8 +48,7 @@ class Counter:
     def expect(self, count: int) -> None:
         """Add ``count`` to the expected total (work found to be needed while running)."""
         if self.bar is not None:
-            self.bar.total = (self.bar.total or 0) + int(count)
-            self.bar.refresh()
+            self.bar.total = (self.bar.total or 0) + int(count)  # drawn at the next update
 
     def advance(self, count: int) -> None:
         """Count ``count`` more finished runs."""
