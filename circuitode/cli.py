@@ -332,7 +332,10 @@ def _run(args: argparse.Namespace) -> int:
     out = args.out or default_out_dir(args.netlist)
     with Ticker("simulating"):  # elapsed time on a terminal once a run takes more than 3 s
         result = run_job(circuit, out_dir=out, method=args.method, step=args.step, until=args.until,
-                         plots=not args.no_plots, running=tuple(args.running), insist=args.insist)
+                         plots=not args.no_plots, running=tuple(args.running), insist=args.insist,
+                         command=args.argv)
+    if result.replaced:
+        print(f"replaced the earlier run in {out}")
     print(run_text(circuit, result.waveforms, result.figures, result.limits, result.files, path=args.netlist))
     for problem in result.problems:
         print(f"warning: {problem}", file=sys.stderr)
@@ -482,6 +485,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     """Entry point of the ``circuitode`` command; returns the exit code."""
     parser = build_parser()
     args = parser.parse_args(argv)
+    args.argv = ["circuitode", *(argv if argv is not None else sys.argv[1:])]  # for summary.json
     if args.command is None:
         parser.print_help()
         return 2

@@ -180,29 +180,7 @@ def test_summary_names_the_sample_closest_to_each_limit(tmp_path):
     assert f"at sample {k}" in format_batch_summary(r)
 
 
-class _FakeTerminal:
-    def __init__(self):
-        self.text = ""
-
-    def isatty(self):
-        return True
-
-    def write(self, s):
-        self.text += s
-
-    def flush(self):
-        pass
-
-
-def test_progress_bar_only_on_a_terminal(tmp_path, monkeypatch, capsys):
-    from circuitode.tolerance import batch
-
-    _run(tmp_path / "quiet", samples=20, plots=False, progress=True)
-    assert capsys.readouterr().err == ""  # pytest's stderr is not a terminal
-    fake = _FakeTerminal()
-    monkeypatch.setattr(batch.sys, "stderr", fake)
-    _run(tmp_path / "tty", samples=20, plots=False, progress=True, chunk_size=10)
-    assert "20/20" in fake.text and "10/20" in fake.text
+# the progress bar is tested in tests/test_tolerance_progress.py
 
 
 def test_a_spread_on_an_initial_value_is_refused_at_its_line(tmp_path):

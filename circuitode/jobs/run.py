@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any, Mapping, Sequence
 
 from ..model import Circuit
 from ..errors import CircuitodeError, environment_fault
@@ -34,6 +34,10 @@ class JobResult:
     exit_code : 0 all limits met, 1 a limit failed.
     files : kind → path of every file written.
     problems : what went wrong after the waveforms were safe (e.g. a plot failed).
+    replaced : the folder held an earlier run, which this one replaced whole.
+    netlist_sha256 : SHA-256 of the netlist text run (None for a Circuit built in Python).
+    command : the command line that ran it (None from the API).  method_asked : the method
+    requested (``--method`` or the netlist's), before ``auto`` chose one.
     """
 
     circuit: Circuit
@@ -43,6 +47,10 @@ class JobResult:
     modes: list
     files: dict[str, Path] = field(default_factory=dict)
     problems: list[str] = field(default_factory=list)
+    replaced: bool = False
+    netlist_sha256: str | None = None
+    command: tuple[str, ...] | None = None
+    method_asked: str | None = None
 
     @property
     def exit_code(self) -> int:
@@ -90,6 +98,7 @@ def run_job(
     with_modes: bool = True,
     running: tuple[str, ...] = (),
     insist: bool = False,
+    command: Sequence[str] | None = None,
 ) -> JobResult:
     """Simulate a netlist, measure it, check its limits and write its run folder.
 
@@ -104,6 +113,7 @@ def run_job(
     running : recorded currents (powers) whose running I²t (energy) the plot also draws; those with an
         I²t or energy limit are drawn anyway.
     insist : run rk45/dop853 even when the circuit is too stiff for them.
+    command : the command line, recorded in summary.json (the CLI passes its argv).
 
     Raises
     ------
@@ -114,9 +124,12 @@ def run_job(
 
     circuit = load_any(source, overrides)
     check_run_bounds(circuit, step=step, until=until, out_dir=out_dir, method=method)  # before any work starts
+    trace = {"netlist_sha256": _netlist_digest(source, circuit),
+             "command": tuple(command) if command is not None else None,
+             "method_asked": method or (circuit.analysis.method if circuit.analysis else None)}
     if out_dir is None:
         result = JobResult(circuit, simulate(circuit, method=method, step=step, until=until, insist=insist),
-                           {}, [], [])
+                           {}, [], [], **trace)
         _measure(result, with_modes)
         return result
     out = Path(out_dir)
@@ -125,7 +138,7 @@ def run_job(
     # first so a read-only or missing place is reported before the work starts
     with StagedFolder(out, RUN_FILES) as stage:
         waveforms = simulate(circuit, method=method, step=step, until=until, insist=insist)
-        result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[])
+        result = JobResult(circuit=circuit, waveforms=waveforms, figures={}, limits=[], modes=[], **trace)
         try:
             waveforms.to_csv(stage.path / "waveforms.csv")
         except OSError as exc:
@@ -147,8 +160,53 @@ def run_job(
             write_summary_json(stage.path / "summary.json", summary_of(result))
         except OSError as exc:
             raise environment_fault(exc, f"write the summary into {out}") from None
+        result.replaced = _holds_a_run(out)
         stage.publish()
+    _remove_stale_incomplete(out, result)
     return result
+
+
+def _holds_a_run(folder: Path) -> bool:
+    """Whether ``folder`` holds files of an earlier run (which the swap replaces whole)."""
+    try:
+        return folder.is_dir() and any(p.name in RUN_FILES for p in folder.iterdir())
+    except OSError:
+        return False
+
+
+def _remove_stale_incomplete(out: Path, result: JobResult) -> None:
+    """A complete run supersedes ``<out>-incomplete`` left by an earlier failed one: remove it
+    when it holds only run files (a folder with anything else is left alone and named)."""
+    import shutil
+
+    kept = out.with_name(out.name + "-incomplete")
+    try:
+        if not kept.is_dir():
+            return
+        if all(p.name in RUN_FILES for p in kept.iterdir()):
+            shutil.rmtree(kept)
+        else:
+            result.problems.append(f"{kept} (left by an earlier failed run) holds other files; not removed")
+    except OSError as exc:
+        result.problems.append(f"{kept} (left by an earlier failed run) could not be removed: {exc.strerror}")
+
+
+def _netlist_digest(source: Any, circuit: Circuit) -> str | None:
+    """SHA-256 (hex) of the netlist text: the file given (or the Circuit's source file), or the text.
+    Included files are not part of it.  None for a Circuit built in Python."""
+    import hashlib
+
+    if isinstance(source, str) and "\n" in source:
+        data = source.encode("utf-8")
+    else:
+        path = source if not isinstance(source, Circuit) else circuit.source_file
+        if path is None or not Path(path).is_file():
+            return None
+        try:
+            data = Path(path).read_bytes()
+        except OSError:
+            return None
+    return hashlib.sha256(data).hexdigest()
 
 
 def _measure(result: JobResult, with_modes: bool) -> None:
@@ -177,16 +235,29 @@ def summary_of(result: JobResult) -> dict[str, Any]:
     """The JSON summary body of a run (numbers in SI, units beside them)."""
     from ..analysis.modes import mode_rows
     from ..analysis.resolution import resolution_warnings
-    from ..output.report import requirement_words
+    from ..analysis.idle_switches import idle_switches
+    from ..output.report import idle_words, requirement_words
 
-    w = result.waveforms
+    w, circuit = result.waveforms, result.circuit
     return {
-        "circuit": result.circuit.title,
+        "circuit": circuit.title,
         "netlist": result.circuit.source_file,
-        "solver": {"method": w.method, "reason": w.method_reason, "counters": dict(w.counters)},
+        "netlist_sha256": result.netlist_sha256,
+        "command": list(result.command) if result.command is not None else None,
+        "parameters": {
+            name: {"value": float(value), "unit": circuit.parameter_units.get(name)}
+            for name, value in circuit.parameters.items()
+        },
+        "solver": {"method": w.method, "asked": result.method_asked, "reason": w.method_reason,
+                   "counters": dict(w.counters)},
         "window_s": [float(w.t[0]), float(w.t[-1])],
         "events": [
             {"time_s": ev.time, "switch": ev.switch, "closed": ev.closed, "reason": ev.reason} for ev in w.events
+        ],
+        "never_acted": [
+            {"switch": sw.switch, "waited_to": "close" if sw.closes else "open", "quantity": sw.quantity,
+             "threshold": sw.level, "extreme": sw.extreme, "unit": sw.unit, "words": idle_words(sw)}
+            for sw in idle_switches(circuit, w)
         ],
         "figures": {
             label: {name: {"value": value, "unit": unit} for name, (value, unit) in row.items()}

@@ -29,6 +29,7 @@ from ..model import (
     TimedSchedule,
     VoltageSource,
 )
+from ..analysis.idle_switches import idle_switches
 from ..analysis.measure import figure_unit
 from ..analysis.resolution import resolution_warnings
 from ..quantities import format_si
@@ -46,6 +47,7 @@ __all__ = [
     "limits_text",
     "requirement_words",
     "event_words",
+    "idle_words",
     "unit_of_parameter",
     "write_summary_json",
     "describe_control",
@@ -393,6 +395,16 @@ def event_words(event: Any) -> str:
     return f"{head} ({event.reason})"
 
 
+def idle_words(sw: Any) -> str:
+    """"K_main never closed: voltage at link peaked at 41.2 V < 43 V" (digits enough to tell them apart)."""
+    head = f"{sw.switch} never {'closed' if sw.closes else 'opened'}: {sw.quantity}"
+    if sw.extreme is None:
+        return f"{head} never {'reached' if sw.above else 'fell to'} {format_si(sw.level, sw.unit)}"
+    digits = next((d for d in range(4, 13) if format_si(sw.extreme, sw.unit, d) != format_si(sw.level, sw.unit, d)), 12)
+    return (f"{head} {'peaked at' if sw.above else 'fell only to'} {format_si(sw.extreme, sw.unit, digits)} "
+            f"{'<' if sw.above else '>'} {format_si(sw.level, sw.unit, digits)}")
+
+
 def run_text(
     circuit: Circuit,
     waveforms: Any,
@@ -409,12 +421,15 @@ def run_text(
     out.extend(_wrap(f"solver: {waveforms.method} — {reason}", indent=""))
     window = format_si(float(waveforms.t[-1]), "s")
     out.append(f"window: 0 s to {window}, {len(waveforms.t)} output points")
-    if waveforms.events:
+    idle = idle_switches(circuit, waveforms)
+    if waveforms.events or idle:
         out.append(f"events ({len(waveforms.events)}):")
         for ev in waveforms.events[:12]:
             out.extend(_wrap(f"{format_si(ev.time, 's'):>10}  {event_words(ev)}", indent="  "))
         if len(waveforms.events) > 12:
             out.append(f"  … and {len(waveforms.events) - 12} more (see summary.json)")
+        for sw in idle:  # a contactor that never acted changes every figure below
+            out.extend(_wrap(idle_words(sw), indent="  "))
     for warning in getattr(waveforms, "warnings", ()):
         out.extend(_wrap(f"warning: {warning}", indent=""))
     out.append("")

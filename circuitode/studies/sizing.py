@@ -28,6 +28,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..errors import CircuitodeError
+from ..tolerance.progress import counter
 from .grid import evaluate_points, parse_axis, study_circuit, unit_of
 from .preferred import preferred_inside
 
@@ -111,7 +112,7 @@ def parse_range(text: Any, circuit, part: str) -> tuple[float, float]:
 
 def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] | None = None, points: int = 33,
          method: str = "exact", yield_target: float | None = None, yield_samples: int = 500, seed: int = 0,
-         progress=None) -> SizingResult:
+         progress: Any = True) -> SizingResult:
     """Find the values of ``part`` within ``within`` for which every requirement holds.
 
     Parameters
@@ -125,7 +126,9 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
     yield_target : a fraction (0.99): the intervals where at least this share of the
         tolerance samples meets every requirement (see :mod:`.yield_sizing`).
     yield_samples, seed : size and seed of the Latin-hypercube sample table for the yield.
-    progress : optional callable(count) told how many points each run held.
+    progress : True shows a tqdm bar of the simulated points (on a terminal's stderr or in a
+        notebook; its total grows as the refinement finds work), False none; a callable(count)
+        is told instead how many points each run held.
     """
     if int(points) < 3:
         raise CircuitodeError(f"--points must be at least 3, got {points}")
@@ -136,37 +139,39 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
     low, high = parse_range(within, circuit, part)
     unit = unit_of(circuit, part) or ""
     grid = np.geomspace(low, high, int(points)) if low > 0 else np.linspace(low, high, int(points))
-    swept = evaluate_points(circuit, [part], grid[:, None], method=method, progress=progress)
-    margins = np.where(swept.ok[:, None], swept.margins, np.nan)
-    evaluations = grid.size
+    with counter(progress, grid.size, f"sizing {part}", "point") as bar:
+        swept = evaluate_points(circuit, [part], grid[:, None], method=method, progress=bar.advance)
+        margins = np.where(swept.ok[:, None], swept.margins, np.nan)
+        evaluations = grid.size
 
-    def margin(x: float, r: int) -> float:
-        nonlocal evaluations
-        evaluations += 1
-        one = evaluate_points(circuit, [part], np.array([[x]]), method=method)
-        value = float(one.margins[0, r]) if one.ok[0] else math.nan
-        return value if math.isfinite(value) else -math.inf  # an unmeasurable figure fails
+        def margin(x: float, r: int) -> float:
+            nonlocal evaluations
+            evaluations += 1
+            bar.expect(1)
+            one = evaluate_points(circuit, [part], np.array([[x]]), method=method, progress=bar.advance)
+            value = float(one.margins[0, r]) if one.ok[0] else math.nan
+            return value if math.isfinite(value) else -math.inf  # an unmeasurable figure fails
 
-    roots: list[tuple[float, int]] = []
-    for r in range(len(requirements)):
-        m = margins[:, r]
-        cells = np.flatnonzero(np.isfinite(m[:-1]) & np.isfinite(m[1:]) & ((m[:-1] > 0) != (m[1:] > 0)))
-        for i in cells:
-            x = brentq(margin, grid[i], grid[i + 1], args=(r,), xtol=_RTOL * abs(grid[i + 1]), rtol=_RTOL)
-            roots.append((float(x), r))
-    intervals = _intervals(circuit, part, low, high, roots, requirements, method)
-    evaluations += len(roots) + 1
-    spread = circuit.spreads.get(part)
-    tolerance = float(spread.relative) if spread is not None else 0.0
-    details = None
-    if yield_target is not None:
-        from .yield_sizing import yield_intervals
+        roots: list[tuple[float, int]] = []
+        for r in range(len(requirements)):
+            m = margins[:, r]
+            cells = np.flatnonzero(np.isfinite(m[:-1]) & np.isfinite(m[1:]) & ((m[:-1] > 0) != (m[1:] > 0)))
+            for i in cells:
+                x = brentq(margin, grid[i], grid[i + 1], args=(r,), xtol=_RTOL * abs(grid[i + 1]), rtol=_RTOL)
+                roots.append((float(x), r))
+        intervals = _intervals(circuit, part, low, high, roots, requirements, method, bar)
+        evaluations += len(roots) + 1
+        spread = circuit.spreads.get(part)
+        tolerance = float(spread.relative) if spread is not None else 0.0
+        details = None
+        if yield_target is not None:
+            from .yield_sizing import yield_intervals
 
-        found, details = yield_intervals(circuit, part, intervals, float(yield_target), samples=yield_samples,
-                                         seed=seed, method=method)
-        intervals = [Interval(a, b, la, lb) for a, b, la, lb, _ai, _bi in found]
-        details["inside_ends"] = [(ai, bi) for *_rest, ai, bi in found]
-        tolerance = 0.0  # the yield already holds the part's tolerance
+            found, details = yield_intervals(circuit, part, intervals, float(yield_target), samples=yield_samples,
+                                             seed=seed, method=method, progress=bar)
+            intervals = [Interval(a, b, la, lb) for a, b, la, lb, _ai, _bi in found]
+            details["inside_ends"] = [(ai, bi) for *_rest, ai, bi in found]
+            tolerance = 0.0  # the yield already holds the part's tolerance
     preferred = {}
     if intervals and unit in ("Ω", "F", "H") and low > 0:
         for series in ("E12", "E24"):
@@ -175,14 +180,15 @@ def size(netlist: Any, part: str, within: Any, *, overrides: Mapping[str, Any] |
                         evaluations, circuit.title, yield_target, details)
 
 
-def _intervals(circuit, part: str, low: float, high: float, roots, requirements, method: str) -> list:
+def _intervals(circuit, part: str, low: float, high: float, roots, requirements, method: str, bar) -> list:
     """Cut [low, high] at the roots, test the middle of each piece, merge passing pieces."""
     cuts = sorted(roots)
     edges = [low] + [x for x, _ in cuts] + [high]
     owners = [None] + [requirements[r] for _, r in cuts] + [None]
     a, b = np.array(edges[:-1]), np.array(edges[1:])
     middles = np.sqrt(a * b) if low > 0 else 0.5 * (a + b)
-    verdict = evaluate_points(circuit, [part], middles[:, None], method=method).all_pass
+    bar.expect(middles.size)
+    verdict = evaluate_points(circuit, [part], middles[:, None], method=method, progress=bar.advance).all_pass
     out: list[Interval] = []
     for j, ok in enumerate(verdict):
         if not ok or edges[j + 1] <= edges[j]:

@@ -22,6 +22,7 @@ import numpy as np
 
 from ..errors import CircuitodeError
 from ..notebook import pandas_module
+from ..tolerance.progress import counter
 from .grid import MAX_POINTS, Axis, PointResults, axis_from, evaluate_points, grid_points, parse_axis, study_circuit
 
 __all__ = ["SweepResult", "sweep", "column_names"]
@@ -159,7 +160,7 @@ def _as_specs(vary: Any) -> list[tuple[str, Any]]:
 
 def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: Mapping[str, Any] | None = None,
           method: str = "exact", out_dir: str | Path | None = None, plots: bool = True,
-          progress=None) -> SweepResult:
+          progress: Any = True) -> SweepResult:
     """Evaluate a grid over one to three parameters or parts.
 
     Parameters
@@ -171,7 +172,8 @@ def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: M
     method : "exact" or "rk4" (the batch engine's integrators).
     out_dir : folder for ``sweep.csv`` and ``sweep.png``; None writes nothing.
     plots : write the PNG when a folder is given.
-    progress : optional callable(count) called as chunks of points finish.
+    progress : True shows a tqdm bar with an ETA (on a terminal's stderr or in a notebook), False
+        none; a callable(count) is called instead as chunks of points finish.
     """
     specs = _as_specs(vary)
     if not 1 <= len(specs) <= 3:
@@ -183,7 +185,8 @@ def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: M
     if count > MAX_POINTS:
         raise CircuitodeError(f"this sweep has {count:,} points; the limit is {MAX_POINTS:,} — use fewer values")
     points = grid_points(axes)
-    results = evaluate_points(circuit, names, points, method=method, progress=progress)
+    with counter(progress, points.shape[0], "sweep", "point") as bar:
+        results = evaluate_points(circuit, names, points, method=method, progress=bar.advance)
     if not results.ok.any():
         raise CircuitodeError(f"no point of the sweep could be simulated: {results.messages[0]}")
     result = SweepResult(axes, points, results, tuple(circuit.requirements), circuit.title)

@@ -82,16 +82,23 @@ class YieldSetting:
         return block
 
 
-def _passing(circuit, setting: YieldSetting, xs, method: str):
-    """(m, N) every requirement met, and (m, N, r) each requirement met, per candidate and sample."""
-    res = evaluate_points(circuit, setting.names, setting.points(xs), method=method)
+def _passing(circuit, setting: YieldSetting, xs, method: str, progress=None):
+    """(m, N) every requirement met, and (m, N, r) each requirement met, per candidate and sample.
+
+    progress : a :class:`~circuitode.tolerance.progress.Counter` told of the m·N runs, or None."""
+    if progress is not None:
+        progress.expect(np.atleast_1d(xs).size * setting.count)
+    res = evaluate_points(circuit, setting.names, setting.points(xs), method=method,
+                          progress=None if progress is None else progress.advance)
     m = np.atleast_1d(xs).size
     return res.all_pass.reshape(m, setting.count), (res.passes & res.ok[:, None]).reshape(m, setting.count, -1)
 
 
 def yield_intervals(circuit, part: str, nominal_intervals, target: float, *, samples: int = 500, seed: int = 0,
-                    points: int = 9, method: str = "exact"):
+                    points: int = 9, method: str = "exact", progress=None):
     """Intervals of x (inside the nominal ones) with yield ≥ target.
+
+    progress : a Counter (:mod:`circuitode.tolerance.progress`) told of every simulated point, or None.
 
     Returns (intervals, details): intervals as (low, high, low_limit, high_limit) with the
     requirement failing most samples just outside each refined end (None at a nominal end
@@ -107,7 +114,7 @@ def yield_intervals(circuit, part: str, nominal_intervals, target: float, *, sam
 
     def _passing_counted(circuit_, setting_, xs, method_):
         runs[0] += np.atleast_1d(xs).size * setting_.count
-        return _passing(circuit_, setting_, xs, method_)
+        return _passing(circuit_, setting_, xs, method_, progress)
 
     def surplus(x: float) -> float:
         ok, _ = _passing_counted(circuit, setting, [x], method)

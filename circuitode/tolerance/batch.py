@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import io
 import json
-import sys
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Sequence
@@ -30,6 +29,7 @@ from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .lock import FolderLock
+from .progress import Counter
 from .store import ChunkStore, fingerprint_text
 
 __all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys"]
@@ -235,26 +235,6 @@ def _preflight(circuit: Circuit, table: SampleTable, probes, keys, method: str) 
         raise CircuitodeError(f"the circuit cannot be simulated at its nominal values: {nominal['message'][0]}")
 
 
-class _Progress:
-    """A one-line progress bar on stderr, only when stderr is a terminal."""
-
-    def __init__(self, total: int, enabled: bool):
-        self.total, self.done = total, 0
-        self.enabled = enabled and hasattr(sys.stderr, "isatty") and sys.stderr.isatty()
-
-    def advance(self, count: int) -> None:
-        self.done += count
-        if self.enabled:
-            width = 40
-            filled = int(width * self.done / max(self.total, 1))
-            sys.stderr.write(f"\r  samples [{'#' * filled}{'.' * (width - filled)}] {self.done}/{self.total}")
-            sys.stderr.flush()
-
-    def close(self) -> None:
-        if self.enabled:
-            sys.stderr.write("\n")
-
-
 def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int = 0,
               workers: int | None = None, scheduler: Any = None, out_dir, chunk_size: int | None = None,
               tol_overrides=None, min_yield: float | None = None, progress: bool = True,
@@ -270,7 +250,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     out_dir : output folder; finished chunks there are reused (resume).
     chunk_size : samples per chunk (default from a memory budget).
     tol_overrides : ["NAME=5%", …].  min_yield : fraction in [0, 1] for the exit code.
-    progress : show a progress bar on stderr when it is a terminal.
+    progress : show a tqdm bar with an ETA (on stderr when it is a terminal, or in a notebook).
     method : "exact" or "rk4".  plots : write histogram and scatter PNGs.
     keep_waveforms : keep the recorded waveforms of the first this-many samples,
         decimated to about 2,000 points, as ``waveforms/sample_<i>.csv``.
@@ -359,8 +339,8 @@ def _run_chunks(circuit, table, store, n_chunks, chunk_size, keys, probes, metho
     N = table.count
     done = store.finished()
     todo = [c for c in range(n_chunks) if c not in done]
-    bar = _Progress(N, progress)
-    bar.advance(sum(min(chunk_size, N - c * chunk_size) for c in done if c < n_chunks))
+    bar = Counter(N, "samples", unit="sample", enabled=progress)
+    bar.advance(sum(min(chunk_size, N - c * chunk_size) for c in done if c < n_chunks))  # resumed chunks
     executor = make_executor(workers, scheduler)
     values = table.values
     tasks = [(c, {"circuit": circuit, "names": table.names, "start": c * chunk_size,
