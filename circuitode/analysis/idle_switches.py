@@ -14,7 +14,7 @@ from typing import Any
 
 import numpy as np
 
-from ..model.circuit import Circuit, ThresholdRule
+from ..model import Circuit, ThresholdRule
 
 __all__ = ["IdleSwitch", "idle_switches"]
 
