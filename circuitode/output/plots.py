@@ -265,7 +265,16 @@ def _label_events(ax: Any, events: Sequence[Any], tf: float) -> None:
     import matplotlib.transforms as transforms
 
     trans = transforms.blended_transform_factory(ax.transData, ax.transAxes)
+    low, high = ax.get_xlim()
+    room = 0.14 * (high - low)  # a label is about this wide: later ones that would overlap are left out
+    last = -math.inf
     for ev in list(events)[:8]:
-        word = "closes" if ev.closed else "opens"
+        if ev.time * tf < last + room:
+            continue
+        last = ev.time * tf
+        if "conducting" in ev.reason:  # a diode
+            word = "conducts" if ev.closed else "blocks"
+        else:
+            word = "closes" if ev.closed else "opens"
         ax.text(ev.time * tf, 1.01, f"{ev.switch} {word}", transform=trans, rotation=0, fontsize=7,
                 ha="left", va="bottom", color="#555555")
