@@ -79,3 +79,18 @@ def test_sensitivity_ranks_the_strong_driver_first_and_constant_last():
     ranking = sensitivity_ranking(("a", "b", "c"), x, y)
     assert [d.parameter for d in ranking] == ["c", "a", "b"]
     assert ranking[0].rho < -0.9 and np.isnan(ranking[2].rho)
+
+
+def test_a_level_of_rounding_size_beside_its_quantity_prints_as_zero():
+    # The minimum of a link voltage that charges from 0 V to 49 V came out of the solution
+    # as -2e-15 V ± 4e-16 V in a 500-sample batch and was printed as "-0.000147 pV": rounding
+    # of the solution, not a spread. Against the quantity's own 49 V it is 4e-17 relative.
+    from types import SimpleNamespace
+
+    from circuitode.tolerance.summary import _state
+
+    noise = SimpleNamespace(mean=-1.5e-16, std=4.4e-16, minimum=-1.7e-15, maximum=0.0)
+    assert _state(noise, "V", level=49.0) == "zero"
+    assert _state(noise, "V") == "varies"  # without the quantity's scale nothing says it is rounding
+    real = SimpleNamespace(mean=-2.75e-3, std=2.7e-4, minimum=-3.3e-3, maximum=-2.2e-3)
+    assert _state(real, "A", level=4.8) == "varies"  # a 3 mA undershoot beside a 4.8 A peak is real

@@ -21,6 +21,8 @@ __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
 NO_SPREAD = 1e-9
 #: Step figures in % below this are rounding (a charge that ends exactly at its source level).
 PERCENT_NOISE = 1e-6
+#: A level within this fraction of its quantity's largest |peak| is rounding of the solution, printed as 0.
+LEVEL_NOISE = 1e-12
 #: Overshoot or undershoot above this (in %) says the signal is no step response (an AC bus,
 #: a signal that ends near zero): the number would mislead.
 PERCENT_ABSURD = 1000.0
@@ -54,12 +56,15 @@ def _meets(requirement, value: float) -> bool:
     return bool({"<": value < limit, "<=": value <= limit, ">": value > limit, ">=": value >= limit}[op])
 
 
-def _state(s, unit: str) -> str:
-    """"absurd" (a % step figure beyond sense), "rounding" (a % figure of rounding size), "fixed"
-    (no spread beyond rounding), "missing" (no finite value) or "varies"."""
+def _state(s, unit: str, level: float = 0.0) -> str:
+    """"absurd" (a % step figure beyond sense), "rounding" (a % figure of rounding size, or a level
+    within 1e-12 of the quantity's own ``level``, e.g. a minimum of -2e-15 V on a 49 V link),
+    "fixed" (no spread beyond rounding), "missing" (no finite value) or "varies"."""
     largest = max(abs(s.minimum), abs(s.maximum))
     if not math.isfinite(largest):
         return "missing" if not math.isfinite(s.mean) else "varies"
+    if unit != "%" and largest <= LEVEL_NOISE * level:
+        return "zero"
     if unit == "%" and largest > PERCENT_ABSURD:
         return "absurd"
     if unit == "%" and largest < PERCENT_NOISE:
@@ -67,14 +72,25 @@ def _state(s, unit: str) -> str:
     return "varies" if varies(s) else "fixed"
 
 
-def _figure_row(label: str, s, unit: str) -> list[str]:
+def _levels(result) -> dict[str, float]:
+    """Each quantity's largest |peak| over the batch (its scale), by probe label."""
+    out: dict[str, float] = {}
+    for (figure, label), s in result.summaries.items():
+        if figure == "peak" and math.isfinite(s.maximum):
+            out[label] = max(out.get(label, 0.0), abs(s.maximum), abs(s.minimum))
+    return out
+
+
+def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
     """The statistics row of one figure; a long label gets a line of its own."""
     width = _LABEL - 1
     lead = [] if len(label) <= width else textwrap.wrap(label, WIDTH, subsequent_indent="  ")
     first = f"{label:<{_LABEL}}" if not lead else f"{'':<{_LABEL}}"
-    state = _state(s, unit)
+    state = _state(s, unit, level)
     if state == "absurd":
         body = f"{'—':>10}  over {PERCENT_ABSURD:g} %: not a step"
+    elif state == "zero":
+        body = f"{_si(0.0, unit, 3):>10}  does not vary (rounding)"
     elif state == "missing":
         body = f"{'—':>10}  no value in any sample"
     elif state == "rounding":
@@ -101,8 +117,9 @@ def format_batch_summary(result) -> str:
     lines.append("")
     head = f"{'figure':<{_LABEL}}" + "".join(f"{h:>10}" for h in ("mean", "σ", "P1", "P99"))
     lines += [head, "─" * len(head)]
+    levels = _levels(result)
     for (key, s), unit in zip(result.summaries.items(), result.figure_units):
-        lines.extend(_figure_row(figure_label(key), s, unit))
+        lines.extend(_figure_row(figure_label(key), s, unit, levels.get(key[1], 0.0)))
     lines.append("")
     y = result.yield_estimate
     if result.requirements:
@@ -133,8 +150,8 @@ def format_batch_summary(result) -> str:
         if len(label) > 45:
             lines.append(f"  {label}")
             label = ""
-        state = _state(s, unit)
-        if state in ("fixed", "rounding"):
+        state = _state(s, unit, levels.get(key[1], 0.0))
+        if state in ("fixed", "rounding", "zero"):
             lines.append(f"  {label:<46}does not vary")
         elif state == "absurd":
             lines.append(f"  {label:<46}not a step response")
