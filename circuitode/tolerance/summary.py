@@ -63,7 +63,7 @@ def _state(s, unit: str, level: float = 0.0) -> str:
     largest = max(abs(s.minimum), abs(s.maximum))
     if not math.isfinite(largest):
         return "missing" if not math.isfinite(s.mean) else "varies"
-    if unit != "%" and largest <= LEVEL_NOISE * level:
+    if unit != "%" and 0.0 < largest <= LEVEL_NOISE * level:
         return "zero"
     if unit == "%" and largest > PERCENT_ABSURD:
         return "absurd"
