@@ -39,6 +39,9 @@ def sparse_choice(circuit, method: str) -> tuple[str, str] | None:
     """
     n = len(circuit.state_names)
     thresholds = [s.name for s in circuit.switches if isinstance(s.control, (ThresholdRule, DiodeRule))]
+    wanted = method in SPARSE_METHODS or (method == "auto" and n > SPARSE_STATES and not thresholds)
+    if not wanted:  # the common case: no configuration is enumerated for a dense run
+        return None
     held = _held_states(circuit)
     if method in SPARSE_METHODS and held:
         raise CircuitodeError(
@@ -53,10 +56,8 @@ def sparse_choice(circuit, method: str) -> tuple[str, str] | None:
                 f"method {method} does not locate threshold instants, and switch(es) "
                 f"{', '.join(thresholds)} act on a threshold; use method exact, radau or bdf")
         return method, f"{method}: chosen by the user (sparse descriptor equations, {n} states)"
-    if method == "auto" and n > SPARSE_STATES and not thresholds:
-        return "auto", (f"{n} states is above {SPARSE_STATES}, so the equations stay sparse "
-                        "(descriptor form) and no dense eigenvalues are computed")
-    return None
+    return "auto", (f"{n} states is above {SPARSE_STATES}, so the equations stay sparse "
+                    "(descriptor form) and no dense eigenvalues are computed")
 
 
 def _held_states(circuit) -> str:
