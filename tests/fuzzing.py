@@ -66,7 +66,7 @@ def statements(draw):
         return f"{draw(st.sampled_from(['voltage_source', 'current_source']))} {n()} {n()} -- {n()} {wave}"
     if kind == 3:
         control = draw(st.sampled_from([f"closes at {v()}", f"opens at {v()} closes at {v()}",
-                                        f"toggles period {v()} duty {v()}",
+                                        f"toggles every {v()} duty {v()}",
                                         f"closes when voltage at {n()} > {v()}"]))
         return f"switch {n()} {n()} -- {n()} {control}" + draw(st.sampled_from(["", f" on {v()}"]))
     if kind == 4:

@@ -180,9 +180,9 @@ def test_timed_sequence():
 
 
 def test_toggling_duty_is_a_fraction():
-    k = _switch("toggles period 20 us duty 40 % start 0 s")
+    k = _switch("toggles every 20 us duty 40 % from 0 s")
     assert k.control == cm.PeriodicSchedule(20e-6, 0.4, 0.0)
-    assert _switch("toggles duty 25 % period 1 ms").control == cm.PeriodicSchedule(1e-3, 0.25, 0.0)
+    assert _switch("toggles duty 25 % every 1 ms").control == cm.PeriodicSchedule(1e-3, 0.25, 0.0)
 
 
 def test_threshold_rules_and_resistances():

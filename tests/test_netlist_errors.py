@@ -43,7 +43,7 @@ CASES = [
     (BASE + "switch K a -- b closes at 2 ms closes at 3 ms", 5, 32, r"already closed", None),
     (BASE + "switch K a -- b closes at 2 ms opens at 1 ms", 5, 41, r"times must increase", None),
     (BASE + "switch K a -- b opens when power in R1 > 3 W", 5, 28, r"cannot watch a power", None),
-    (BASE + "switch K a -- b toggles period 1 ms duty 140 %", 5, 42, r"duty must lie strictly between", None),
+    (BASE + "switch K a -- b toggles every 1 ms duty 140 %", 5, 41, r"duty must lie strictly between", None),
     (BASE + "transient until 10 ms method rk5", 5, 23, r"unknown method 'rk5'", r"rk45"),
     (BASE + "transient step 1 us", 5, 1, r"needs its end time", r"until"),
     (BASE + "transient until 1 ms\ntransient until 2 ms", 6, 1, r"second 'transient'", None),
@@ -206,3 +206,17 @@ def test_mutated_examples_are_a_circuit_or_a_netlist_error(example, edits):
         else:
             text = text[:i] + piece + text[i + len(piece):]
     _outcome(text, str(path))  # the real path, so includes resolve
+
+
+def test_toggling_switch_former_words_point_to_the_pulses_words():
+    """`toggles` speaks the words of `pulses`; its former words get their successor as the hint."""
+    from circuitode.errors import NetlistError
+    from circuitode.netlist import loads
+    for former, successor in (("period", "every"), ("start", "from")):
+        text = ("voltage_source V1 a -- gnd constant 1 V\nresistor R1 b -- gnd 1 kΩ\n"
+                f"switch S1 a -- b toggles every 1 ms duty 50 % {former} 1 ms\n" if former == "start" else
+                "voltage_source V1 a -- gnd constant 1 V\nresistor R1 b -- gnd 1 kΩ\n"
+                f"switch S1 a -- b toggles {former} 1 ms duty 50 %\n")
+        with pytest.raises(NetlistError) as caught:
+            loads(text)
+        assert f"did you mean '{successor}'" in str(caught.value)

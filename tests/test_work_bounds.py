@@ -72,7 +72,7 @@ def test_memory_and_disk_are_checked_against_what_is_free(tmp_path, capsys, monk
 
 
 def test_a_switch_toggling_every_ns_for_2_ms_is_refused_at_100000_events(tmp_path, capsys, simulate_never):
-    body = ("voltage_source V1 a -- gnd constant 1 V\nswitch S1 a -- b toggles period 1 ns duty 50 %\n"
+    body = ("voltage_source V1 a -- gnd constant 1 V\nswitch S1 a -- b toggles every 1 ns duty 50 %\n"
             "resistor R1 b -- gnd 1 Ω\nrecord voltage at b\ntransient until 2 ms step 1 us\n")
     code, err = _code_err(capsys, "run", _file(tmp_path, body), "--out", str(tmp_path / "o"))
     assert code == 2

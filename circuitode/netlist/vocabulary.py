@@ -47,6 +47,7 @@ PULSE_EDGE_WORDS = ("edges", "rising", "falling")
 _FORMER_WORDS = {
     "dc": "constant", "pwl": "points", "pulse": "pulses", "low": "base", "high": "top", "delay": "from",
     "rise": "rising", "fall": "falling", "width": "hold", "period": "every", "count": "repeats",
+    "start": "from",
 }
 
 
@@ -66,7 +67,8 @@ def word_hint(word: str, choices) -> str:
     if successor is not None and successor in choices:
         return f"did you mean '{successor}'?"
     return did_you_mean(word, choices)
-TOGGLE_FIELDS = {"period": ("period", "s", None), "duty": ("duty", "%", None), "start": ("start", "s", 0.0)}
+#: The toggling switch speaks the words of ``pulses``: ``every`` period, ``duty``, ``from`` the first closing.
+TOGGLE_FIELDS = {"every": ("period", "s", None), "duty": ("duty", "%", None), "from": ("start", "s", 0.0)}
 
 #: Written figure words → canonical names of circuit.FIGURES.
 FIGURE_WORDS = {
