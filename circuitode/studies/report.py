@@ -1,6 +1,7 @@
 """Text of the ``sweep`` and ``size`` commands (≤ 80 columns, engineering notation)."""
 from __future__ import annotations
 
+import math
 from typing import Any, Sequence
 
 import numpy as np
@@ -9,12 +10,40 @@ from ..analysis.measure import figure_unit
 from ..quantities import format_si
 from ..output.report import requirement_words
 
-__all__ = ["limit_words", "sweep_text", "size_text"]
+__all__ = ["limit_words", "sweep_text", "size_text", "worst_lines", "show_value"]
 
 
 def limit_words(requirement: Any) -> str:
     """E.g. "peak of current through R1 < 6 A"."""
     return requirement_words(requirement, figure_unit(requirement.figure, requirement.probe.unit))
+
+
+def show_value(value: float, unit: str, digits: int = 4) -> str:
+    """A varied value as the user writes it: angles (rad inside) in degrees, others in SI."""
+    if unit == "rad":
+        return format_si(math.degrees(value), "deg", digits)
+    return format_si(value, unit, digits)
+
+
+def worst_lines(result: Any) -> list[str]:
+    """For each requirement: its worst figure and where (the varied values), and whether
+    the point was refined between grid points (with the resolution reached)."""
+    if not getattr(result, "worst", None):
+        return []
+    units = dict(zip(result.results.figure_keys, result.results.figure_units))
+    out = ["", "worst point of each limit:"]
+    for w in result.worst:
+        req = w.requirement
+        unit = units.get((req.figure, req.probe.label), "")
+        where = ", ".join(f"{a.name} = {show_value(v, a.unit, 7 if w.refined else 4)}"
+                          for a, v in zip(result.axes, w.point))
+        verdict = "meets" if w.margin >= 0 else "fails"
+        out.append(f"  {limit_words(req)}")
+        out.append(f"    {format_si(w.value, unit, 7 if w.refined else 4)} ({verdict}) at {where}")
+        if len(result.axes) == 1 and np.isfinite(w.step):
+            how = "refined between grid points" if w.refined else "grid point"
+            out.append(f"    ({how}; ± {show_value(w.step, result.axes[0].unit, 2)})")
+    return out
 
 
 def _head(title: str, path: str | None) -> str:
@@ -26,8 +55,8 @@ def sweep_text(result: Any, path: str | None = None) -> str:
     n = result.points.shape[0]
     good = result.all_pass
     out = [_head(result.title, path)]
-    grid = " × ".join(f"{a.name} {a.values.size} values {format_si(a.values.min(), a.unit)} to "
-                      f"{format_si(a.values.max(), a.unit)}{' (log)' if a.log else ''}" for a in result.axes)
+    grid = " × ".join(f"{a.name} {a.values.size} values {show_value(a.values.min(), a.unit)} to "
+                      f"{show_value(a.values.max(), a.unit)}{' (log)' if a.log else ''}" for a in result.axes)
     out += [f"sweep: {n} points ({grid}), through the batch engine", ""]
     failed = int((~result.results.ok).sum())
     if failed:
@@ -39,7 +68,9 @@ def sweep_text(result: Any, path: str | None = None) -> str:
     if good.any():
         for j, a in enumerate(result.axes):
             values = result.points[good, j]
-            out.append(f"  {a.name} among them: {format_si(values.min(), a.unit)} to {format_si(values.max(), a.unit)}")
+            out.append(f"  {a.name} among them: {show_value(values.min(), a.unit)} to "
+                       f"{show_value(values.max(), a.unit)}")
+    out += worst_lines(result)
     if result.files:
         out += ["", "files:"] + [f"  {name:<9} {p}" for name, p in result.files.items()]
     return "\n".join(out)
