@@ -201,10 +201,18 @@ def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: M
         if len(axes) != 1:
             raise CircuitodeError("refining the worst point needs a sweep of one name; vary one name, or "
                                   "leave out the refinement")
-        result.worst = [refine_worst(circuit, names[0], axes[0].values, w, method=method) for w in result.worst]
+        reqs = list(result.requirements)
+        result.worst = [refine_worst(circuit, names[0], axes[0].values, w, *_of(results, reqs, w.requirement),
+                                     method=method) for w in result.worst]
     if out_dir is not None:
         result.files = write_sweep(result, Path(out_dir), plots)
     return result
+
+
+def _of(results: PointResults, requirements: list, req) -> tuple[np.ndarray, np.ndarray]:
+    """(margins, figures) of requirement ``req`` at every point, NaN where a point failed."""
+    margins = np.where(results.ok, results.margins[:, requirements.index(req)], np.nan)
+    return margins, results.figures[:, results.figure_keys.index((req.figure, req.probe.label))]
 
 
 def write_sweep(result: SweepResult, folder: Path, plots: bool = True) -> dict:

@@ -67,10 +67,36 @@ def _grid_step(values: np.ndarray, k: int) -> float:
     return 0.5 * max(near) if near else float("nan")
 
 
-def refine_worst(circuit, name: str, grid: np.ndarray, worst: Worst, *, method: str = "exact",
-                 tol: float = 1e-9, rounds: int = 40) -> Worst:
-    """Refine ``worst`` (found on the sorted or unsorted 1-D ``grid`` of ``name``) between its
-    neighbours; stops when the interval is below ``tol`` × the grid's span."""
+def refine_worst(circuit, name: str, grid: np.ndarray, worst: Worst, margins=None, figures=None, *,
+                 method: str = "exact", tol: float = 1e-9, rounds: int = 40, candidates: int = 3) -> Worst:
+    """Refine ``worst`` (found on the 1-D ``grid`` of ``name``) between grid neighbours.
+
+    With the grid's ``margins`` and ``figures`` of this requirement ((N,) each, NaN where a
+    point failed), each of the ``candidates`` lowest local minima of the margin along the
+    sorted grid is refined and the worst kept: the worst point may lie beside a grid point
+    other than the grid's worst (nearly equal margins, or an angle axis whose two ends are
+    the same point of the wave).  Stops when the interval is below ``tol`` × the span.
+    """
+    if margins is None:
+        return _refine_one(circuit, name, grid, worst, method, tol, rounds)
+    grid = np.asarray(grid, dtype=float)
+    order = np.argsort(grid, kind="stable")
+    m = np.where(np.isfinite(margins), margins, np.inf)[order]
+    padded = np.concatenate([[np.inf], m, [np.inf]])
+    local = np.flatnonzero((m <= padded[:-2]) & (m <= padded[2:]) & np.isfinite(m))
+    best = None
+    for k in local[np.argsort(m[local], kind="stable")][:candidates]:
+        j = int(order[k])
+        start = Worst(worst.requirement, j, grid[j:j + 1].copy(), float(figures[j]), float(m[k]))
+        found = _refine_one(circuit, name, grid, start, method, tol, rounds)
+        if best is None or found.margin < best.margin:
+            best = found
+    return worst if best is None else best
+
+
+def _refine_one(circuit, name: str, grid: np.ndarray, worst: Worst, method: str, tol: float,
+                rounds: int) -> Worst:
+    """Refine one grid point between its neighbours (one batch per round)."""
     order = np.sort(np.asarray(grid, dtype=float))
     x = float(worst.point[0])
     k = int(np.searchsorted(order, x))

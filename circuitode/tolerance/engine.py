@@ -157,7 +157,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     N = _batch_size(values)
     t_grid = output_grid(circuit)
     switches = circuit.switches
-    clocks = Clocks(circuit, {k: v for k, v in values.items() if k[1].startswith("control.")}, N)
+    clocks = Clocks(circuit, {k: v for k, v in values.items() if k[1].startswith("control.")}, N,
+                    1e-12 * float(output_grid(circuit)[-1]))
     thr = [i for i, s in enumerate(switches) if isinstance(s.control, ThresholdRule)]
     rules = [switches[i].control for i in thr]
     rows, recipe = linear_probes(tuple(probes))

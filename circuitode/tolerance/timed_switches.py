@@ -58,9 +58,10 @@ class Clocks:
     switches : indices (into ``circuit.switches``) of the k switches with per-sample instants.
     instants : (N, k) s, each sample's instant of each (≤ 0: at the start).
     rules : k rules for :class:`.thresholds.Watch` (level 0 on the clock rows).
+    slack : s, an instant this close to a stretch's start acts at that start.
     """
 
-    def __init__(self, circuit: Circuit, values: dict, N: int):
+    def __init__(self, circuit: Circuit, values: dict, N: int, slack: float = 0.0):
         switches, instants, rules = [], [], []
         for i, s in enumerate(circuit.switches):
             keys = [(s.name, f) for f in TIMING_FIELDS if (s.name, f) in values]
@@ -83,6 +84,7 @@ class Clocks:
         stacked = np.stack(instants, axis=1) if instants else np.zeros((N, 0))
         self.instants = np.where(stacked <= 0.0, -np.finfo(float).tiny, stacked)
         self.rules = rules
+        self.slack = slack
 
     @property
     def k(self) -> int:
@@ -103,7 +105,10 @@ class Clocks:
         z = np.empty((N, q + 1 + k))
         z[:, :q] = np.broadcast_to(z0, (N, q))
         z[:, q] = 1.0
-        z[:, q + 1:] = a - self.instants
+        # an instant on the stretch's start (within rounding) is met there, so it acts at once
+        # (a threshold acts on a strict crossing, which a clock starting at 0 would never make)
+        tau = a - self.instants
+        z[:, q + 1:] = np.where(np.abs(tau) <= self.slack, np.finfo(float).tiny, tau)
         H2 = np.zeros((H.shape[0], q + 1 + k))
         H2[:, :q] = H
         read = np.zeros((k, q + 1 + k))
