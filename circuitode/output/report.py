@@ -322,9 +322,8 @@ def caution_text() -> str:
 
 def unit_of_parameter(circuit: Circuit, name: str) -> str:
     """The unit of a toleranced parameter, from the first element field it feeds."""
-    fields = {"resistance": "Ω", "on_resistance": "Ω", "off_resistance": "Ω", "capacitance": "F",
-              "inductance": "H", "initial_voltage": "V", "initial_current": "A", "k": "",
-              "control.changes.0": "s", "control.angle": "rad"}
+    fields = {"resistance": "Ω", "on_resistance": "Ω", "off_resistance": "Ω", "capacitance": "F", "inductance": "H",
+              "initial_voltage": "V", "initial_current": "A", "k": "", "control.changes.0": "s", "control.angle": "rad"}
     for (_owner, field), recipe in circuit.recipes.items():
         if name in recipe.names and field in fields:
             return fields[field]
