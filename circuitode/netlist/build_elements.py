@@ -185,6 +185,11 @@ class ElementStatements(ValueResolver):
                     f"switch '{switch.name}' closes on an angle of '{spec.source}', which is {what}", spec.source_where,
                     f"name a sine source: {', '.join(sines)}" if sines else
                     "declare a 'sine' source and name it here")
+            if not wave.frequency > 0.0:
+                raise NetlistError(
+                    f"switch '{switch.name}' closes on an angle of '{spec.source}', whose frequency is "
+                    f"{wave.frequency:g} Hz: its phase never comes round", spec.source_where,
+                    f"give '{spec.source}' a positive frequency")
             for field in ("frequency", "phase", "delay"):
                 if (spec.source, f"waveform.{field}") in self.recipes:
                     raise NetlistError(
