@@ -137,6 +137,8 @@ def _study_parsers(sub) -> None:
     p.add_argument("--method", choices=("exact", "rk4"), default="exact", help="batched integrator")
     p.add_argument("--out", type=Path, help="folder (default: <netlist>-sweep next to the netlist)")
     p.add_argument("--no-plots", action="store_true", help="skip the PNG")
+    p.add_argument("--refine-worst", action="store_true",
+                   help="one name only: narrow down the worst point of each limit between grid points")
 
     p = sub.add_parser("size", help="the values of one part over which every 'require' holds, with E12/E24 values",
                        epilog=COMMAND_EXAMPLES["size"], formatter_class=argparse.RawDescriptionHelpFormatter)
@@ -304,7 +306,7 @@ def _sweep(args: argparse.Namespace) -> int:
 
     out = args.out or default_out_dir(args.netlist, "sweep")
     result = sweep(args.netlist, args.vary, overrides=dict(args.overrides) or None, method=args.method,
-                   out_dir=out, plots=not args.no_plots)
+                   out_dir=out, plots=not args.no_plots, refine=args.refine_worst)
     print(sweep_text(result, path=args.netlist))
     return result.exit_code
 

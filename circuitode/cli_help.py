@@ -14,6 +14,7 @@ examples:
   circuitode modes netlists/lc_filter.cnet
   circuitode tolerance netlists/precharge.cnet --samples 10000 --sampler lhs --seed 7
   circuitode sweep netlists/precharge.cnet --vary R_pre=4.7Ω..100Ω/20/log --vary C_link=1mF,1.5mF,2.2mF
+  circuitode sweep netlists/reactor_inrush.cnet --vary K_on.angle=0deg..360deg/73 --refine-worst
   circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ
   circuitode size netlists/precharge.cnet --part R_pre --range 1Ω..1kΩ --yield 99%
   circuitode response netlists/dc_link_ring.cnet --from batt --to "voltage at link" --impedance-at link

@@ -349,6 +349,17 @@ def format_si(value: float, unit: str, digits: int = 4) -> str:
     return f"{text} {_PRINT_PREFIXES[e]}{unit}"
 
 
+def format_value(value: float, unit: str, digits: int = 4) -> str:
+    """As :func:`format_si`, but an angle (SI radians) is printed in degrees, as users write it.
+
+    >>> format_value(math.pi / 2, "rad")
+    '90 deg'
+    """
+    if unit == "rad":
+        return format_si(math.degrees(float(value)), "deg", digits)
+    return format_si(value, unit, digits)
+
+
 def si_scale(values: Iterable[float] | np.ndarray) -> tuple[float, str]:
     """A factor and prefix for a plot axis, so that ``values * factor`` reads in ``prefix + unit``.
 

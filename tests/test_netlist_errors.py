@@ -44,6 +44,13 @@ CASES = [
     (BASE + "switch K a -- b closes at 2 ms opens at 1 ms", 5, 41, r"times must increase", None),
     (BASE + "switch K a -- b opens when power in R1 > 3 W", 5, 28, r"cannot watch a power", None),
     (BASE + "switch K a -- b toggles every 1 ms duty 140 %", 5, 41, r"duty must lie strictly between", None),
+    # point-on-wave closing: the angle of a sine source, in degrees or radians
+    (BASE + "switch K a -- b closes on angle 90 deg of V1", 5, 43, r"closes on an angle of 'V1', which is not a sine source",
+     r"declare a 'sine' source"),
+    (BASE + "switch K a -- b closes on angle 5 ms of V1", 5, 33, r"closing angle is in degrees", None),
+    (BASE + "voltage_source V2 b -- g sine amplitude 1 V frequency 0 Hz\nswitch K a -- b closes on angle 90 deg of V2", 6, 43,
+     r"frequency is 0 Hz: its phase never comes round", r"positive frequency"),
+    (BASE + "switch K a -- b closes on angle 90 of V1", 5, 33, r"closing angle needs its unit", r"e\.g\. 90 deg"),
     (BASE + "transient until 10 ms method rk5", 5, 23, r"unknown method 'rk5'", r"rk45"),
     (BASE + "transient step 1 us", 5, 1, r"needs its end time", r"until"),
     (BASE + "transient until 1 ms\ntransient until 2 ms", 6, 1, r"second 'transient'", None),

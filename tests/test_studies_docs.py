@@ -15,10 +15,10 @@ BLOCKS = re.findall(r"```\n\$ (circuitode .*?)\n(.*?)```", SECTION, flags=re.S)
 
 
 def test_the_section_shows_a_sweep_and_a_sizing():
-    assert [command.split()[1] for command, _ in BLOCKS] == ["size", "sweep"]
+    assert [command.split()[1] for command, _ in BLOCKS] == ["size", "sweep", "sweep"]
 
 
-@pytest.mark.parametrize("command, shown", BLOCKS, ids=[c.split()[1] for c, _ in BLOCKS])
+@pytest.mark.parametrize("command, shown", BLOCKS, ids=[f"{c.split()[1]}-{c.split()[2]}" for c, _ in BLOCKS])
 def test_readme_output_is_what_the_command_prints(command, shown, tmp_path, monkeypatch, capsys):
     monkeypatch.chdir(ROOT)
     argv = shlex.split(command)[1:]

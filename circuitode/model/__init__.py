@@ -21,13 +21,13 @@ from .periodic import PulseTrain, Sine
 from .probes import CurrentThrough, NodeVoltage, PowerIn, Probe, VoltageAcross, VoltageBetween
 from .run_settings import FIGURES, INITIAL_STATES, Analysis, Recipe, Requirement, Spread
 from .sources import SourceBank, Waveform
-from .switch_controls import DiodeRule, HysteresisRule, PeriodicSchedule, ThresholdRule, TimedSchedule
+from .switch_controls import AngleSchedule, DiodeRule, HysteresisRule, PeriodicSchedule, ThresholdRule, TimedSchedule
 from .waveforms import LinearGenerator, WaveformError
 
 __all__ = [
     "Resistor", "Capacitor", "Inductor", "VoltageSource", "CurrentSource", "Switch", "Diode",
     "Coupling", "TwoTerminal", "Element",
-    "TimedSchedule", "PeriodicSchedule", "ThresholdRule", "HysteresisRule", "DiodeRule",
+    "TimedSchedule", "AngleSchedule", "PeriodicSchedule", "ThresholdRule", "HysteresisRule", "DiodeRule",
     "NodeVoltage", "VoltageBetween", "VoltageAcross", "CurrentThrough", "PowerIn", "Probe",
     "INITIAL_STATES", "FIGURES", "Analysis", "Requirement", "Spread", "Recipe",
     "Circuit",

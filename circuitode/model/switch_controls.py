@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 from .probes import Probe
 
-__all__ = ["TimedSchedule", "PeriodicSchedule", "ThresholdRule", "HysteresisRule", "DiodeRule"]
+__all__ = ["TimedSchedule", "AngleSchedule", "PeriodicSchedule", "ThresholdRule", "HysteresisRule", "DiodeRule"]
 
 
 @dataclass(frozen=True)
@@ -26,6 +26,52 @@ class TimedSchedule:
 
     initially_closed: bool
     changes: tuple[tuple[float, bool], ...]
+
+
+@dataclass(frozen=True)
+class AngleSchedule(TimedSchedule):
+    """A switch that moves once, at a given angle of a sine source (point-on-wave closing).
+
+    The instant is the first ``t ≥ earliest`` (s) at which the source's phase
+    ``2π f (t − delay) + phase`` equals ``angle`` (rad) modulo 2π; ``changes`` holds it,
+    so everything that reads a timed schedule reads this one.  source : the sine
+    source's name; frequency Hz, phase rad and delay s are the source's.  Build one
+    with :meth:`make`; :meth:`instants` gives the instants of many angles at once.
+    """
+
+    source: str = ""
+    angle: float = 0.0
+    earliest: float = 0.0
+    frequency: float = 1.0
+    phase: float = 0.0
+    delay: float = 0.0
+
+    @classmethod
+    def make(cls, closes: bool, source: str, angle: float, earliest: float, frequency: float,
+             phase: float, delay: float) -> "AngleSchedule":
+        """The schedule with its one change placed at the angle's instant."""
+        proto = cls(not closes, (), source, float(angle), float(earliest), float(frequency), float(phase),
+                    float(delay))
+        return cls(not closes, ((float(proto.instants(angle)), closes),), source, float(angle),
+                   float(earliest), float(frequency), float(phase), float(delay))
+
+    def instants(self, angle):
+        """Instants (s, same shape as ``angle`` in rad) of the first moment at or after
+        ``max(earliest, delay)`` where the source's phase equals each angle."""
+        import numpy as np
+
+        period = 1.0 / self.frequency
+        start = max(self.earliest, self.delay)
+        # phase at `start`, and how far (in turns) each angle lies ahead of it
+        now = 2.0 * np.pi * self.frequency * (start - self.delay) + self.phase
+        ahead = np.mod((np.asarray(angle, dtype=float) - now) / (2.0 * np.pi), 1.0)
+        ahead = np.where(ahead > 1.0 - 1e-12, 0.0, ahead)  # an angle met at `start` itself
+        return start + ahead * period
+
+    def with_angle(self, angle: float) -> "AngleSchedule":
+        """The same schedule at another angle (rad)."""
+        return AngleSchedule.make(self.changes[0][1], self.source, angle, self.earliest, self.frequency,
+                                  self.phase, self.delay)
 
 
 @dataclass(frozen=True)

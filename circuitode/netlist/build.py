@@ -187,6 +187,7 @@ class _Builder(ElementStatements):
                 probes.append(st.probe)
             elif isinstance(st, SwitchStmt) and isinstance(st.control, ThresholdSpec):
                 probes.append(st.control.probe)
+        self.resolve_angles()
         two_terminal = {e.name: e for e in self.elements}
         nodes = {n for e in self.elements for n in (e.first, e.second)}
         if self.ground is not None:

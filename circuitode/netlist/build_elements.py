@@ -10,6 +10,7 @@ periodic schedules, threshold rules or hysteresis rules.
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from typing import Any
 
@@ -18,7 +19,7 @@ from .. import model as src
 from ..errors import NetlistError, Where
 from .build_values import ValueResolver
 from .pulses import pulse_times
-from .syntax import CouplingStmt, DiodeStmt, ElementStmt, SourceStmt, SwitchStmt, TimedSpec, ToggleSpec
+from .syntax import AngleSpec, CouplingStmt, DiodeStmt, ElementStmt, SourceStmt, SwitchStmt, TimedSpec, ToggleSpec
 from .vocabulary import ELEMENT_UNITS, TOGGLE_FIELDS, WAVEFORM_CLASSES, WAVEFORM_FIELDS, WAVEFORM_WORDS, word_hint
 
 __all__ = ["ElementStatements"]
@@ -132,7 +133,8 @@ class ElementStatements(ValueResolver):
             closed = not c.moves[0][0]
             last = -math.inf
             for i, (closes, valued, where) in enumerate(c.moves):
-                t = self.value(valued, "s", "a switching time", st.name, f"control.changes.{i}")
+                t = self.value(valued, "s", "a switching time", st.name, f"control.changes.{i}",
+                               label="at" if len(c.moves) == 1 else None)
                 if closes == closed:
                     raise NetlistError(f"the switch is already {'closed' if closed else 'open'} here", where,
                                        "alternate 'closes at' and 'opens at'")
@@ -142,6 +144,13 @@ class ElementStatements(ValueResolver):
                 changes.append((t, closes))
                 closed, last = closes, t
             control = cm.TimedSchedule(initially_closed=not c.moves[0][0], changes=tuple(changes))
+        elif isinstance(c, AngleSpec):
+            angle = self.value(c.angle, "rad", "a closing angle", st.name, "control.angle", need_unit=True,
+                               label="angle")
+            earliest = self.value(c.earliest, "s", "the earliest instant") if c.earliest is not None else 0.0
+            # placed once the sources are known (see resolve_angles); the move is kept for now
+            control = cm.AngleSchedule(not c.closes, ((earliest, c.closes),), c.source, angle, earliest)
+            self.pending_angles = getattr(self, "pending_angles", []) + [(len(self.elements), c)]
         elif isinstance(c, ToggleSpec):
             self._where = c.where
             kw = self.fields(c.fields, TOGGLE_FIELDS, st.name, "control.", "a toggling switch")
@@ -162,6 +171,34 @@ class ElementStatements(ValueResolver):
         on = self.value(st.on, "Ω", "an on-resistance", st.name, "on_resistance") if st.on else None
         off = self.value(st.off, "Ω", "an off-resistance", st.name, "off_resistance") if st.off else None
         self.elements.append(cm.Switch(st.name, st.first, st.second, control, on, off, where=st.where))
+
+    def resolve_angles(self) -> None:
+        """Place each ``closes on angle … of SOURCE`` switch: its source must be a sine source."""
+        for index, spec in getattr(self, "pending_angles", []):
+            switch = self.elements[index]
+            source = next((e for e in self.elements if e.name == spec.source), None)
+            wave = getattr(source, "waveform", None)
+            if not isinstance(source, (cm.VoltageSource, cm.CurrentSource)) or not isinstance(wave, src.Sine):
+                sines = [e.name for e in self.elements if isinstance(getattr(e, "waveform", None), src.Sine)]
+                what = "no element" if source is None else f"not a sine source"
+                raise NetlistError(
+                    f"switch '{switch.name}' closes on an angle of '{spec.source}', which is {what}", spec.source_where,
+                    f"name a sine source: {', '.join(sines)}" if sines else
+                    "declare a 'sine' source and name it here")
+            if not wave.frequency > 0.0:
+                raise NetlistError(
+                    f"switch '{switch.name}' closes on an angle of '{spec.source}', whose frequency is "
+                    f"{wave.frequency:g} Hz: its phase never comes round", spec.source_where,
+                    f"give '{spec.source}' a positive frequency")
+            for field in ("frequency", "phase", "delay"):
+                if (spec.source, f"waveform.{field}") in self.recipes:
+                    raise NetlistError(
+                        f"the {field} of '{spec.source}' carries a tolerance, but switch '{switch.name}' is "
+                        "placed on its angle", spec.source_where, f"fix the {field} of '{spec.source}'")
+            c = switch.control
+            placed = cm.AngleSchedule.make(c.changes[0][1], spec.source, c.angle, c.earliest, wave.frequency,
+                                           wave.phase, wave.delay)
+            self.elements[index] = dataclasses.replace(switch, control=placed)
 
     def hysteresis(self, st: SwitchStmt, first: cm.ThresholdRule, back) -> cm.HysteresisRule:
         """The second clause of ``closes when …, opens when …``: the opposite move, on the

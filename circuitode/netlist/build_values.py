@@ -148,7 +148,8 @@ class ValueResolver:
         except NetlistError as err:
             raise _located(err, valued.where) from None
         if need_unit and found is None:
-            raise NetlistError(f"{what} needs its unit", valued.where, f"write it in {unit_phrase(unit)}, e.g. 40 %")
+            example = "90 deg" if unit == "rad" else "40 %"
+            raise NetlistError(f"{what} needs its unit", valued.where, f"write it in {unit_phrase(unit)}, e.g. {example}")
         number = self._number(valued.expr, valued.where, what)
         if valued.tolerance is not None:
             if owner is None:

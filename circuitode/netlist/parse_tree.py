@@ -15,7 +15,7 @@ from . import expressions as ex
 from ..quantities import read_quantity
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, ParamStmt, ProbeSpec, RecordStmt,
-    RequireStmt, SourceStmt, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
+    AngleSpec, RequireStmt, SourceStmt, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
     TransientStmt, Valued, WaveformSpec,
 )
 
@@ -127,6 +127,11 @@ class ToSyntaxTree(Transformer):
 
     def timed_move(self, items):
         return (str(items[0]) == "closes", items[1], self.at(items[0]))
+
+    def angle_control(self, items):
+        move, angle, source = items[0], items[1], items[2]
+        earliest = items[3] if len(items) > 3 else None
+        return AngleSpec(str(move) == "closes", angle, str(source), self.at(source), earliest, self.at(move))
 
     @v_args(meta=True)
     def toggle_control(self, meta, items):

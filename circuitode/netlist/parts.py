@@ -12,6 +12,8 @@ part name          field                                        unit
 ``C1.initial``     initial voltage (capacitor) / current (L)    V, A
 ``K1.on``          on-resistance of a switch                    Ω
 ``K1.off``         off-resistance of a switch                   Ω
+``K1.at``          instant of a switch that moves once          s
+``K1.angle``       angle of a switch placed on a sine's angle   rad (deg)
 ``M1.k``           coupling factor                              (none)
 ``V1.value``       level of a ``dc`` source                     V, A
 ``V1.amplitude``   any written field of the source's waveform   by field
@@ -66,7 +68,13 @@ def _fields_of(element: Any) -> dict[str, tuple[str, str]]:
     if isinstance(element, cm.Inductor):
         return {"": ("inductance", "H"), "initial": ("initial_current", "A")}
     if isinstance(element, cm.Switch):
-        return {"on": ("on_resistance", "Ω"), "off": ("off_resistance", "Ω")}
+        fields = {"on": ("on_resistance", "Ω"), "off": ("off_resistance", "Ω")}
+        control = element.control
+        if isinstance(control, cm.AngleSchedule):
+            fields["angle"] = ("control.angle", "rad")
+        elif isinstance(control, cm.TimedSchedule) and len(control.changes) == 1:
+            fields["at"] = ("control.changes.0", "s")
+        return fields
     if isinstance(element, cm.Coupling):
         return {"k": ("k", "")}
     if isinstance(element, (cm.VoltageSource, cm.CurrentSource)):
@@ -114,6 +122,11 @@ def resolve_part(circuit: cm.Circuit, name: str, option: str = "--set") -> PartF
 
 
 def _replaced(element: Any, path: str, value: float) -> Any:
+    if path == "control.angle":
+        return dataclasses.replace(element, control=element.control.with_angle(value))
+    if path == "control.changes.0":
+        (_, closes), = element.control.changes
+        return dataclasses.replace(element, control=dataclasses.replace(element.control, changes=((value, closes),)))
     if path.startswith("waveform."):
         attr = path.split(".", 1)[1]
         wave = dataclasses.replace(element.waveform, **{attr: value})
@@ -155,6 +168,10 @@ def set_parts(circuit: cm.Circuit, settings: Mapping[str, Any], option: str = "-
 
 
 def _current_value(element: Any, path: str) -> float:
+    if path == "control.changes.0":
+        return float(element.control.changes[0][0])
+    if path == "control.angle":
+        return float(element.control.angle)
     target = element.waveform if path.startswith("waveform.") else element
     value = getattr(target, path.split(".")[-1])
     return float("nan") if value is None else float(value)

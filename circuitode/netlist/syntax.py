@@ -19,6 +19,7 @@ __all__ = [
     "WaveformSpec",
     "ProbeSpec",
     "TimedSpec",
+    "AngleSpec",
     "ToggleSpec",
     "ThresholdSpec",
     "TitleStmt",
@@ -91,6 +92,19 @@ class TimedSpec:
     """``closes at 1 ms opens at 4 ms``: (closes?, time, where) per move."""
 
     moves: tuple[tuple[bool, Valued, Where], ...]
+
+
+@dataclass(frozen=True)
+class AngleSpec:
+    """``closes on angle 90 deg of Vmains from 5 ms``: the move, the angle, the sine
+    source's name and place, the earliest instant (None when not written)."""
+
+    closes: bool
+    angle: Valued
+    source: str
+    source_where: Where
+    earliest: Valued | None
+    where: Where
 
 
 @dataclass(frozen=True)
@@ -179,7 +193,7 @@ class SwitchStmt:
     name: str
     first: str
     second: str
-    control: TimedSpec | ToggleSpec | ThresholdSpec
+    control: TimedSpec | AngleSpec | ToggleSpec | ThresholdSpec
     on: Valued | None
     off: Valued | None
     where: Where

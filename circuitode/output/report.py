@@ -26,13 +26,13 @@ from ..model import (
     Resistor,
     Switch,
     ThresholdRule,
-    TimedSchedule,
+    TimedSchedule, AngleSchedule,
     VoltageSource,
 )
 from ..analysis.idle_switches import idle_switches
 from ..analysis.measure import figure_unit
 from ..analysis.resolution import resolution_warnings
-from ..quantities import format_si
+from ..quantities import format_si, format_value
 from .mode_table import modes_text  # noqa: F401 - the modes table lives in its own module
 
 __all__ = [
@@ -149,14 +149,13 @@ def describe_control(switch: Switch) -> str:
     """Words for how a switch moves."""
     c = switch.control
     if isinstance(c, TimedSchedule):
-        moves = ", ".join(f"{'closes' if s else 'opens'} at {format_si(t, 's')}" for t, s in c.changes)
+        moves = ", ".join(f"{'closes' if s else 'opens'} at {format_si(t, 's')}" for t, s in c.changes) + (
+            f" (angle {format_value(c.angle, 'rad')} of {c.source})" if isinstance(c, AngleSchedule) else "")
         start = "closed" if c.initially_closed else "open"
         return f"starts {start}" + (f"; {moves}" if moves else "")
     if isinstance(c, PeriodicSchedule):
-        return (
-            f"toggles every {format_si(c.period, 's')}, closed {c.duty * 100:g} % of each "
-            f"period from {format_si(c.start, 's')}"
-        )
+        return (f"toggles every {format_si(c.period, 's')}, closed {c.duty * 100:g} % of each "
+                f"period from {format_si(c.start, 's')}")
     if isinstance(switch, Diode):
         drop = format_si(switch.drop, "V")
         return (f"diode, drop {drop}: conducts when its voltage exceeds {drop}, blocks when its "
@@ -322,8 +321,8 @@ def caution_text() -> str:
 
 def unit_of_parameter(circuit: Circuit, name: str) -> str:
     """The unit of a toleranced parameter, from the first element field it feeds."""
-    fields = {"resistance": "Ω", "on_resistance": "Ω", "off_resistance": "Ω", "capacitance": "F",
-              "inductance": "H", "initial_voltage": "V", "initial_current": "A", "k": ""}
+    fields = {"resistance": "Ω", "on_resistance": "Ω", "off_resistance": "Ω", "capacitance": "F", "inductance": "H",
+              "initial_voltage": "V", "initial_current": "A", "k": "", "control.changes.0": "s", "control.angle": "rad"}
     for (_owner, field), recipe in circuit.recipes.items():
         if name in recipe.names and field in fields:
             return fields[field]

@@ -67,6 +67,8 @@ def unit_of(circuit: Circuit, name: str) -> str | None:
     if unit:
         return unit
     for (element, field), recipe in circuit.recipes.items():
+        if name in recipe.names and field in _TIMING_UNITS:
+            return _TIMING_UNITS[field]
         if name in recipe.names and "." not in name:
             try:
                 return resolve_part(circuit, f"{element}.{field.split('.')[-1]}", "--vary").unit
@@ -75,10 +77,15 @@ def unit_of(circuit: Circuit, name: str) -> str | None:
     return None
 
 
+_TIMING_UNITS = {"control.changes.0": "s", "control.angle": "rad"}
+
+
 def _field_words(field: str) -> str:
     """E.g. "control.changes.0" → "switching time", "waveform.delay" → "delay"."""
     if field.startswith("control.changes."):
         return "switching time"
+    if field == "control.angle":
+        return "closing angle"
     return {"control.level": "switching level", "control.period": "toggling period", "control.duty": "duty",
             "control.start": "toggling start"}.get(field, field.split(".")[-1].replace("_", " "))
 

@@ -17,7 +17,7 @@ from typing import Any
 
 import numpy as np
 
-from ..quantities import format_si, si_scale
+from ..quantities import format_value, si_scale
 
 __all__ = ["sweep_figure"]
 
@@ -30,6 +30,8 @@ _MAX_FACETS = 4
 
 
 def _scaled(values: np.ndarray, unit: str) -> tuple[np.ndarray, str]:
+    if unit == "rad":  # angles as users write them
+        return np.degrees(values), "deg"
     if unit in ("", "%"):
         return values, unit
     factor, prefix = si_scale(values)
@@ -119,7 +121,7 @@ def _lines(result: Any):
             for n, line in enumerate(lines):
                 index = tuple(i for i in (slice(None), line, facet) if i is not None)
                 color = _PALETTE[n % len(_PALETTE)]
-                name = None if second is None else f"{second.name} = {format_si(second.values[line], second.unit)}"
+                name = None if second is None else f"{second.name} = {format_value(second.values[line], second.unit)}"
                 ax.plot(x, y[index], color=color, linewidth=1.4, label=name)
                 good = ok[index]
                 ax.plot(x[good], y[index][good], "o", color=color, markersize=4)
@@ -135,7 +137,7 @@ def _lines(result: Any):
             ax.set_ylabel(yunit)
             title = _title(j, req, result)
             if facet is not None:
-                title += f"; {third.name} = {format_si(third.values[facet], third.unit)}"
+                title += f"; {third.name} = {format_value(third.values[facet], third.unit)}"
             ax.set_title(title, fontsize=9)
             _tidy(ax)
             if row == 0 and col == 0 and (second is not None or req is not None):

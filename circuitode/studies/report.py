@@ -6,15 +6,36 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..analysis.measure import figure_unit
-from ..quantities import format_si
+from ..quantities import format_si, format_value
 from ..output.report import requirement_words
 
-__all__ = ["limit_words", "sweep_text", "size_text"]
+__all__ = ["limit_words", "sweep_text", "size_text", "worst_lines"]
 
 
 def limit_words(requirement: Any) -> str:
     """E.g. "peak of current through R1 < 6 A"."""
     return requirement_words(requirement, figure_unit(requirement.figure, requirement.probe.unit))
+
+
+def worst_lines(result: Any) -> list[str]:
+    """For each requirement: its worst figure and where (the varied values), and whether
+    the point was refined between grid points (with the resolution reached)."""
+    if not getattr(result, "worst", None):
+        return []
+    units = dict(zip(result.results.figure_keys, result.results.figure_units))
+    out = ["", "worst point of each limit:"]
+    for w in result.worst:
+        req = w.requirement
+        unit = units.get((req.figure, req.probe.label), "")
+        where = ", ".join(f"{a.name} = {format_value(v, a.unit, 7 if w.refined else 4)}"
+                          for a, v in zip(result.axes, w.point))
+        verdict = "meets" if w.margin >= 0 else "fails"
+        out.append(f"  {limit_words(req)}")
+        out.append(f"    {format_si(w.value, unit, 7 if w.refined else 4)} ({verdict}) at {where}")
+        if len(result.axes) == 1 and np.isfinite(w.step):
+            how = "refined between grid points" if w.refined else "grid point"
+            out.append(f"    ({how}; ± {format_value(w.step, result.axes[0].unit, 2)})")
+    return out
 
 
 def _head(title: str, path: str | None) -> str:
@@ -26,8 +47,8 @@ def sweep_text(result: Any, path: str | None = None) -> str:
     n = result.points.shape[0]
     good = result.all_pass
     out = [_head(result.title, path)]
-    grid = " × ".join(f"{a.name} {a.values.size} values {format_si(a.values.min(), a.unit)} to "
-                      f"{format_si(a.values.max(), a.unit)}{' (log)' if a.log else ''}" for a in result.axes)
+    grid = " × ".join(f"{a.name} {a.values.size} values {format_value(a.values.min(), a.unit)} to "
+                      f"{format_value(a.values.max(), a.unit)}{' (log)' if a.log else ''}" for a in result.axes)
     out += [f"sweep: {n} points ({grid}), through the batch engine", ""]
     failed = int((~result.results.ok).sum())
     if failed:
@@ -36,10 +57,18 @@ def sweep_text(result: Any, path: str | None = None) -> str:
         met = int((result.results.passes[:, i] & result.results.ok).sum())
         out.append(f"  {met:>6} of {n} meet  {limit_words(req)}")
     out.append(f"every requirement met at {int(good.sum())} of {n} points")
-    if good.any():
+    if good.any() and len(result.axes) == 1:  # the passing stretches, each on its own
+        a = result.axes[0]
+        edges = np.flatnonzero(np.diff(np.concatenate([[0], good.astype(np.int8), [0]])))
+        runs = [f"{format_value(a.values[i], a.unit)} to {format_value(a.values[j - 1], a.unit)}"
+                for i, j in zip(edges[::2], edges[1::2])]
+        out.append(f"  {a.name} among them: {', '.join(runs)}")
+    elif good.any():
         for j, a in enumerate(result.axes):
             values = result.points[good, j]
-            out.append(f"  {a.name} among them: {format_si(values.min(), a.unit)} to {format_si(values.max(), a.unit)}")
+            out.append(f"  {a.name} among them: {format_value(values.min(), a.unit)} to "
+                       f"{format_value(values.max(), a.unit)}")
+    out += worst_lines(result)
     if result.files:
         out += ["", "files:"] + [f"  {name:<9} {p}" for name, p in result.files.items()]
     return "\n".join(out)

@@ -23,6 +23,7 @@ import numpy as np
 from ..errors import CircuitodeError
 from ..notebook import pandas_module
 from ..tolerance.progress import counter
+from .worst import refine_worst, worst_points
 from .grid import MAX_POINTS, Axis, PointResults, axis_from, evaluate_points, grid_points, parse_axis, study_circuit
 
 __all__ = ["SweepResult", "sweep", "column_names"]
@@ -38,6 +39,8 @@ class SweepResult:
     the axes' lengths (reshape a column to ``shape`` for a grid).  results : figures and
     verdicts per point.  requirements : the netlist's.  title : the circuit's.
     files : name → path written (empty when no folder was given).
+    worst : per requirement, the :class:`~circuitode.studies.worst.Worst` point (the
+    smallest margin), refined between grid points when the sweep was asked to.
     """
 
     axes: list
@@ -46,6 +49,7 @@ class SweepResult:
     requirements: tuple
     title: str = ""
     files: dict = field(default_factory=dict)
+    worst: list = field(default_factory=list)
 
     @property
     def shape(self) -> tuple[int, ...]:
@@ -160,7 +164,7 @@ def _as_specs(vary: Any) -> list[tuple[str, Any]]:
 
 def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: Mapping[str, Any] | None = None,
           method: str = "exact", out_dir: str | Path | None = None, plots: bool = True,
-          progress: Any = True) -> SweepResult:
+          progress: Any = True, refine: bool = False) -> SweepResult:
     """Evaluate a grid over one to three parameters or parts.
 
     Parameters
@@ -174,6 +178,8 @@ def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: M
     plots : write the PNG when a folder is given.
     progress : True shows a tqdm bar with an ETA (on a terminal's stderr or in a notebook), False
         none; a callable(count) is called instead as chunks of points finish.
+    refine : on a one-name sweep, refine the worst point of each requirement between its grid
+        neighbours (see :mod:`.worst`; one batch per round).
     """
     specs = _as_specs(vary)
     if not 1 <= len(specs) <= 3:
@@ -190,9 +196,23 @@ def sweep(netlist: Any, vary: Mapping[str, Any] | Sequence[Any], *, overrides: M
     if not results.ok.any():
         raise CircuitodeError(f"no point of the sweep could be simulated: {results.messages[0]}")
     result = SweepResult(axes, points, results, tuple(circuit.requirements), circuit.title)
+    result.worst = worst_points(result.requirements, points, results)
+    if refine:
+        if len(axes) != 1:
+            raise CircuitodeError("refining the worst point needs a sweep of one name; vary one name, or "
+                                  "leave out the refinement")
+        reqs = list(result.requirements)
+        result.worst = [refine_worst(circuit, names[0], axes[0].values, w, *_of(results, reqs, w.requirement),
+                                     method=method) for w in result.worst]
     if out_dir is not None:
         result.files = write_sweep(result, Path(out_dir), plots)
     return result
+
+
+def _of(results: PointResults, requirements: list, req) -> tuple[np.ndarray, np.ndarray]:
+    """(margins, figures) of requirement ``req`` at every point, NaN where a point failed."""
+    margins = np.where(results.ok, results.margins[:, requirements.index(req)], np.nan)
+    return margins, results.figures[:, results.figure_keys.index((req.figure, req.probe.label))]
 
 
 def write_sweep(result: SweepResult, folder: Path, plots: bool = True) -> dict:

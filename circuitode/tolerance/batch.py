@@ -26,6 +26,7 @@ from ..analysis.window_integrals import figure_from_integrals
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
 from .executors import make_executor
+from .timed_switches import timing_refusal
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .lock import FolderLock
@@ -130,7 +131,8 @@ def _element_values(circuit: Circuit, names: Sequence[str], block: np.ndarray) -
 
 def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
     """Source fields may vary per sample only where the waveform is linear in them
-    (its levels); timing fields are shared by a batch."""
+    (its levels); of the timing fields only the instant of a switch that moves once
+    (or its closing angle) may vary, as a per-sample event (see timed_switches)."""
     from ..equations.mna import VARIABLE_FIELDS
     from ..model.source_batch import LEVEL_FIELDS
 
@@ -150,6 +152,13 @@ def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
                     f"remove the tolerance from {varied[0]}, or give {element} its "
                     f"{field_.replace('_', ' ')} as a fixed value",
                 )
+            continue
+        if field_.startswith("control."):  # a switch's instant may vary (a per-sample event)
+            reason = timing_refusal(circuit, element, field_)
+            if reason is not None:
+                spread = circuit.spreads.get(varied[0])
+                raise NetlistError(f"the tolerance on {varied[0]}: {reason}", getattr(spread, "where", None),
+                                   f"remove the tolerance from {varied[0]}, or fix the value")
             continue
         source = circuit.by_name.get(element)
         level = field_.split(".", 1)[1]

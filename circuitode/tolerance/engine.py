@@ -13,7 +13,9 @@ the RK4 polynomial of ``M h`` (batched RK4), one stacked matrix per distinct
 step length and configuration.  Recorded signals are ``y = [C, D H] w``.
 
 Time-scheduled switches switch every sample at once (segment boundaries are
-shared).  Threshold switches give each sample its own configuration and
+shared), except a switch whose instant varies per sample (a spread on its time, a
+varied closing angle): it acts at each sample's own instant, as a threshold
+switch on a clock (see :mod:`.timed_switches`).  Threshold switches give each sample its own configuration and
 instant (see :mod:`.thresholds`), located to :data:`EVENT_TOL_FRACTION` of
 the window like the single run; every switching instant is recorded twice
 (value just before and just after), as in the single run.  The output grid,
@@ -49,6 +51,7 @@ from .batch_integrals import ChunkIntegrals, integral_pairs
 from .block_stepper import BlockStepper
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, fire_at_start
+from .timed_switches import Clocks
 
 __all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes", "refuse_diodes",
            "simulate_chunk"]
@@ -154,6 +157,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     N = _batch_size(values)
     t_grid = output_grid(circuit)
     switches = circuit.switches
+    clocks = Clocks(circuit, {k: v for k, v in values.items() if k[1].startswith("control.")}, N,
+                    1e-12 * float(output_grid(circuit)[-1]))
     thr = [i for i, s in enumerate(switches) if isinstance(s.control, ThresholdRule)]
     rules = [switches[i].control for i in thr]
     rows, recipe = linear_probes(tuple(probes))
@@ -161,7 +166,13 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for r in rules:  # watched quantities, sharing a recorded row where they can
         if r.probe not in all_rows:
             all_rows.append(r.probe)
-    element_values = {k: v for k, v in values.items() if not k[1].startswith("waveform.")}
+    watched = [all_rows.index(r.probe) for r in rules]
+    # switches with per-sample instants: thresholds on the clock rows after the probes' rows
+    thr += clocks.switches
+    watched += [len(all_rows) + j for j in range(clocks.k)]
+    rules += clocks.rules
+    p_all = len(all_rows) + clocks.k
+    element_values = {k: v for k, v in values.items() if not k[1].startswith(("waveform.", "control."))}
     source_values = {k: v for k, v in values.items() if k[1].startswith("waveform.")}
     cache = StateSpaceCache(circuit, all_rows, _with_batch_axis(circuit, element_values, N))
     nominal_bank = SourceBank.of(circuit)
@@ -169,11 +180,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     m = nominal_bank.m
     until = float(t_grid[-1])
     slack = 1e-12 * until
-    watch = Watch(rules, [all_rows.index(r.probe) for r in rules], EVENT_TOL_FRACTION * until,
+    watch = Watch(rules, watched, EVENT_TOL_FRACTION * until,
                   np.full((N, len(rules)), np.nan))
     ok = np.ones(N, dtype=bool)
     problems: dict[int, str] = {}
-    tally = ChunkIntegrals(N, len(all_rows), integral_pairs(recipe, len(all_rows))) \
+    tally = ChunkIntegrals(N, p_all, integral_pairs(recipe, p_all)) \
         if method == "exact" else None
 
     def enter_at(idx, x, t):  # a threshold switch acted for samples idx at instants t
@@ -195,7 +206,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     # stretches shared by every sample (as the single run: source corners, scheduled
     # switch changes, the end)
     changes = sorted(
-        ((max(float(t), 0.0), i, bool(st)) for i, s in enumerate(switches)
+        ((max(float(t), 0.0), i, bool(st)) for i, s in enumerate(switches) if i not in clocks.switches
          for t, st in s.scheduled_changes(-np.finfo(float).tiny, until)),
         key=lambda c: (c[0], c[1]))
     corners = bank.breakpoints(0.0, until) if m else np.zeros(0)
@@ -218,8 +229,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
 
     # each switching instant and source corner adds two rows (and stands for a grid
     # instant it falls on)
-    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size, 2 * len(rules),
-                    len(all_rows))
+    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size, 2 * len(rules), p_all)
     y_end_before = None
     queue = list(changes)
     for seg, (a, b) in enumerate(zip(bounds[:-1], bounds[1:])):
@@ -232,6 +242,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             H = np.asarray(gen.H, dtype=float).reshape(m, z0.shape[-1])
         else:
             F, z0, H = np.zeros((0, 0)), np.zeros(0), np.zeros((0, 0))
+        F, z0, H, clock_rows = clocks.extend(F, z0, H, a, N)
         w = np.concatenate([x, np.broadcast_to(z0, (N, z0.shape[-1]))], axis=1)
         # scheduled changes due now: rows just before (old configuration) and after
         due = []
@@ -240,7 +251,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         due = [(i, st) for _, i, st in due if timed[i] != st]
         if due:
             if y_end_before is None:  # a change at t = 0: the old configuration at the start
-                old = Stretch(method, cache, H, F, key_for(tuple(timed)), note)
+                old = Stretch(method, cache, H, F, key_for(tuple(timed)), note, clock_rows)
                 y_end_before = matvec(old.G(code), w)
             record.all(a, y_end_before)
             for i, st in due:
@@ -248,7 +259,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             w[:, :n] = _enter_batch(circuit, cache, key_for(tuple(timed)), code, w[:, :n], a, ok, problems,
                                     " and ".join(f"{switches[i].name} {'closes' if st else 'opens'}"
                                                  for i, st in due) + " on schedule")
-        stretch = Stretch(method, cache, H, F, key_for(tuple(timed)), note)
+        stretch = Stretch(method, cache, H, F, key_for(tuple(timed)), note, clock_rows)
         G_cur = stretch.G(code)
         y_now = matvec(G_cur, w)
         if due:

@@ -40,11 +40,15 @@ class Stretch:
     H : (m, q), F : (q, q) the inputs' generator on this stretch.
     key_for : configuration code → tuple of switch states.
     on_assembled : called with each StateSpace the stretch uses (to note failed samples).
+    extra_rows : (r, q) more output rows after the probes' rows, reading the generator states
+        (the clocks of per-sample timed switches, see timed_switches), or None.
     """
 
     def __init__(self, method: str, cache: StateSpaceCache, H: np.ndarray, F: np.ndarray,
-                 key_for: Callable[[int], tuple], on_assembled: Callable | None = None):
+                 key_for: Callable[[int], tuple], on_assembled: Callable | None = None,
+                 extra_rows: np.ndarray | None = None):
         self.method, self.cache, self.H, self.F = method, cache, H, F
+        self.extra_rows = extra_rows
         self.key_for = key_for
         self.on_assembled = on_assembled
         self._MG: dict = {}
@@ -61,12 +65,15 @@ class Stretch:
             q = self.F.shape[0]
             M = np.zeros((N, n + q, n + q))
             M[:, :n, :n] = A
-            G = np.zeros((N, C.shape[1], n + q))
-            G[:, :, :n] = C
+            p, r = C.shape[1], 0 if self.extra_rows is None else self.extra_rows.shape[0]
+            G = np.zeros((N, p + r, n + q))
+            G[:, :p, :n] = C
             if q:
                 M[:, :n, n:] = B @ self.H
                 M[:, n:, n:] = self.F
-                G[:, :, n:] = D @ self.H
+                G[:, :p, n:] = D @ self.H
+            if r:
+                G[:, p:, n:] = self.extra_rows
             self._MG[code] = (M, G)
         return self._MG[code]
 

@@ -12,7 +12,7 @@ import textwrap
 
 import numpy as np
 
-from ..quantities import format_si
+from ..quantities import format_si, format_value
 from ..output.report import SAFETY_LINE, WIDTH, requirement_words
 
 __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
@@ -136,7 +136,7 @@ def format_batch_summary(result) -> str:
                 k, value = result.worst[r.label]
                 units_of = getattr(result, "parameter_units", {}) or {}
                 # no-break spaces keep each "name value unit" on one line when wrapped
-                params = ", ".join(f"{n} {format_si(v, units_of.get(n, ''), 4)}".replace(" ", "\u00a0")
+                params = ", ".join(f"{n} {format_value(v, units_of.get(n, ''), 4)}".replace(" ", "\u00a0")
                                    for n, v in zip(t.names, t.values[k]))
                 word = "closest" if _meets(r, value) else "worst (fails)"
                 lines.extend(textwrap.wrap(f"{word}: {_si(value, unit)} at sample {k} ({params})", WIDTH,
