@@ -21,7 +21,7 @@ from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..netlist.parts import expose_parts
 from ..output.atomic import check_out_folder, write_atomic
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
-from ..analysis.measure import figure_unit, measure
+from ..analysis.measure import figure_unit, measure, trusted_clocks
 from ..analysis.window_integrals import figure_from_integrals
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
@@ -191,16 +191,18 @@ def run_chunk(task: dict) -> dict:
         waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
         labels = [p.label for p in task["probes"]]
         units = [p.unit for p in task["probes"]]
-        for j, (fig, label) in enumerate(keys):
-            row = labels.index(label)
-            # each sample has its own clock (its own switching instants): t is (N, L)
-            carried = None
-            if waves.integrals is not None:  # exact integrals of the run itself
-                first, square = waves.integrals[row]
-                carried = figure_from_integrals(fig, first, square, waves.t[:, -1] - waves.t[:, 0],
-                                                units[row])
-            figures[:, j] = carried if carried is not None else measure(
-                fig, waves.t, waves.signals[row], signal_unit=units[row])
+        # each sample has its own clock (its own switching instants): t is (N, L), checked
+        # once here for all the figures of the chunk
+        with trusted_clocks(waves.t):
+            for j, (fig, label) in enumerate(keys):
+                row = labels.index(label)
+                carried = None
+                if waves.integrals is not None:  # exact integrals of the run itself
+                    first, square = waves.integrals[row]
+                    carried = figure_from_integrals(fig, first, square, waves.t[:, -1] - waves.t[:, 0],
+                                                    units[row])
+                figures[:, j] = carried if carried is not None else measure(
+                    fig, waves.t, waves.signals[row], signal_unit=units[row])
         ok = waves.ok.copy()
         for i, msg in waves.problems.items():
             messages[i] = msg

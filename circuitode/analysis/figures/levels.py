@@ -22,7 +22,9 @@ __all__ = ["peak", "time_of_peak", "minimum", "final", "settled"]
 def peak(t, y) -> np.ndarray:
     """Largest magnitude max |y| (signal unit, ≥ 0), shape ``y.shape[:-1]``."""
     t, y = _checked(t, y)
-    return np.max(np.abs(y), axis=-1)
+    # the larger of max y and −min y: |y| without a temporary array of the batch's size
+    # (NaN propagates through both, as through abs)
+    return np.maximum(np.max(y, axis=-1), -np.min(y, axis=-1)) + 0.0  # + 0.0: never −0
 
 
 def time_of_peak(t, y) -> np.ndarray:
