@@ -32,7 +32,7 @@ from .lock import FolderLock
 from .progress import Counter
 from .store import ChunkStore, fingerprint_text
 
-__all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys"]
+__all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys", "plan_chunks"]
 
 _BYTES_PER_CHUNK = 400e6  # waveform memory a chunk may hold (bytes)
 _WAVEFORM_POINTS = 2000  # kept waveforms are decimated to at most about this many points
@@ -296,16 +296,8 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     if not keys:
         raise CircuitodeError("nothing to measure: add a 'record' or 'require' statement to the netlist")
     _preflight(circuit, table, probes, keys, method)
-    if chunk_size is None:
-        from .engine import output_grid
-
-        per_sample = output_grid(circuit).size * (2 * len(probes) + 8) * 8
-        chunk_size = int(max(16, min(4096, _BYTES_PER_CHUNK // max(per_sample, 1))))
-    chunk_size = int(chunk_size)
-    if chunk_size < 1:
-        raise CircuitodeError(f"chunk size must be at least 1, got {chunk_size}")
     N = table.count
-    n_chunks = -(-N // chunk_size)
+    chunk_size, n_chunks = plan_chunks(circuit, N, len(probes), chunk_size)
     with _locked(out_dir):
         store = ChunkStore(out_dir, {
             "netlist_sha256": fingerprint_text(identity), "seed": int(seed), "sampler": sampler,
@@ -314,6 +306,25 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
         }, {c: (c * chunk_size, min(N, (c + 1) * chunk_size)) for c in range(n_chunks)})
         return _run_chunks(circuit, table, store, n_chunks, chunk_size, keys, probes, method, keep_waveforms,
                            workers, scheduler, progress, min_yield, plots)
+
+
+def plan_chunks(circuit: Circuit, samples: int, probes: int, chunk_size: int | None = None) -> tuple[int, int]:
+    """(samples per chunk, number of chunks) of a batch of ``samples``.
+
+    Without ``chunk_size`` a chunk holds as many samples as keep its waveforms (each
+    sample's clock and ``probes`` recorded rows, with the engine's working copies: about
+    ``rows · (2·probes + 8)`` doubles a sample) within :data:`_BYTES_PER_CHUNK`, between
+    16 and 4,096: what one worker holds at a time, whatever the number of samples.
+    """
+    if chunk_size is None:
+        from .engine import output_grid
+
+        per_sample = output_grid(circuit).size * (2 * probes + 8) * 8
+        chunk_size = int(max(16, min(4096, _BYTES_PER_CHUNK // max(per_sample, 1))))
+    chunk_size = int(chunk_size)
+    if chunk_size < 1:
+        raise CircuitodeError(f"chunk size must be at least 1, got {chunk_size}")
+    return chunk_size, -(-int(samples) // chunk_size)
 
 
 def _check_counts(**counts) -> None:
