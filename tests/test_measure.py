@@ -442,3 +442,14 @@ def test_trusted_clock_is_checked_once_and_only_for_that_array():
         assert np.array_equal(m.measure("peak", t, y, signal_unit="V"), [2.0, 0.0, 0.5])
         with pytest.raises(MeasurementError, match="non-decreasing"):
             m.measure("peak", bad, y, signal_unit="V")
+
+
+def test_first_largest_magnitude_is_argmax_of_abs():
+    """The instant of the peak is numpy's argmax of |y| (first occurrence, first NaN),
+    computed without |y|: checked against np.argmax(np.abs(y)) itself."""
+    from circuitode.analysis.figures.levels import _first_largest_magnitude
+    rng = np.random.default_rng(5)
+    y = rng.integers(-3, 4, size=(400, 9)).astype(float)  # many ties between +m and −m
+    y[::37, 4] = np.nan
+    y[5] = 0.0
+    assert np.array_equal(_first_largest_magnitude(y), np.argmax(np.abs(y), axis=-1))

@@ -30,8 +30,19 @@ def peak(t, y) -> np.ndarray:
 def time_of_peak(t, y) -> np.ndarray:
     """Instant (s, on the run's own clock) of the largest |y|; the first one if repeated."""
     t, y = _checked(t, y)
-    k = np.argmax(np.abs(y), axis=-1)  # the first NaN where there is one, so one pass tells both
+    k = _first_largest_magnitude(y)  # the first NaN where there is one, so one pass tells both
     return np.where(np.isnan(np.take_along_axis(y, k[..., None], axis=-1)[..., 0]), np.nan, _at(t, k))
+
+
+def _first_largest_magnitude(y: np.ndarray) -> np.ndarray:
+    """argmax |y| along the last axis (the first index of the largest magnitude, or of the
+    first NaN) without an |y| temporary: the first maximum or the first minimum of y,
+    whichever is larger in magnitude, the earlier of the two when they tie (a NaN is
+    the first maximum and the first minimum at once)."""
+    hi, lo = np.argmax(y, axis=-1), np.argmin(y, axis=-1)
+    top = np.take_along_axis(y, hi[..., None], axis=-1)[..., 0]
+    bottom = -np.take_along_axis(y, lo[..., None], axis=-1)[..., 0]
+    return np.where(top > bottom, hi, np.where(bottom > top, lo, np.minimum(hi, lo)))
 
 
 def minimum(t, y) -> np.ndarray:
