@@ -9,7 +9,8 @@ state w_n (s,), one block of K steps gives
                                          (N, s), (N, s, s)  sums of the steps' start
                                          states (the running output integrals use them)
 
-With numba installed (the ``fast`` extra) it is one compiled loop per tile of
+With numba installed (the ``fast`` extra) and at least :data:`MIN_SAMPLES` samples,
+it is one compiled loop per tile of
 :data:`TILE` samples: the tile's Φ and G are laid out samples-innermost, stay in
 the first-level cache through the K steps, and each step updates the state, the
 outputs and both sums for the whole tile in one pass (the sample loop is the one
@@ -26,12 +27,16 @@ import os
 
 import numpy as np
 
-__all__ = ["TILE", "block_steps", "flops", "have_numba", "kernel_name"]
+__all__ = ["MIN_SAMPLES", "TILE", "block_steps", "flops", "have_numba", "kernel_name"]
 
 #: Samples per tile of the compiled loop (the vectorised innermost axis): Φ, G, the state
 #: and the sums of a tile (s = 7, p = 6: about 150 kB) stay in the second-level cache
 #: through the K steps.  Measured on a 2-core AVX-512 machine: 128 beat 64 and 256.
 TILE = 128
+#: Fewest samples for which the compiled loop is used: below, the numpy recurrence costs
+#: less than numba's start on the first call (0.5–1.3 s measured: import, typing, loading
+#: the cached machine code), e.g. the 33–200 points of a sweep or a sizing.
+MIN_SAMPLES = 256
 #: Steps whose states and outputs a tile gathers before writing them out sample-major
 #: (each sample's KB·s states and KB outputs per row are whole cache lines).
 KB = 8
@@ -63,8 +68,8 @@ def block_steps(phi: np.ndarray, G: np.ndarray, w: np.ndarray, K: int, sums: boo
     """
     N, s = w.shape
     p = G.shape[1]
-    fn = _compiled()
-    if fn is None or N == 0:
+    fn = _compiled() if N >= MIN_SAMPLES else None
+    if fn is None:
         return _numpy_steps(phi, G, w, K, sums)
     W = np.empty((N, K, s))
     Y = np.empty((N, p, K))
