@@ -426,3 +426,30 @@ def test_docstring_examples_run():
     # The examples in the docstrings are checked numbers too (closed forms stated beside them).
     result = doctest.testmod(m)
     assert result.attempted >= 3 and result.failed == 0
+
+
+def test_trusted_clock_is_checked_once_and_only_for_that_array():
+    """A batch's clock is checked when it is trusted; other clocks are still checked inside."""
+    t = np.tile(np.linspace(0.0, 1.0, 11), (3, 1))
+    y = np.vstack([np.linspace(-2.0, 1.0, 11), np.zeros(11), np.full(11, 0.5)])
+    bad = t.copy()
+    bad[1, 4] = bad[1, 3] - 0.1  # goes back in time
+    with pytest.raises(MeasurementError, match="non-decreasing"):
+        with m.trusted_clocks(bad):
+            pass
+    with m.trusted_clocks(t):
+        # peak is the largest magnitude (definition of the figure, levels.py): 2, 0, 0.5
+        assert np.array_equal(m.measure("peak", t, y, signal_unit="V"), [2.0, 0.0, 0.5])
+        with pytest.raises(MeasurementError, match="non-decreasing"):
+            m.measure("peak", bad, y, signal_unit="V")
+
+
+def test_first_largest_magnitude_is_argmax_of_abs():
+    """The instant of the peak is numpy's argmax of |y| (first occurrence, first NaN),
+    computed without |y|: checked against np.argmax(np.abs(y)) itself."""
+    from circuitode.analysis.figures.levels import _first_largest_magnitude
+    rng = np.random.default_rng(5)
+    y = rng.integers(-3, 4, size=(400, 9)).astype(float)  # many ties between +m and −m
+    y[::37, 4] = np.nan
+    y[5] = 0.0
+    assert np.array_equal(_first_largest_magnitude(y), np.argmax(np.abs(y), axis=-1))

@@ -36,7 +36,7 @@ from .figures import (
     time_of_peak,
     undershoot,
 )
-from .figures._common import _checked
+from .figures._common import _checked, trusted_clocks
 from .between_rows import carried_figure
 
 __all__ = [
@@ -46,6 +46,7 @@ __all__ = [
     "RINGING_MISFIT",
     "STANDARD_FIGURES",
     "figure_unit",
+    "trusted_clocks",
     "peak",
     "time_of_peak",
     "minimum",
@@ -194,7 +195,9 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
         if rows:
             _checked(t, y)  # bad input is reported for the whole batch, as without blocks
             t, y = np.asarray(t, dtype=float), np.asarray(y, dtype=float)
-            return np.concatenate([function(t if t.ndim == 1 else t[r], y[r]) for r in rows])
+            clocks = [t if t.ndim == 1 else t[r] for r in rows]
+            with trusted_clocks(*clocks, checked=True):  # checked above, whole
+                return np.concatenate([function(c, y[r]) for c, r in zip(clocks, rows)])
     return function(t, y, **options)
 
 

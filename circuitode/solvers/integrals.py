@@ -87,16 +87,23 @@ class IntegralValues:
 
 
 def _short_exponentials(M: np.ndarray, s: np.ndarray) -> np.ndarray:
-    """e^{M s_j} for M (K, d, d) and times s (K, J) with ‖M s‖₁ ≤ 1/2 → (K, J, d, d).
+    """e^{M s_j} for M (K, d, d) and times s (K, J), 0 ≤ s, with ‖M s‖₁ ≤ 1/2 → (K, J, d, d).
 
-    Taylor series to 20 terms: the remainder is below 0.5²¹/21! ≈ 1e-26 of the terms kept."""
-    X = M[:, None] * s[:, :, None, None]
-    term = np.broadcast_to(np.eye(M.shape[-1]), X.shape).copy()
-    total = term.copy()
-    for j in range(1, 21):
-        term = term @ X / j
-        total += term
-    return total
+    Taylor series to 20 terms: the remainder is below 0.5²¹/21! ≈ 1e-26 of the terms kept.
+    The terms X^k / k! of X = M σ (σ the row's longest time) are formed once, 20 stacked
+    products, and each instant's sum is Σ_k (s_j / σ)^k X^k / k!: one product for all J
+    instants instead of 20 per instant."""
+    K, J = s.shape
+    d = M.shape[-1]
+    sigma = np.max(s, axis=1)
+    sigma = np.where(sigma > 0, sigma, 1.0)
+    X = M * sigma[:, None, None]
+    terms = np.empty((K, 21, d, d))
+    terms[:, 0] = np.eye(d)
+    for k in range(1, 21):
+        terms[:, k] = terms[:, k - 1] @ X / k
+    coef = (s / sigma[:, None])[:, :, None] ** np.arange(21)      # (K, J, 21), bases in [0, 1]
+    return (coef @ terms.reshape(K, 21, d * d)).reshape(K, J, d, d)
 
 
 def moment_operators(M: np.ndarray, h, G: np.ndarray,

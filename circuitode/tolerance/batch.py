@@ -21,7 +21,7 @@ from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..netlist.parts import expose_parts
 from ..output.atomic import check_out_folder, write_atomic
 from ..analysis.limits import check_requirements_batch, requirement_margins_batch
-from ..analysis.measure import figure_unit, measure
+from ..analysis.measure import figure_unit, measure, trusted_clocks
 from ..analysis.window_integrals import figure_from_integrals
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
@@ -33,7 +33,7 @@ from .lock import FolderLock
 from .progress import Counter
 from .store import ChunkStore, fingerprint_text
 
-__all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys"]
+__all__ = ["BatchResult", "run_batch", "run_chunk", "batch_figure_keys", "plan_chunks"]
 
 _BYTES_PER_CHUNK = 400e6  # waveform memory a chunk may hold (bytes)
 _WAVEFORM_POINTS = 2000  # kept waveforms are decimated to at most about this many points
@@ -200,16 +200,18 @@ def run_chunk(task: dict) -> dict:
         waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
         labels = [p.label for p in task["probes"]]
         units = [p.unit for p in task["probes"]]
-        for j, (fig, label) in enumerate(keys):
-            row = labels.index(label)
-            # each sample has its own clock (its own switching instants): t is (N, L)
-            carried = None
-            if waves.integrals is not None:  # exact integrals of the run itself
-                first, square = waves.integrals[row]
-                carried = figure_from_integrals(fig, first, square, waves.t[:, -1] - waves.t[:, 0],
-                                                units[row])
-            figures[:, j] = carried if carried is not None else measure(
-                fig, waves.t, waves.signals[row], signal_unit=units[row])
+        # each sample has its own clock (its own switching instants): t is (N, L), checked
+        # once here for all the figures of the chunk
+        with trusted_clocks(waves.t):
+            for j, (fig, label) in enumerate(keys):
+                row = labels.index(label)
+                carried = None
+                if waves.integrals is not None:  # exact integrals of the run itself
+                    first, square = waves.integrals[row]
+                    carried = figure_from_integrals(fig, first, square, waves.t[:, -1] - waves.t[:, 0],
+                                                    units[row])
+                figures[:, j] = carried if carried is not None else measure(
+                    fig, waves.t, waves.signals[row], signal_unit=units[row])
         ok = waves.ok.copy()
         for i, msg in waves.problems.items():
             messages[i] = msg
@@ -303,16 +305,8 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     if not keys:
         raise CircuitodeError("nothing to measure: add a 'record' or 'require' statement to the netlist")
     _preflight(circuit, table, probes, keys, method)
-    if chunk_size is None:
-        from .engine import output_grid
-
-        per_sample = output_grid(circuit).size * (2 * len(probes) + 8) * 8
-        chunk_size = int(max(16, min(4096, _BYTES_PER_CHUNK // max(per_sample, 1))))
-    chunk_size = int(chunk_size)
-    if chunk_size < 1:
-        raise CircuitodeError(f"chunk size must be at least 1, got {chunk_size}")
     N = table.count
-    n_chunks = -(-N // chunk_size)
+    chunk_size, n_chunks = plan_chunks(circuit, N, len(probes), chunk_size)
     with _locked(out_dir):
         store = ChunkStore(out_dir, {
             "netlist_sha256": fingerprint_text(identity), "seed": int(seed), "sampler": sampler,
@@ -321,6 +315,25 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
         }, {c: (c * chunk_size, min(N, (c + 1) * chunk_size)) for c in range(n_chunks)})
         return _run_chunks(circuit, table, store, n_chunks, chunk_size, keys, probes, method, keep_waveforms,
                            workers, scheduler, progress, min_yield, plots)
+
+
+def plan_chunks(circuit: Circuit, samples: int, probes: int, chunk_size: int | None = None) -> tuple[int, int]:
+    """(samples per chunk, number of chunks) of a batch of ``samples``.
+
+    Without ``chunk_size`` a chunk holds as many samples as keep its waveforms (each
+    sample's clock and ``probes`` recorded rows, with the engine's working copies: about
+    ``rows · (2·probes + 8)`` doubles a sample) within :data:`_BYTES_PER_CHUNK`, between
+    16 and 4,096: what one worker holds at a time, whatever the number of samples.
+    """
+    if chunk_size is None:
+        from .engine import output_grid
+
+        per_sample = output_grid(circuit).size * (2 * probes + 8) * 8
+        chunk_size = int(max(16, min(4096, _BYTES_PER_CHUNK // max(per_sample, 1))))
+    chunk_size = int(chunk_size)
+    if chunk_size < 1:
+        raise CircuitodeError(f"chunk size must be at least 1, got {chunk_size}")
+    return chunk_size, -(-int(samples) // chunk_size)
 
 
 def _check_counts(**counts) -> None:

@@ -48,18 +48,29 @@ class ChunkIntegrals:
         """(rho (N, k, s), P (N, p, s, s)) of one step h for every sample (cache them)."""
         return moment_operators(M, h, G, self.pairs)
 
-    def steps(self, rho: np.ndarray, P: np.ndarray, starts: np.ndarray, use: np.ndarray) -> None:
-        """Add steps of one length: operators rho, P (N, …) of each sample's configuration,
-        start states starts (N, K, s), use (N, K) bool, which steps to count."""
+    def steps(self, rho: np.ndarray, P: np.ndarray, starts: np.ndarray, use: np.ndarray,
+              samples: np.ndarray | None = None) -> None:
+        """Add steps of one length: operators rho, P (R, …) of each sample's configuration,
+        start states starts (R, K, s), use (R, K) bool, which steps to count; row i is
+        sample samples[i] of the chunk (row i is sample i when samples is None)."""
         rows = np.flatnonzero(use.any(axis=1))
         if rows.size == 0:
             return
         chosen = starts[rows] * use[rows, :, None]                  # (R, K, s)
         first = chosen.sum(axis=1)                                   # Σ w
         second = np.swapaxes(chosen, 1, 2) @ starts[rows]            # Σ w wᵀ
-        self.linear[rows] += (rho[rows] @ first[:, :, None])[:, :, 0]
+        self._add(rho[rows], P[rows], first, second, rows if samples is None else samples[rows])
+
+    def sums(self, rho: np.ndarray, P: np.ndarray, S1: np.ndarray, S2: np.ndarray, rows: np.ndarray) -> None:
+        """Add, for samples rows, whole blocks of steps of one length given by the sums of their
+        start states S1 = Σ w (N, s) and S2 = Σ w wᵀ (N, s, s); rho, P (N, …) as in :meth:`steps`."""
+        if rows.size:
+            self._add(rho[rows], P[rows], S1[rows], S2[rows], rows)
+
+    def _add(self, rho, P, first, second, rows) -> None:
+        self.linear[rows] += (rho @ first[:, :, None])[:, :, 0]
         R, p = rows.size, P.shape[1]
-        self.products[rows] += (P[rows].reshape(R, p, -1) @ second.reshape(R, -1, 1))[:, :, 0]
+        self.products[rows] += (P.reshape(R, p, -1) @ second.reshape(R, -1, 1))[:, :, 0]
 
     def by_recipe(self, recipe) -> list:
         """Per recorded probe: (∫ y dt (N,), ∫ y² dt (N,)); a power probe (∫ p dt, NaN)."""

@@ -1,10 +1,10 @@
 """Block stepping of one chunk through one stretch: runs of equal grid steps at once.
 
 Between two instants shared by every sample, :class:`BlockStepper` takes runs of
-equal recorded steps in blocks of up to :data:`MAX_BLOCK` steps: with the powers
-``Φ, Φ², …, Φ^K`` of each sample's step matrix tabulated once (within
-:data:`POWER_TABLE_BYTES`), the states at the next K instants are one stacked
-product, and threshold crossings are found from the whole block's outputs at
+equal recorded steps in blocks of up to :data:`MAX_BLOCK` steps: the states, outputs
+and integral sums at the next K instants are one call of the block kernel
+(:func:`.kernel.block_steps`, w ← Φ w step by step, the block's arrays within
+:data:`POWER_TABLE_BYTES`), and threshold crossings are found from the whole block's outputs at
 once and handed to :func:`.thresholds.handle_crossings`; partial steps go one by
 one.  It updates each sample's configuration code, the record and, with the
 exact method, the running integrals; it knows nothing of the circuit itself.
@@ -14,12 +14,13 @@ from __future__ import annotations
 import numpy as np
 
 from .batch_integrals import ChunkIntegrals
+from .kernel import block_steps
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, handle_crossings
 
 __all__ = ["BlockStepper", "MAX_BLOCK", "POWER_TABLE_BYTES", "SAME_STEP"]
 
-#: Bytes the per-sample table of step-matrix powers of one block may take, and the
+#: Bytes the states and outputs of one block may take (N·K·(s + p) doubles), and the
 #: longest block (grid steps taken by one stacked product).
 POWER_TABLE_BYTES = 16e6
 MAX_BLOCK = 256
@@ -31,8 +32,8 @@ SAME_STEP = 1e-9
 class BlockStepper:
     """Steps the samples of one chunk through one stretch, updating code and the record.
 
-    Runs of equal recorded steps go in blocks of up to K steps (one stacked product
-    with the tabulated powers Φ^1…Φ^K; crossings found from the whole block's
+    Runs of equal recorded steps go in blocks of up to K steps (one kernel call;
+    crossings found from the whole block's
     outputs at once); other steps (a stretch's partial first or last step) one by one.
     """
 
@@ -42,13 +43,13 @@ class BlockStepper:
         self.G_cur, self.record, self.tally = G_cur, record, tally
         self.moments: dict = {}  # (configuration code, step length) → integral operators
         self.phi: dict = {}  # step length → (N, s, s), each sample's configuration
-        self.powers: dict = {}  # (step length, K) → (N, K, s, s), each sample's configuration
 
     def run(self, w, g_prev, a: float, stops, lengths, recorded):
         """Step from instant a through stops (each with its length; recorded: (steps,) bool,
         a row goes to the record).  Returns (w, y, g) at the last stop."""
         N, s = w.shape
-        k_max = int(min(MAX_BLOCK, max(1, POWER_TABLE_BYTES // (N * s * s * 8))))
+        p = self.G_cur.shape[1]
+        k_max = int(min(MAX_BLOCK, max(1, POWER_TABLE_BYTES // (N * (s + p) * 8))))
         t_prev, i, count = a, 0, stops.size
         y = None
         while i < count:
@@ -77,22 +78,33 @@ class BlockStepper:
         self.G_cur[idx] = st.G(code, idx)
         for h, phi in self.phi.items():
             phi[idx] = st.phi(code, h, idx)
-        for (h, K), P in self.powers.items():
-            P[idx] = st.powers(code, h, K, idx)
 
-    def count(self, starts, col_code, h: float) -> None:
-        """Add the integrals of steps of length h from states starts (N, K, s), each in the
-        configuration col_code (N, K) (−1: a step split by a switch, counted where it was
-        split)."""
+    def count(self, starts, col_code, h: float, sums=None) -> None:
+        """Add the integrals of steps of length h from states starts (N, K, s) (or a callable
+        giving the rows asked for), each in the configuration col_code (N, K) (−1: a step
+        split by a switch, counted where it was split).  sums: (S1, S2), the block's
+        Σ w and Σ w wᵀ per sample (:func:`.kernel.block_steps`), used for the samples
+        that stayed in one configuration through the block."""
         if self.tally is None:
             return
-        for c in np.unique(col_code[col_code >= 0]):
+        present = col_code[col_code >= 0]
+        codes = np.flatnonzero(np.bincount(present)) if present.size else present
+        plain = np.zeros(col_code.shape[0], dtype=bool)
+        if sums is not None:
+            plain = (col_code[:, :1] >= 0).ravel() & (col_code == col_code[:, :1]).all(axis=1)
+        rest = np.flatnonzero(~plain)
+        if rest.size:
+            part = starts(rest) if callable(starts) else starts[rest]
+        for c in codes:
             key = (int(c), h)
             if key not in self.moments:
                 full = np.full(self.code.size, c)
                 self.moments[key] = self.tally.operators(self.stretch.M(full), self.stretch.G(full), h)
             rho, P = self.moments[key]
-            self.tally.steps(rho, P, starts, col_code == c)
+            if sums is not None:
+                self.tally.sums(rho, P, sums[0], sums[1], np.flatnonzero(plain & (col_code[:, 0] == c)))
+            if rest.size:
+                self.tally.steps(rho[rest], P[rest], part, col_code[rest] == c, rest)
 
     def step(self, w, g_prev, t_prev: float, h: float, t_row):
         """One step of length h for every sample; a row at t_row unless it is None."""
@@ -127,10 +139,10 @@ class BlockStepper:
         """
         watch, code, record = self.watch, self.code, self.record
         Kb = ts.size
-        if (h, K) not in self.powers:
-            self.powers[h, K] = self.stretch.powers(code, h, K)
-        W = _apply_powers(self.powers[h, K][:, :Kb], w)  # (N, Kb, s)
-        Y = self.G_cur @ np.swapaxes(W, 1, 2)  # (N, p, Kb)
+        if h not in self.phi:
+            self.phi[h] = self.stretch.phi(code, h)
+        # (N, Kb, s), (N, p, Kb) and the sums of the start states, one compiled pass
+        W, Y, S1, S2 = block_steps(self.phi[h], self.G_cur, w, Kb, sums=self.tally is not None)
         g = watch.values(Y, code)  # (N, k, Kb)
         col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
         if watch.k:
@@ -160,7 +172,7 @@ class BlockStepper:
                 col_code[idx] = np.where(later, code[idx, None], col_code[idx])
                 col_code[idx, j] = -1
                 if later.any():
-                    tail = _apply_powers(self.powers[h, K][idx, :Kb - 1], w_e)
+                    tail = block_steps(self.phi[h][idx], self.G_cur[idx], w_e, Kb - 1, sums=False)[0]
                     back = np.clip(cols[None, :] - j[:, None] - 1, 0, None)
                     W_idx = np.where(later[:, :, None], np.take_along_axis(tail, back[:, :, None], axis=1), W[idx])
                     W[idx] = W_idx
@@ -168,12 +180,8 @@ class BlockStepper:
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
                     g[idx] = watch.values(Y[idx], code[idx])
                 settled[idx] = j
-        self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
+        self.count(lambda r: np.concatenate([w[r, None], W[r, :-1]], axis=1), col_code, h,
+                   sums=None if S1 is None else (S1, S2))
         record.columns(np.asarray(ts, dtype=float), Y)
         return W[:, -1], Y[:, :, -1], g[:, :, -1]
 
-
-def _apply_powers(P: np.ndarray, w: np.ndarray) -> np.ndarray:
-    """(N, K, s): P[n, k] @ w[n] for P (N, K, s, s) and w (N, s), as one stacked product."""
-    N, K, s = P.shape[:3]
-    return (P.reshape(N, K * s, s) @ w[:, :, None]).reshape(N, K, s)

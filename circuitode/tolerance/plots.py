@@ -1,4 +1,4 @@
-"""Histogram and scatter PNGs of a tolerance batch (matplotlib imported lazily, Agg).
+"""Histogram and scatter PNGs of a tolerance batch (matplotlib's Figure, imported lazily).
 
 One histogram per figure that a requirement limits (or, with no requirements,
 per figure, at most 8), with the limit drawn as a vertical line; one scatter of
@@ -35,17 +35,23 @@ def _axis(values: np.ndarray, unit: str) -> tuple[float, str]:
     return factor, prefix + unit
 
 
-def _save(plt, fig, ax, path: Path) -> Path:
-    """Tidy the axes (light grid, no top/right frame), write the PNG, free the figure."""
+def _new_figure():
+    """A 6.4 × 4 in figure at 100 dpi with one axes and fixed margins (no pyplot state, and
+    no layout pass that draws the figure once more before saving)."""
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(6.4, 4.0), dpi=100)
+    fig.subplots_adjust(left=0.12, right=0.97, bottom=0.13, top=0.92)
+    return fig, fig.add_subplot()
+
+
+def _save(fig, ax, path: Path) -> Path:
+    """Tidy the axes (light grid, no top/right frame), write the PNG."""
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
     ax.grid(True, color="#e3e3e3", lw=0.7)
     ax.set_axisbelow(True)
-    fig.tight_layout()
-    try:
-        write_atomic(path, lambda handle: fig.savefig(handle, format="png"))  # never a half-written PNG
-    finally:
-        plt.close(fig)
+    write_atomic(path, lambda handle: fig.savefig(handle, format="png"))  # never a half-written PNG
     return path
 
 
@@ -63,11 +69,6 @@ def _arrow_to_limit(ax, x0: float, x1: float, above: bool, words: str) -> None:
 
 def write_plots(result, folder: Path) -> dict:
     """Write PNGs into ``folder/plots``; returns name → path."""
-    import matplotlib
-
-    matplotlib.use("Agg", force=True)
-    import matplotlib.pyplot as plt
-
     out_dir = Path(folder) / "plots"
     out_dir.mkdir(parents=True, exist_ok=True)
     limited = {(r.figure, r.probe.label): r for r in result.requirements}
@@ -88,7 +89,7 @@ def write_plots(result, folder: Path) -> dict:
         vf, vunit = _axis(v[good], unit)
         vlabel = f"{title} [{vunit}]" if vunit else title
 
-        fig, ax = plt.subplots(figsize=(6.4, 4.0), dpi=100)
+        fig, ax = _new_figure()
         lo, hi = float(np.min(v[good])), float(np.max(v[good]))
         if varies(result.summaries[key]):
             ax.hist(v[good] * vf, bins=min(60, max(10, int(np.sqrt(good.sum())))), color=_BAR)
@@ -115,14 +116,14 @@ def write_plots(result, folder: Path) -> dict:
         ax.set_xlabel(vlabel)
         ax.set_ylabel("samples")
         ax.set_title(f"{title}: {n} samples ({result.samples.sampler})", fontsize=10, loc="left")
-        files[f"hist {title}"] = _save(plt, fig, ax, out_dir / f"hist_{_safe(title)}.png")
+        files[f"hist {title}"] = _save(fig, ax, out_dir / f"hist_{_safe(title)}.png")
 
         drivers = result.sensitivity.get(key) or []
         if drivers and np.isfinite(drivers[0].rho) and varies(result.summaries[key]):
             p = names.index(drivers[0].parameter)
             x = params[good, p]
             xf, xunit = _axis(x, units_of.get(drivers[0].parameter, ""))
-            fig, ax = plt.subplots(figsize=(6.4, 4.0), dpi=100)
+            fig, ax = _new_figure()
             ax.plot(x * xf, v[good] * vf, ".", ms=2.5, color=_DOT)
             if key in limited:
                 ax.axhline(limited[key].limit * vf, color=_LIMIT, lw=1.5)
@@ -130,5 +131,5 @@ def write_plots(result, folder: Path) -> dict:
             ax.set_xlabel(f"{xname}   (rank correlation {drivers[0].rho:+.2f})")
             ax.set_ylabel(vlabel)
             ax.set_title(f"{title} against its strongest driver", fontsize=10, loc="left")
-            files[f"scatter {title}"] = _save(plt, fig, ax, out_dir / f"scatter_{_safe(title)}.png")
+            files[f"scatter {title}"] = _save(fig, ax, out_dir / f"scatter_{_safe(title)}.png")
     return files

@@ -10,10 +10,9 @@ each of shape (N, ·, ·) for the N samples of a chunk.  Samples differ in
 configuration only through threshold switches; a configuration *code* per
 sample (bit j set once threshold switch j has acted) picks each sample's rows.
 
-Runs of equal steps are taken a block at a time: with the powers
-``Φ, Φ², …, Φ^K`` of a step matrix tabulated once per configuration and
-stretch, the states at the next K grid instants are ``Φ^j w`` for j = 1…K,
-one stacked product instead of K Python-level steps.
+Runs of equal steps are taken a block at a time by :mod:`.kernel` (the
+states, outputs and integral sums at the next K grid instants in one call,
+w ← Φ w step by step), instead of K Python-level steps.
 """
 from __future__ import annotations
 
@@ -53,7 +52,6 @@ class Stretch:
         self.on_assembled = on_assembled
         self._MG: dict = {}
         self._phi: dict = {}
-        self._powers: dict = {}
 
     def _matrices(self, code: int):
         if code not in self._MG:
@@ -82,20 +80,6 @@ class Stretch:
             self._phi[code, h] = self.propagate(self._matrices(code)[0], h)
         return self._phi[code, h]
 
-    def _power_table(self, code: int, h: float, K: int) -> np.ndarray:
-        """(N, K, s, s): Φ(h)^(j+1) in column j, by repeated doubling (log2 K products)."""
-        if (code, h, K) not in self._powers:
-            phi = self._step(code, h)
-            P = np.empty((phi.shape[0], K) + phi.shape[1:])
-            P[:, 0] = phi
-            m = 1
-            while m < K:  # Φ^m · Φ^(j+1) = Φ^(m+j+1) for the first r columns
-                r = min(m, K - m)
-                P[:, m:m + r] = P[:, m - 1:m] @ P[:, :r]
-                m += r
-            self._powers[code, h, K] = P
-        return self._powers[code, h, K]
-
     @staticmethod
     def _rows(fetch: Callable[[int], np.ndarray], code: np.ndarray, idx: np.ndarray | None):
         """Row i of fetch(code[i]) for each sample i in idx (all samples when None)."""
@@ -120,10 +104,6 @@ class Stretch:
     def phi(self, code: np.ndarray, h: float, idx: np.ndarray | None = None) -> np.ndarray:
         """(K, s, s) step matrices Φ(h) of samples idx in their configurations."""
         return self._rows(lambda c: self._step(c, h), code, idx)
-
-    def powers(self, code: np.ndarray, h: float, K: int, idx: np.ndarray | None = None) -> np.ndarray:
-        """(K_idx, K, s, s) powers Φ(h)^1 … Φ(h)^K of samples idx in their configurations."""
-        return self._rows(lambda c: self._power_table(c, h, K), code, idx)
 
     def propagate(self, M: np.ndarray, h) -> np.ndarray:
         """Φ for matrices M (K, s, s) and step lengths h (s, scalar or (K,))."""

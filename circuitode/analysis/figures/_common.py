@@ -6,13 +6,20 @@ window integral that several figures build on.
 """
 from __future__ import annotations
 
+from contextlib import contextmanager
+from contextvars import ContextVar
 from typing import Any
 
 import numpy as np
 
 from ...errors import CircuitodeError
 
-__all__ = ["MeasurementError"]
+__all__ = ["MeasurementError", "trusted_clocks"]
+
+#: Clocks (float ndarrays, by identity) validated once for a run of figures, so that the
+#: figures of one batch do not pass over the same (N, nt) time array again each (a
+#: context variable: threads measuring other batches are not affected).
+_TRUSTED: ContextVar[tuple] = ContextVar("circuitode_trusted_clocks", default=())
 
 
 class MeasurementError(CircuitodeError):
@@ -37,6 +44,7 @@ def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
             f"signal of shape {y.shape} does not match {t.shape[-1]} time instants; "
             "the last axis of the signal must run along time"
         )
+    trusted = any(t is c for c in _TRUSTED.get())
     if t.ndim > 1:
         try:
             t, y = np.broadcast_arrays(t, y)
@@ -44,6 +52,29 @@ def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
             raise MeasurementError(
                 f"time axes of shape {t.shape} do not fit signals of shape {y.shape}"
             ) from None
+    if not trusted:
+        _check_clock(t)
+    return t, y
+
+
+@contextmanager
+def trusted_clocks(*clocks: np.ndarray, checked: bool = False):
+    """Within the block, figures on these clocks (float ndarrays, by identity) skip the
+    clock checks: they are checked here once on entry, unless ``checked`` says the
+    caller did (slices of a clock already checked).  The arrays must not change inside."""
+    if not checked:
+        for c in clocks:
+            _check_clock(np.asarray(c, dtype=float))
+    token = _TRUSTED.set(_TRUSTED.get() + tuple(clocks))
+    try:
+        yield
+    finally:
+        _TRUSTED.reset(token)
+
+
+def _check_clock(t: np.ndarray) -> None:
+    """Raises MeasurementError unless every row of t is finite, non-decreasing and spans
+    a positive interval."""
     # one comparison pass in the usual case: non-decreasing everywhere (NaN compares
     # False) between finite ends implies every instant is finite; otherwise the
     # separate checks below say what is wrong
@@ -55,7 +86,6 @@ def _checked(t: Any, y: Any) -> tuple[np.ndarray, np.ndarray]:
             raise MeasurementError("time must be non-decreasing (an instant may repeat at an event)")
     if np.any(t[..., -1] <= t[..., 0]):
         raise MeasurementError("time must span a positive interval")
-    return t, y
 
 
 def _at(t: np.ndarray, k: np.ndarray) -> np.ndarray:

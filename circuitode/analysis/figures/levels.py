@@ -22,14 +22,27 @@ __all__ = ["peak", "time_of_peak", "minimum", "final", "settled"]
 def peak(t, y) -> np.ndarray:
     """Largest magnitude max |y| (signal unit, ≥ 0), shape ``y.shape[:-1]``."""
     t, y = _checked(t, y)
-    return np.max(np.abs(y), axis=-1)
+    # the larger of max y and −min y: |y| without a temporary array of the batch's size
+    # (NaN propagates through both, as through abs)
+    return np.maximum(np.max(y, axis=-1), -np.min(y, axis=-1)) + 0.0  # + 0.0: never −0
 
 
 def time_of_peak(t, y) -> np.ndarray:
     """Instant (s, on the run's own clock) of the largest |y|; the first one if repeated."""
     t, y = _checked(t, y)
-    k = np.argmax(np.abs(y), axis=-1)  # the first NaN where there is one, so one pass tells both
+    k = _first_largest_magnitude(y)  # the first NaN where there is one, so one pass tells both
     return np.where(np.isnan(np.take_along_axis(y, k[..., None], axis=-1)[..., 0]), np.nan, _at(t, k))
+
+
+def _first_largest_magnitude(y: np.ndarray) -> np.ndarray:
+    """argmax |y| along the last axis (the first index of the largest magnitude, or of the
+    first NaN) without an |y| temporary: the first maximum or the first minimum of y,
+    whichever is larger in magnitude, the earlier of the two when they tie (a NaN is
+    the first maximum and the first minimum at once)."""
+    hi, lo = np.argmax(y, axis=-1), np.argmin(y, axis=-1)
+    top = np.take_along_axis(y, hi[..., None], axis=-1)[..., 0]
+    bottom = -np.take_along_axis(y, lo[..., None], axis=-1)[..., 0]
+    return np.where(top > bottom, hi, np.where(bottom > top, lo, np.minimum(hi, lo)))
 
 
 def minimum(t, y) -> np.ndarray:
