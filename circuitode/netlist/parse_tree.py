@@ -15,7 +15,7 @@ from . import expressions as ex
 from ..quantities import read_quantity
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, ParamStmt, ProbeSpec, RecordStmt,
-    RequireStmt, SourceStmt, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
+    RequireStmt, SourceStmt, WindowSpec, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
     TransientStmt, Valued, WaveformSpec,
 )
 
@@ -174,14 +174,28 @@ class ToSyntaxTree(Transformer):
 
     @v_args(meta=True)
     def require_stmt(self, meta, items):
+        window = items.pop(2) if len(items) == 5 else None
         figure, probe, comparison, limit = items
-        return RequireStmt(" ".join(str(figure).split()), probe, str(comparison), limit, self.at(meta))
+        return RequireStmt(" ".join(str(figure).split()), probe, str(comparison), limit, self.at(meta), window)
 
     @v_args(meta=True)
     def require_energy(self, meta, items):
+        window = items.pop(1) if len(items) == 4 else None
         element, comparison, limit = items
         probe = ProbeSpec("power", (str(element),), (self.at(element),), self.at(element))
-        return RequireStmt("energy", probe, str(comparison), limit, self.at(meta))
+        return RequireStmt("energy", probe, str(comparison), limit, self.at(meta), window)
+
+    @v_args(meta=True)
+    def window_between(self, meta, items):
+        return WindowSpec(items[0], items[1], self.at(meta))
+
+    @v_args(meta=True)
+    def window_after(self, meta, items):
+        return WindowSpec(items[0], None, self.at(meta))
+
+    @v_args(meta=True)
+    def window_before(self, meta, items):
+        return WindowSpec(None, items[0], self.at(meta))
 
     # -- probes ----------------------------------------------------------
     def _probe(kind):  # noqa: N805

@@ -377,13 +377,16 @@ def limits_text(results: Sequence[Any]) -> list[str]:
 
 
 def requirement_words(requirement: Any, unit: str) -> str:
-    """E.g. "peak of current through R1 < 2 A" (the limit in engineering notation)."""
+    """E.g. "peak of current through R1 < 2 A", "I²t of current through F1, 0 s – 10 ms < 200 mA²s"
+    (the limit in engineering notation; the window, when the figure is taken over part of the run)."""
     limit = f"{requirement.comparison} {format_si(requirement.limit, unit)}"
     probe = requirement.probe
+    quantity = getattr(requirement, "quantity", probe.label)
+    window = quantity[len(probe.label):]  # ", 0 s – 10 ms" or ""
     if requirement.figure == "energy" and type(probe).__name__ == "PowerIn":
-        return f"energy in {probe.element} {limit}"
+        return f"energy in {probe.element}{window} {limit}"
     figure = {"i2t": "I²t", "final": "final value"}.get(requirement.figure, requirement.figure.replace("_", " "))
-    return f"{figure} of {probe.label} {limit}"
+    return f"{figure} of {quantity} {limit}"
 
 
 def event_words(event: Any) -> str:
