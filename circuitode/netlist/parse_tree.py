@@ -187,7 +187,11 @@ class ToSyntaxTree(Transformer):
 
     @v_args(meta=True)
     def window_between(self, meta, items):
-        return WindowSpec(items[0], items[1], self.at(meta))
+        start, word, stop = items
+        if str(word) != "to":
+            raise NetlistError(f"expected 'to' between the two instants of the window, got '{word}'",
+                               self.at(word), "write 'from 0 s to 10 ms'")
+        return WindowSpec(start, stop, self.at(meta))
 
     @v_args(meta=True)
     def window_after(self, meta, items):

@@ -377,14 +377,11 @@ def limits_text(results: Sequence[Any]) -> list[str]:
 
 
 def requirement_words(requirement: Any, unit: str) -> str:
-    """E.g. "peak of current through R1 < 2 A", "I²t of current through F1, 0 s – 10 ms < 200 mA²s"
-    (the limit in engineering notation; the window, when the figure is taken over part of the run)."""
-    limit = f"{requirement.comparison} {format_si(requirement.limit, unit)}"
-    probe = requirement.probe
-    quantity = getattr(requirement, "quantity", probe.label)
-    window = quantity[len(probe.label):]  # ", 0 s – 10 ms" or ""
+    """E.g. "peak of current through R1 < 2 A", "I²t of current through F1, 0 s – 10 ms < 200 mA²s"."""
+    limit, probe = f"{requirement.comparison} {format_si(requirement.limit, unit)}", requirement.probe
+    quantity = getattr(requirement, "quantity", probe.label)  # with the window, if any
     if requirement.figure == "energy" and type(probe).__name__ == "PowerIn":
-        return f"energy in {probe.element}{window} {limit}"
+        return f"energy in {probe.element}{quantity[len(probe.label):]} {limit}"
     figure = {"i2t": "I²t", "final": "final value"}.get(requirement.figure, requirement.figure.replace("_", " "))
     return f"{figure} of {quantity} {limit}"
 
