@@ -73,6 +73,11 @@ def run_figure(figure: str, waveforms: Any, label: str, start: float | None = No
     """``figure`` of the recorded ``label`` of a single run, over [start, stop] (s; None for
     the start or the end of the run), in the figure's SI unit (NaN when it cannot be measured).
 
+    The integrals are summed from the run's exact per-segment integrals when both ends are
+    segment ends — a requirement's window ends are, since the driver made them stops; for
+    other instants the window holds the rows inside it and its integrals are the trapezoid
+    over them (give the window as a requirement to have it exact).
+
     Examples
     --------
     RC charge (1 kΩ, 1 µF, 5 V, exact): I²t of the current over the first time
