@@ -225,3 +225,25 @@ def test_a_window_outside_a_shorter_run_is_refused_before_it_runs():
     circuit = loads(BASE + "require peak voltage at b after 20 ms < 3 V", "t.cnet")
     with pytest.raises(NetlistError, match=r"t\.cnet:5:1: error: the window of this requirement starts at 20 ms"):
         simulate(circuit, until=10e-3)
+
+
+KEYWORD_NAMES = """
+ground gnd
+voltage_source V1 from -- gnd step from 0 V to 5 V at 1 ms
+resistor to from -- after 1 kΩ
+capacitor before after -- gnd 1 uF
+transient until 5 ms step 0.3 ms method exact
+require peak voltage at after after 1 ms < 6 V
+require energy in to before 3 ms < 1 J
+"""
+
+
+def test_nodes_and_elements_may_be_named_like_the_window_words():
+    # 'from', 'to', 'after', 'before' stay free as names, and 'from … to …' stays a field of the
+    # step waveform.  The 5 V step at 1 ms charges 1 µF through 1 kΩ: by 3 ms (2τ after it) the
+    # resistor has taken ½CV²(1 − e^{−4}) (Nilsson & Riedel ch. 7, integrated by hand).
+    circuit = loads(KEYWORD_NAMES)
+    results = check_requirements(circuit.requirements, simulate(circuit))
+    assert [r.requirement.quantity for r in results] == ["voltage at after, after 1 ms", "power in to, before 3 ms"]
+    assert results[1].value == pytest.approx(0.5 * C * V**2 * (1 - math.exp(-4)), rel=1e-12)
+    assert results[0].value < V and all(r.passed for r in results)
