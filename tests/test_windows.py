@@ -223,7 +223,7 @@ def test_bad_windows_are_located(line, column, message, hint):
 def test_a_window_outside_a_shorter_run_is_refused_before_it_runs():
     # 'until' given to the run (not in the netlist): the window is checked against it, at its place.
     circuit = loads(BASE + "require peak voltage at b after 20 ms < 3 V", "t.cnet")
-    with pytest.raises(NetlistError, match=r"t\.cnet:5:1: error: the window of this requirement starts at 20 ms"):
+    with pytest.raises(NetlistError, match=r"t\.cnet:5:27: error: the window of this requirement starts at 20 ms"):
         simulate(circuit, until=10e-3)
 
 

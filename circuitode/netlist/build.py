@@ -10,7 +10,6 @@ sampled parameters (floats or numpy arrays alike).
 """
 from __future__ import annotations
 
-from dataclasses import replace
 from pathlib import Path
 from typing import Any, Mapping
 
@@ -57,7 +56,6 @@ class _Builder(ElementStatements):
         self.analysis: cm.Analysis | None = None
         self.records: list[cm.Probe] = []
         self.requirements: list[cm.Requirement] = []
-        self.windows: list = []  # (requirement, where its window is written)
         self._visiting: set[str] = set()  # parameters whose unit is being looked up (guards cycles)
         self._where: Where | None = None  # the statement being built, for "missing field" errors
 
@@ -148,10 +146,9 @@ class _Builder(ElementStatements):
         if st.window is not None:
             start, stop = (None if v is None else self.value(v, "s", "a window instant")
                            for v in (st.window.start, st.window.stop))
-        self.requirements.append(cm.Requirement(figure, probe, st.comparison, limit, where=st.where,
+        where = st.where if st.window is None else st.window.where  # a window's mistakes point at it
+        self.requirements.append(cm.Requirement(figure, probe, st.comparison, limit, where=where,
                                                 start=start, stop=stop))
-        if st.window is not None:
-            self.windows.append((self.requirements[-1], st.window.where))
 
     # -- references ----------------------------------------------------------
     def probe(self, spec: ProbeSpec, context: str) -> cm.Probe:
@@ -217,8 +214,7 @@ class _Builder(ElementStatements):
                 raise NetlistError("a coupling joins two different inductors", st.wheres[1],
                                    "name the second inductor")
         if self.analysis is not None:  # windows inside the run (checked again when a run overrides 'until')
-            for requirement, where in self.windows:
-                check_windows([replace(requirement, where=where)], self.analysis.until)
+            check_windows(self.requirements, self.analysis.until)
         title = self.title or (Path(self.source_file).stem if self.source_file else "circuit")
         return cm.Circuit(
             title=title,
