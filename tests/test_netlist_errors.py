@@ -102,6 +102,12 @@ CASES = [
     ("param x = 4k7k", 1, 11, r"already holds its prefix", None),
     ("param v = 2 V\nparam x = 1 + (v - 2 A)", 2, 16, r"cannot subtract volts \(V\) and amperes \(A\)", None),
     (BASE + "record voltage atb", 5, 16, r"'atb' is not a word of this statement", r"space after 'at'"),
+    (BASE + "transient until 5 ms\nrequire peak voltage at b from 3 ms to 2 ms < 3 V", 6, 27,
+     r"window of this requirement is empty", r"earlier instant after 'from'"),
+    (BASE + "transient until 5 ms\nrequire i2t current through R1 after 6 ms < 1 A²s", 6, 32,
+     r"starts at 6 ms, outside the run \(0 s to 5 ms\)", r"run longer"),
+    (BASE + "require peak voltage at b from 1 ms until 2 ms < 3 V", 5, 37, r"expected 'to' between the two instants",
+     r"from 0 s to 10 ms"),
 ]
 
 

@@ -22,6 +22,7 @@ import numpy as np
 from ..errors import CircuitodeError
 from .measure import FIGURE_UNITS, figure_unit, measure
 from .between_rows import carried_figure
+from .windows import run_figure
 
 __all__ = [
     "LimitError",
@@ -31,6 +32,7 @@ __all__ = [
     "check_requirements_batch",
     "requirement_margins_batch",
     "figures_needed",
+    "figure_key",
     "all_passed",
 ]
 
@@ -138,9 +140,16 @@ def check_requirements(requirements: Sequence[Any], waveforms: Any) -> list[Limi
                 f"{recorded}; record {label} as well"
             )
         unit = waveforms.units.get(label, getattr(requirement.probe, "unit", ""))
-        value = carried_figure(figure, waveforms, label)  # integrals, located extrema
-        if value is None:
-            value = measure(figure, waveforms.t, waveforms.signals[label], signal_unit=unit)
+        start, stop = getattr(requirement, "start", None), getattr(requirement, "stop", None)
+        if start is not None or stop is not None:  # over part of the run
+            if np.ndim(waveforms.signals[label]) != 1:
+                value = np.zeros(np.shape(waveforms.signals[label])[:-1])  # refused just below
+            else:
+                value = run_figure(figure, waveforms, label, start, stop)
+        else:
+            value = carried_figure(figure, waveforms, label)  # integrals, located extrema
+            if value is None:
+                value = measure(figure, waveforms.t, waveforms.signals[label], signal_unit=unit)
         if np.ndim(value) != 0:
             raise LimitError(
                 f"requirement {_label(requirement)}: the {label!r} waveform holds several runs "
@@ -175,12 +184,20 @@ def all_passed(results: Sequence[LimitResult]) -> bool:
     return all(r.passed for r in results)
 
 
-def figures_needed(requirements: Sequence[Any]) -> list[tuple[str, str]]:
-    """The distinct (figure, probe label) keys a batch must measure for these requirements."""
-    keys: dict[tuple[str, str], None] = {}
+def figure_key(requirement: Any) -> tuple:
+    """The key of a requirement's figure in a batch's figure table: (figure, what it is taken
+    of) — the probe's label, with the window for a figure over part of the run
+    ("current through F1, 0 s – 10 ms", see ``Requirement.quantity``)."""
+    quantity = getattr(requirement, "quantity", None) or requirement.probe.label
+    return (requirement.figure, quantity)
+
+
+def figures_needed(requirements: Sequence[Any]) -> list[tuple]:
+    """The distinct figure keys (:func:`figure_key`) a batch must measure for these requirements."""
+    keys: dict[tuple, None] = {}
     for requirement in requirements:
-        figure, _ = _validated(requirement)
-        keys.setdefault((figure, requirement.probe.label), None)
+        _validated(requirement)
+        keys.setdefault(figure_key(requirement), None)
     return list(keys)
 
 
@@ -188,7 +205,7 @@ def _batch_values(requirements: Sequence[Any], figures: Mapping[tuple[str, str],
     columns, n = [], None
     for requirement in requirements:
         figure, comparison = _validated(requirement)
-        key = (figure, requirement.probe.label)
+        key = figure_key(requirement)
         if key not in figures:
             raise LimitError(
                 f"requirement {_label(requirement)} needs the figure {key!r}, which the batch did not "

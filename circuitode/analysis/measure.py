@@ -37,6 +37,7 @@ from .figures import (
     undershoot,
 )
 from .figures._common import _checked, trusted_clocks
+from .figures.window import window_bounds, window_groups
 from .between_rows import carried_figure
 
 __all__ = [
@@ -142,7 +143,7 @@ def _options_of(function: Callable) -> tuple[str, ...]:
     )
 
 
-def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarray:
+def measure(figure: str, t, y, *, signal_unit: str, window: tuple | None = None, **options: Any) -> np.ndarray:
     """Measure ``figure`` (a name of :data:`FIGURE_UNITS`) on ``y`` sampled at ``t``.
 
     Parameters
@@ -150,6 +151,11 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
     figure : canonical figure name, e.g. ``"peak"``, ``"i2t"``, ``"settling_time"``.
     t : (nt,) s.  y : (..., nt) in ``signal_unit``.
     signal_unit : unit of ``y`` ("V", "A", "W" …); energy needs a power signal ("W").
+    window : (start, stop) in s, either None for the start or end of the record: the figure
+        of that part alone (its settling time counts from ``start``, its step runs from the
+        value at ``start`` to the value at ``stop``; see :mod:`.figures.window` for rows that
+        repeat at an event).  Over a run, :func:`circuitode.analysis.windows.run_figure` takes
+        integrals and peaks from the solution itself.
     **options : the figure function's keyword options (``band``, ``start``, ``final`` …).
 
     Returns
@@ -190,6 +196,8 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
             np.asarray(value, dtype=float)
         except (TypeError, ValueError):
             raise MeasurementError(f"option {name} of figure {figure!r} must be a number, got {value!r}") from None
+    if window is not None:
+        return _in_window(function, t, y, window, options)
     if not options and figure in _ROW_WISE:
         rows = _row_blocks(t, y)
         if rows:
@@ -199,6 +207,26 @@ def measure(figure: str, t, y, *, signal_unit: str, **options: Any) -> np.ndarra
             with trusted_clocks(*clocks, checked=True):  # checked above, whole
                 return np.concatenate([function(c, y[r]) for c, r in zip(clocks, rows)])
     return function(t, y, **options)
+
+
+def _in_window(function: Callable, t, y, window, options) -> np.ndarray:
+    """``function`` on the rows of ``window`` = (start, stop) s; a batch with one clock per
+    sample is measured group by group of samples whose windows hold the same rows."""
+    try:
+        start, stop = window
+    except (TypeError, ValueError):
+        raise MeasurementError(f"window must be (start, stop) in s, either None; got {window!r}") from None
+    start, stop = (None if v is None else float(v) for v in (start, stop))
+    t, y = _checked(t, y)
+    if t.ndim == 1:
+        lo, hi = window_bounds(t, start, stop)
+        return function(t[lo:hi + 1], y[..., lo:hi + 1], **options)
+    out = np.full(y.shape[:-1], np.nan)
+    flat_t, flat_y = t.reshape(-1, t.shape[-1]), y.reshape(-1, y.shape[-1])
+    flat = out.reshape(-1)
+    for idx, rows in window_groups(flat_t, start, stop):
+        flat[idx] = function(flat_t[idx, rows], flat_y[idx, rows], **options)
+    return out
 
 
 #: Figures computed row by row, with several whole-batch temporaries: without options a

@@ -15,6 +15,7 @@ from typing import Any, Mapping
 
 from .. import model as cm
 from ..errors import NetlistError, Where
+from ..model.run_settings import check_windows
 from . import expressions as ex
 from .build_elements import ElementStatements
 from .expressions import did_you_mean
@@ -141,7 +142,13 @@ class _Builder(ElementStatements):
         limit = self.value(st.limit, unit, what, need_unit=need)
         if unit == "%":
             limit *= 100.0  # Requirement limits of percentage figures are stored in percent
-        self.requirements.append(cm.Requirement(figure, probe, st.comparison, limit, where=st.where))
+        start = stop = None
+        if st.window is not None:
+            start, stop = (None if v is None else self.value(v, "s", "a window instant")
+                           for v in (st.window.start, st.window.stop))
+        where = st.where if st.window is None else st.window.where  # a window's mistakes point at it
+        self.requirements.append(cm.Requirement(figure, probe, st.comparison, limit, where=where,
+                                                start=start, stop=stop))
 
     # -- references ----------------------------------------------------------
     def probe(self, spec: ProbeSpec, context: str) -> cm.Probe:
@@ -207,6 +214,8 @@ class _Builder(ElementStatements):
             if st.first == st.second:
                 raise NetlistError("a coupling joins two different inductors", st.wheres[1],
                                    "name the second inductor")
+        if self.analysis is not None:  # windows inside the run (checked again when a run overrides 'until')
+            check_windows(self.requirements, self.analysis.until)
         title = self.title or (Path(self.source_file).stem if self.source_file else "circuit")
         return cm.Circuit(
             title=title,

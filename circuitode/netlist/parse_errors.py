@@ -69,6 +69,9 @@ def _describe(expected: set[str]) -> tuple[str, list[str]]:
     if "NAME" in names and {"constant", "points"} <= set(literals.values()):
         words.append("a waveform (" + ", ".join(WAVEFORM_WORDS[:-1]) + " or " + WAVEFORM_WORDS[-1] + ")")
         names -= {"NAME"} | {n for n, lit in literals.items() if lit in ("constant", "points")}
+    if {"from", "after", "before"} <= set(literals.values()) and "COMPARE" in names:  # a requirement's window
+        words.append("a window such as 'after 2 ms' or a comparison (< <= > >=)")
+        names -= {n for n, lit in literals.items() if lit in ("from", "after", "before")} | {"COMPARE"}
     operators = {n for n, lit in literals.items() if lit in _OPERATORS}
     if operators and "UNIT" in names:
         words.append("a unit or an operator (+ - * / ^)")
@@ -152,6 +155,9 @@ def syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistEr
     word_match = _WORD.match(rest)
     word = word_match.group(0) if word_match else ""
     before = text[: column - 1]
+    if re.match(r"\s*require\b.*\bfrom\b", before) and expected == {"NAME"}:  # 'from 1 ms until 2 ms'
+        return NetlistError(f"expected 'to' between the two instants of the window, got '{word}'", where,
+                            "write 'from 0 s to 10 ms'")
 
     if token_type in ("_NL", "$END") or (not rest.strip() and token_type is None):
         code_end = len(text.split("#", 1)[0].rstrip()) + 1

@@ -15,7 +15,8 @@ from . import expressions as ex
 from ..quantities import read_quantity
 from .syntax import (
     CouplingStmt, ElementStmt, Field, GroundStmt, IncludeStmt, ParamStmt, ProbeSpec, RecordStmt,
-    AngleSpec, RequireStmt, SourceStmt, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec, Tolerance,
+    AngleSpec, RequireStmt, SourceStmt, WindowSpec, SwitchStmt, DiodeStmt, ThresholdSpec, TimedSpec, TitleStmt, ToggleSpec,
+    Tolerance,
     TransientStmt, Valued, WaveformSpec,
 )
 
@@ -179,14 +180,32 @@ class ToSyntaxTree(Transformer):
 
     @v_args(meta=True)
     def require_stmt(self, meta, items):
+        window = items.pop(2) if len(items) == 5 else None
         figure, probe, comparison, limit = items
-        return RequireStmt(" ".join(str(figure).split()), probe, str(comparison), limit, self.at(meta))
+        return RequireStmt(" ".join(str(figure).split()), probe, str(comparison), limit, self.at(meta), window)
 
     @v_args(meta=True)
     def require_energy(self, meta, items):
+        window = items.pop(1) if len(items) == 4 else None
         element, comparison, limit = items
         probe = ProbeSpec("power", (str(element),), (self.at(element),), self.at(element))
-        return RequireStmt("energy", probe, str(comparison), limit, self.at(meta))
+        return RequireStmt("energy", probe, str(comparison), limit, self.at(meta), window)
+
+    @v_args(meta=True)
+    def window_between(self, meta, items):
+        start, word, stop = items
+        if str(word) != "to":
+            raise NetlistError(f"expected 'to' between the two instants of the window, got '{word}'",
+                               self.at(word), "write 'from 0 s to 10 ms'")
+        return WindowSpec(start, stop, self.at(meta))
+
+    @v_args(meta=True)
+    def window_after(self, meta, items):
+        return WindowSpec(items[0], None, self.at(meta))
+
+    @v_args(meta=True)
+    def window_before(self, meta, items):
+        return WindowSpec(None, items[0], self.at(meta))
 
     # -- probes ----------------------------------------------------------
     def _probe(kind):  # noqa: N805

@@ -34,6 +34,7 @@ __all__ = [
     "TransientStmt",
     "RecordStmt",
     "RequireStmt",
+    "WindowSpec",
     "Statement",
     "Netlist",
 ]
@@ -227,14 +228,28 @@ class RecordStmt:
 
 
 @dataclass(frozen=True)
+class WindowSpec:
+    """The part of the run a figure is taken over: ``from … to …``, ``after …``, ``before …``.
+
+    start, stop : the written instants (None for the start or end of the run).
+    """
+
+    start: Valued | None
+    stop: Valued | None
+    where: Where
+
+
+@dataclass(frozen=True)
 class RequireStmt:
-    """figure : the written figure words, normalised to single spaces ("settling time")."""
+    """figure : the written figure words, normalised to single spaces ("settling time").
+    window : the part of the run it is taken over, or None for the whole run."""
 
     figure: str
     probe: ProbeSpec
     comparison: str
     limit: Valued
     where: Where
+    window: WindowSpec | None = None
 
 
 Statement = (

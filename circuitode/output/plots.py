@@ -192,16 +192,24 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
         words = f"{verdict}: {requirement_words(req, r.unit)}"
         if math.isfinite(r.value):
             words += f" (measured {format_si(r.value, r.unit, 4)})"
+        start, stop = getattr(req, "start", None), getattr(req, "stop", None)
+        windowed = start is not None or stop is not None  # drawn over its window only
         if req.figure in ("settling_time", "rise_time"):
-            ax.axvline(req.limit * tf, color=color, lw=1.3, ls="--")
+            ax.axvline(((start or 0.0) + req.limit) * tf, color=color, lw=1.3, ls="--")
             notes.append(("┆ " + words, color))  # the dashed vertical line
+        elif windowed and req.figure in ("i2t", "energy"):  # the running integral counts from 0 s
+            notes.append((words, color))
         elif req.figure in ("peak", "minimum", "final", "mean", "rms", "i2t", "energy") and r.unit == unit:
             level = req.limit * yf
             span = high - low
-            if low - span <= level <= high + span:  # near the data: draw it where it is
-                ax.axhline(level, color=color, lw=1.3, ls="--")
+            x0, x1 = ax.get_xlim()
+            x0, x1 = (x0 if start is None else start * tf), (x1 if stop is None else stop * tf)
+            if low - span <= level <= high + span:  # near the data: draw it where it is (over its window)
+                ax.hlines(level, x0, x1, color=color, lw=1.3, ls="--") if windowed else \
+                    ax.axhline(level, color=color, lw=1.3, ls="--")
                 if req.figure == "peak" and low < -0.5 * level:  # a peak is of the magnitude: both signs
-                    ax.axhline(-level, color=color, lw=1.3, ls="--")
+                    ax.hlines(-level, x0, x1, color=color, lw=1.3, ls="--") if windowed else \
+                        ax.axhline(-level, color=color, lw=1.3, ls="--")
                 # an upper limit is labelled above its line, a lower one below, on the side the data must avoid
                 ax.text(0.99, level, words + " ", transform=transforms.blended_transform_factory(
                     ax.transAxes, ax.transData), fontsize=7, color=color, ha="right",

@@ -376,13 +376,13 @@ def limits_text(results: Sequence[Any]) -> list[str]:
 
 
 def requirement_words(requirement: Any, unit: str) -> str:
-    """E.g. "peak of current through R1 < 2 A" (the limit in engineering notation)."""
-    limit = f"{requirement.comparison} {format_si(requirement.limit, unit)}"
-    probe = requirement.probe
+    """E.g. "peak of current through R1 < 2 A", "I²t of current through F1, 0 s – 10 ms < 200 mA²s"."""
+    limit, probe = f"{requirement.comparison} {format_si(requirement.limit, unit)}", requirement.probe
+    quantity = getattr(requirement, "quantity", probe.label)  # with the window, if any
     if requirement.figure == "energy" and type(probe).__name__ == "PowerIn":
-        return f"energy in {probe.element} {limit}"
+        return f"energy in {probe.element}{quantity[len(probe.label):]} {limit}"
     figure = {"i2t": "I²t", "final": "final value"}.get(requirement.figure, requirement.figure.replace("_", " "))
-    return f"{figure} of {probe.label} {limit}"
+    return f"{figure} of {quantity} {limit}"
 
 
 def event_words(event: Any) -> str:

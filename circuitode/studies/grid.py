@@ -31,7 +31,7 @@ from ..errors import CircuitodeError, NetlistError
 from ..model import Circuit
 from ..netlist.parts import expose_parts, resolve_part
 from ..quantities import parse_quantity
-from ..tolerance.batch import _check_supported, batch_figure_keys, run_chunk
+from ..tolerance.batch import _check_supported, batch_figure_keys, label_units, run_chunk
 from ..tolerance.engine import BATCH_METHODS, output_grid
 
 __all__ = ["Axis", "PointResults", "parse_axis", "axis_from", "study_circuit", "evaluate_points",
@@ -220,7 +220,7 @@ def evaluate_points(circuit: Circuit, names: Sequence[str], values: np.ndarray, 
     figures = np.concatenate([p["figures"] for p in parts])
     ok = np.concatenate([p["ok"] for p in parts])
     messages = np.concatenate([p["message"] for p in parts])
-    unit_of = {p.label: p.unit for p in probes}
+    unit_of = label_units(circuit, probes)
     units = [figure_unit(f, unit_of[label]) for f, label in keys]
     fig_map = {k: figures[:, j] for j, k in enumerate(keys)}
     reqs = tuple(circuit.requirements)

@@ -17,7 +17,8 @@ from typing import Any
 
 import numpy as np
 
-from ..quantities import format_value, si_scale
+from ..quantities import format_si, format_value, si_scale
+from ..analysis.limits import figure_key
 
 __all__ = ["sweep_figure"]
 
@@ -46,7 +47,7 @@ def _panels(result: Any) -> list[tuple[int, Any]]:
     """(figure column, requirement or None) to draw: each requirement's figure, else the first figures."""
     keys = result.results.figure_keys
     if result.requirements:
-        out = [(keys.index((r.figure, r.probe.label)), r) for r in result.requirements]
+        out = [(keys.index(figure_key(r)), r) for r in result.requirements]
     else:
         out = [(j, None) for j in range(len(keys))]
     return out[:_MAX_PANELS]

@@ -22,6 +22,7 @@ import numpy as np
 
 from ..errors import CircuitodeError
 from ..notebook import pandas_module
+from ..analysis.limits import figure_key
 from ..tolerance.progress import counter
 from .worst import refine_worst, worst_points
 from .grid import MAX_POINTS, Axis, PointResults, axis_from, evaluate_points, grid_points, parse_axis, study_circuit
@@ -143,7 +144,7 @@ def _column_units(result: SweepResult) -> list[str]:
     units = [a.unit for a in result.axes] + list(result.results.figure_units)
     unit_of = dict(zip(result.results.figure_keys, result.results.figure_units))
     for req in result.requirements:
-        units += ["", unit_of.get((req.figure, req.probe.label), "")]
+        units += ["", unit_of.get(figure_key(req), "")]
     return units + ["", ""]
 
 

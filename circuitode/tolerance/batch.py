@@ -16,13 +16,15 @@ from typing import Any, Sequence
 import numpy as np
 
 from ..model import Circuit, Coupling, PowerIn
+from ..model.run_settings import check_windows
 from ..errors import CircuitodeError, NetlistError, environment_fault
 from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..netlist.parts import expose_parts
 from ..output.atomic import check_out_folder, write_atomic
-from ..analysis.limits import check_requirements_batch, requirement_margins_batch
+from ..analysis.limits import check_requirements_batch, figure_key, requirement_margins_batch
 from ..analysis.measure import figure_unit, measure, trusted_clocks
 from ..analysis.window_integrals import figure_from_integrals
+from .batch_windows import label_units, windowed_figure
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
 from .executors import make_executor
@@ -113,7 +115,9 @@ def batch_figure_keys(circuit: Circuit) -> tuple[list, list]:
         else:
             add(p, ("peak", "time_of_peak", "minimum", "final", "overshoot", "settling_time"))
     for r in circuit.requirements:
-        add(r.probe, (r.figure,))
+        add(r.probe, ())
+        if figure_key(r) not in keys:  # over part of the run: keyed by the probe and the window
+            keys.append(figure_key(r))
     return probes, keys
 
 
@@ -200,10 +204,16 @@ def run_chunk(task: dict) -> dict:
         waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
         labels = [p.label for p in task["probes"]]
         units = [p.unit for p in task["probes"]]
+        windows = {r.quantity: r for r in circuit.requirements if r.windowed}
         # each sample has its own clock (its own switching instants): t is (N, L), checked
         # once here for all the figures of the chunk
         with trusted_clocks(waves.t):
             for j, (fig, label) in enumerate(keys):
+                if label in windows:  # a requirement's figure over part of the run
+                    r = windows[label]
+                    row = labels.index(r.probe.label)
+                    figures[:, j] = windowed_figure(fig, r, waves, row, units[row])
+                    continue
                 row = labels.index(label)
                 carried = None
                 if waves.integrals is not None:  # exact integrals of the run itself
@@ -240,6 +250,7 @@ def _preflight(circuit: Circuit, table: SampleTable, probes, keys, method: str) 
 
     output_grid(circuit)
     verify(circuit, circuit.analysis.until)
+    check_windows(circuit.requirements, circuit.analysis.until)
     nominal = run_chunk({"circuit": circuit, "names": table.names, "values": table.nominal[None, :],
                          "start": 0, "keys": keys, "probes": probes, "method": method})
     if not nominal["ok"][0]:
@@ -384,7 +395,7 @@ def _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, resumed, e
     figures = np.concatenate([p["figures"] for p in parts])
     ok = np.concatenate([p["ok"] for p in parts])
     messages = np.concatenate([p["message"] for p in parts])
-    unit_of = {p.label: p.unit for p in probes}
+    unit_of = label_units(circuit, probes)
     units = [figure_unit(f, unit_of[label]) for f, label in keys]
     fig_map = {k: figures[:, j] for j, k in enumerate(keys)}
     summaries = {k: summarise_figure(f"{k[0]} of {k[1]}", figures[:, j]) for j, k in enumerate(keys)}
@@ -398,7 +409,7 @@ def _reduce(circuit, table, store, n_chunks, keys, probes, min_yield, resumed, e
             m = np.where(np.isfinite(margins[:, i]), margins[:, i], np.inf)
             if np.isfinite(m).any():
                 k = int(np.argmin(m))
-                worst[r.label] = (k, float(fig_map[(r.figure, r.probe.label)][k]))
+                worst[r.label] = (k, float(fig_map[figure_key(r)][k]))
     yld = estimate_yield(limit_passes, ok)
     params = table.values
     sens = {k: sensitivity_ranking(table.names, params, figures[:, j]) for j, k in enumerate(keys)}
@@ -433,7 +444,7 @@ def _write_waveforms(parts, probes, folder: Path) -> dict:
 def _limit_words(result: BatchResult) -> list[str]:
     """Each limit worded with its unit, as the printed table has it ("peak of current through R1 < 6 A")."""
     units = dict(zip(result.figure_keys, result.figure_units))
-    return [requirement_words(r, units.get((r.figure, r.probe.label), "")) for r in result.requirements]
+    return [requirement_words(r, units.get(figure_key(r), "")) for r in result.requirements]
 
 
 def _limit_passes(result: BatchResult) -> np.ndarray:

@@ -72,6 +72,10 @@ class ChunkIntegrals:
         R, p = rows.size, P.shape[1]
         self.products[rows] += (P.reshape(R, p, -1) @ second.reshape(R, -1, 1))[:, :, 0]
 
+    def snapshot(self, recipe) -> list:
+        """:meth:`by_recipe` as copies: the sums so far, kept while the run goes on."""
+        return [(a.copy(), b.copy()) for a, b in self.by_recipe(recipe)]
+
     def by_recipe(self, recipe) -> list:
         """Per recorded probe: (∫ y dt (N,), ∫ y² dt (N,)); a power probe (∫ p dt, NaN)."""
         out, power = [], self.linear.shape[1]

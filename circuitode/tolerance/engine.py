@@ -47,6 +47,7 @@ from ..equations.statespace import VARIABLE_FIELDS
 from ..equations.statespace import StateSpaceCache, initial_state
 from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
+from ..transient.window_integrals import window_marks
 from .batch_integrals import ChunkIntegrals, integral_pairs
 from .block_stepper import BlockStepper
 from .stepping import Record, Stretch, matvec
@@ -71,6 +72,8 @@ class ChunkWaves:
     event_times : (N, k) s, instant each threshold switch acted, NaN if it never did.
     integrals : per probe asked for, (∫ y dt (N,), ∫ y² dt (N,)) over the window, exact
         (method "exact"; a power probe has (∫ p dt, NaN)); None with rk4.
+    cumulative_integrals : end of a requirement's window (s) → the same integrals from 0 to
+        that instant (a stretch bound, so exact as well); None with rk4.
     """
 
     t: np.ndarray
@@ -79,6 +82,7 @@ class ChunkWaves:
     problems: dict[int, str] = field(default_factory=dict)
     event_times: np.ndarray | None = None
     integrals: list | None = None
+    cumulative_integrals: dict | None = None
 
     @property
     def y(self) -> np.ndarray:
@@ -210,7 +214,9 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
          for t, st in s.scheduled_changes(-np.finfo(float).tiny, until)),
         key=lambda c: (c[0], c[1]))
     corners = bank.breakpoints(0.0, until) if m else np.zeros(0)
-    bounds = np.unique(np.concatenate([[0.0], corners, [c[0] for c in changes if c[0] > 0], [until]]))
+    marks = window_marks(circuit.requirements, until)  # requirement windows end at stretch bounds
+    bounds = np.unique(np.concatenate([[0.0], corners, [c[0] for c in changes if c[0] > 0], marks, [until]]))
+    cumulative = {}
 
     timed = [bool(s.initially_closed) for s in switches]
     code = np.zeros(N, dtype=np.int64)  # bit j: threshold switch j has acted
@@ -229,7 +235,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
 
     # each switching instant and source corner adds two rows (and stands for a grid
     # instant it falls on)
-    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size, 2 * len(rules), p_all)
+    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size + marks.size, 2 * len(rules), p_all)
     y_end_before = None
     queue = list(changes)
     for seg, (a, b) in enumerate(zip(bounds[:-1], bounds[1:])):
@@ -269,7 +275,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             record.all(a, y_end_before)
             record.all(a, y_now)
         fire_at_start(watch, stretch, a, w, y_now, code, ok, G_cur, record)
-        if not due and not corner and np.any(np.abs(t_grid - a) <= slack):
+        mark = marks.size and np.min(np.abs(marks - a)) <= slack
+        if mark and tally is not None:
+            cumulative[float(marks[np.argmin(np.abs(marks - a))])] = tally.snapshot(recipe)
+        if not due and not corner and (mark or np.any(np.abs(t_grid - a) <= slack)):
             # (a sample that switched just now repeats its "after" row here: an interval
             # of zero length that changes no figure)
             record.all(a, y_now)
@@ -291,7 +300,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
     return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times,
-                      None if tally is None else tally.by_recipe(recipe))
+                      None if tally is None else tally.by_recipe(recipe),
+                      None if tally is None else cumulative)
 
 
 # --------------------------------------------------------------------------

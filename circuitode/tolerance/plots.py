@@ -13,6 +13,7 @@ from pathlib import Path
 import numpy as np
 
 from ..quantities import format_si, si_scale
+from ..analysis.limits import figure_key
 from .summary import figure_label, varies
 from ..output.atomic import write_atomic
 
@@ -71,7 +72,7 @@ def write_plots(result, folder: Path) -> dict:
     """Write PNGs into ``folder/plots``; returns name → path."""
     out_dir = Path(folder) / "plots"
     out_dir.mkdir(parents=True, exist_ok=True)
-    limited = {(r.figure, r.probe.label): r for r in result.requirements}
+    limited = {figure_key(r): r for r in result.requirements}
     keys = [k for k in result.figure_keys if k in limited] or list(result.figure_keys)[:8]
     files = {}
     names = result.samples.names

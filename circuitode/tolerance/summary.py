@@ -13,6 +13,7 @@ import textwrap
 import numpy as np
 
 from ..quantities import format_si, format_value
+from ..analysis.limits import figure_key
 from ..output.report import SAFETY_LINE, WIDTH, requirement_words
 
 __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
@@ -127,7 +128,7 @@ def format_batch_summary(result) -> str:
                      f"(95 % Wilson interval {100 * y.low:.2f} to {100 * y.high:.2f} %)")
         units = dict(zip(result.figure_keys, result.figure_units))
         for r in result.requirements:
-            unit = units.get((r.figure, r.probe.label), "")
+            unit = units.get(figure_key(r), "")
             count = y.per_limit.get(r.label, 0)
             head = f"  {count:>{len(str(y.total))}} pass  "
             lines.extend(textwrap.wrap(head + requirement_words(r, unit), WIDTH,

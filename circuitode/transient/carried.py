@@ -22,7 +22,7 @@ __all__ = ["carried_by_run"]
 
 def carried_by_run(t: np.ndarray, states: np.ndarray, configs: Sequence, used: Sequence, signals: dict,
                    probes: dict, row_of: dict, tally: IntegralTally, bank, event_tol: float) -> dict:
-    """The keyword fields ``integrals``, ``extrema``, ``between`` and ``fastest_seen_rate`` of
+    """The keyword fields ``integrals``, ``segment_integrals``, ``extrema``, ``between`` and ``fastest_seen_rate`` of
     ``Waveforms``.
 
     t : (nt,) s.  states : (nt, n).  configs : (nt,) StateSpace in force after each row.
@@ -34,6 +34,7 @@ def carried_by_run(t: np.ndarray, states: np.ndarray, configs: Sequence, used: S
               if not isinstance(probes[label], PowerIn)}
     return {
         "integrals": tally.by_label(),
+        "segment_integrals": tally.segments(),
         "extrema": refine_extrema(t, states, configs, linear, bank, event_tol),
         "between": BetweenRows(t, states, configs, {label: j for label, (j, _) in linear.items()}, bank),
         "fastest_seen_rate": max((fastest_seen_rate(ss.A, ss.C) for ss in used), default=0.0),

@@ -36,7 +36,8 @@ from ..checks.dc import explain_singular_dc
 from ..checks.topology import verify
 from .carried import carried_by_run
 from .settings import DEFAULT_POINTS, _number, _output_grid, _settings, _Settings
-from .window_integrals import IntegralTally
+from .window_integrals import IntegralTally, window_marks
+from ..model.run_settings import check_windows
 
 __all__ = ["Event", "Waveforms", "simulate", "DEFAULT_POINTS", "EVENT_TOL_FRACTION", "recorded_probes"]
 
@@ -69,8 +70,9 @@ class Waveforms(WaveformsView):
     "rhs_evaluations", "expm_calls", …).
     configurations : switch-state tuples used, in order of first use.
     warnings : topology warnings (diagnostics of severity "warning"), as text.
-    integrals, extrema, between, fastest_seen_rate : what the run carries beyond its rows
-    (window integrals, located extrema, values between rows, fastest mode seen;
+    integrals, extrema, between, fastest_seen_rate, segment_integrals : what the run carries
+    beyond its rows (window integrals, located extrema, values between rows, fastest mode
+    seen, the integrals per segment for figures over part of the run;
     :mod:`circuitode.transient.carried`).
     """
 
@@ -91,6 +93,7 @@ class Waveforms(WaveformsView):
     extrema: dict[str, object] = field(default_factory=dict)
     fastest_seen_rate: float = 0.0
     between: object = None
+    segment_integrals: object = None
 
     def __getitem__(self, label: str) -> np.ndarray:
         if label in self.signals:
@@ -312,6 +315,7 @@ def simulate(circuit: Circuit, *, method: str | None = None, step: float | None 
     x = np.asarray(_initial_state(circuit, s.initial, ss0, u_before), dtype=float)
     x = enter(circuit, ss0, x, 0.0, f"the {s.initial} initial state {describe_configuration(circuit, start)}")
 
+    check_windows(circuit.requirements, s.until)
     run = _Run(circuit, cache, bank, grid, s.until, integrator)
     run.tally = IntegralTally(wanted, row_of)
     run.diodes = Commutation(circuit, cache, bank, s.until)
@@ -331,6 +335,7 @@ class _Run:
         self.used: dict[tuple[bool, ...], None] = {}
         self.next_grid = 0  # index of the first grid time not yet recorded
         self.slack = 1e-12 * until
+        self.marks = window_marks(circuit.requirements, until)
 
     # rows ---------------------------------------------------------------
     def record(self, t, x, u, closed):
@@ -359,7 +364,7 @@ class _Run:
         circuit, until = self.circuit, self.until
         stops = np.unique(np.concatenate([
             self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0),
-            np.array([c[0] for c in schedule if c[0] > 0], dtype=float), [until]]))
+            np.array([c[0] for c in schedule if c[0] > 0], dtype=float), self.marks, [until]]))
         pending = [k for k, sw in enumerate(circuit.switches) if isinstance(sw.control, ThresholdRule)]
         self.corners = self.bank.breakpoints(0.0, until) if self.bank.m else np.zeros(0)
         queue = list(schedule)
@@ -392,7 +397,7 @@ class _Run:
             t_out = self.grid[self.next_grid:upto]
             result = self.integrator.solve(segment, t_out, [ev for _, ev in watch],
                                            integrals=self.tally.request(ss.C, ss.D))
-            self.tally.add(result.integrals)
+            self.tally.add(result.integrals, t, t_next if result.event_time is None else float(result.event_time))
             self.counters["segments"] += 1
             for key, value in result.counters.items():
                 self.counters[key] = self.counters.get(key, 0) + int(value)
@@ -410,12 +415,18 @@ class _Run:
                 float(result.event_time), x, closed, pending[result.event_index], pending)
 
     def corner(self, t, x, closed, queue):
-        """Rows just before and after a source breakpoint at ``t`` (s), unless a switch acts then."""
-        if not (self.corners.size and np.min(np.abs(self.corners - t)) <= self.slack) or any(
+        """Rows just before and after a source breakpoint at ``t`` (s), one row at the end of a
+        requirement's window, unless a switch acts then."""
+        def near(instants):
+            return instants.size and np.min(np.abs(instants - t)) <= self.slack
+        if not (near(self.corners) or near(self.marks)) or any(
                 c[0] <= t + self.slack and closed[c[1]] != c[2] for c in queue):
             return
         u_b, u_a = self._inputs_around(t)
-        self.record([t, t], np.stack([x, x]), np.stack([u_b, u_a]), closed)
+        if near(self.corners):
+            self.record([t, t], np.stack([x, x]), np.stack([u_b, u_a]), closed)
+        else:
+            self.record([t], x[None, :], self.bank.values(np.array([t])), closed)
         while self.next_grid < self.grid.size and self.grid[self.next_grid] <= t + self.slack:
             self.next_grid += 1
 

@@ -19,6 +19,8 @@ import numpy as np
 from ..errors import CircuitodeError
 from ..model import CurrentThrough, DiodeRule, PowerIn, ThresholdRule, VoltageAcross
 from ..model import SourceBank
+from ..model.run_settings import check_windows
+from .window_integrals import window_marks
 
 __all__ = ["SPARSE_STATES", "SPARSE_METHODS", "STATE_ROWS_LIMIT", "sparse_choice", "simulate_sparse"]
 
@@ -130,7 +132,8 @@ def simulate_sparse(circuit, settings, name: str, reason: str, probes=None, rtol
     linear = _linear_probes(wanted)
     cache = SparseDescriptorCache(circuit, linear)
     bank = SourceBank.of(circuit)
-    grid = _output_grid(s)
+    check_windows(circuit.requirements, s.until)
+    grid = np.union1d(_output_grid(s), window_marks(circuit.requirements, s.until))  # window ends are rows
     step = s.step if s.step is not None else s.until / (s.points - 1)
     closed = tuple(sw.initially_closed for sw in circuit.switches)
     desc = cache.get(closed)
