@@ -24,7 +24,7 @@ from ..analysis.limits import check_requirements_batch, requirement_margins_batc
 from ..analysis.measure import figure_unit, measure
 from ..analysis.window_integrals import figure_from_integrals
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
-from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
+from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
@@ -275,7 +275,6 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     _check_counts(**({} if sampler == "corners" else {"samples": samples}), seed=seed, keep_waveforms=keep_waveforms)
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
-    refuse_diodes(circuit)
     if min_yield is not None and not 0.0 <= float(min_yield) <= 1.0:
         raise CircuitodeError(f"--min-yield must be a fraction between 0 and 1, got {min_yield!r}")
     if isinstance(tol_overrides, dict):

@@ -166,7 +166,7 @@ class BlockStepper:
                     W[idx] = W_idx
                     Y_new = self.G_cur[idx] @ np.swapaxes(W_idx, 1, 2)
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
-                    g[idx] = watch.values(Y[idx], code[idx])
+                    g[idx] = watch.values(Y[idx], code[idx], idx)
                 settled[idx] = j
         self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
         record.columns(np.asarray(ts, dtype=float), Y)
