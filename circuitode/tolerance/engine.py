@@ -60,6 +60,11 @@ from .thresholds import Watch, fire_at_start
 __all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes",
            "simulate_chunk"]
 
+#: Extra rows first set aside per diode and sample (two per event); more are made
+#: by doubling, which copies the record (a bridge: about 20 events per diode pair in
+#: 100 ms, so its 80-odd extra rows fit without one).
+EXTRA_ROWS_PER_DIODE = 32
+
 #: Stepping methods of the batched engine.
 BATCH_METHODS = ("exact", "rk4")
 
@@ -174,7 +179,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
                   settled=np.arange(len(watched)) >= k_thr,
                   margin=np.zeros((N, len(watched))) if dio else None, ok=ok)
     problems: dict[int, str] = {}
-    tally = ChunkIntegrals(N, len(all_rows), integral_pairs(recipe, len(all_rows))) \
+    # (squares of the recorded rows only: a watched diode's voltage and current need none)
+    tally = ChunkIntegrals(N, len(all_rows), integral_pairs(recipe, len(rows))) \
         if method == "exact" else None
     diodes = BatchDiodes(circuit, cache, None, k_thr, until, N)
 
@@ -239,8 +245,9 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
 
     # each switching instant and source corner adds two rows (and stands for a grid
     # instant it falls on)
-    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size, 2 * len(rules),
-                    len(all_rows))
+    # (room for a few commutations of each diode: the record grows by doubling beyond it)
+    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size,
+                    2 * len(rules) + EXTRA_ROWS_PER_DIODE * len(dio), len(all_rows))
     y_end_before = None
     queue = list(changes)
     for seg, (a, b) in enumerate(zip(bounds[:-1], bounds[1:])):
