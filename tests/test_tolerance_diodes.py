@@ -225,3 +225,34 @@ def test_a_turn_off_row_shows_the_located_zero_in_single_runs_and_batches():
         for j in range(4):
             i = chunk.signals[j][k]
             assert i.min() >= -1e-12 * np.max(np.abs(i)), (k, j, i.min())
+
+
+def test_freewheel_batch_with_held_states_equals_single_runs():
+    # [Reference: single runs] a relay coil driven through K, which opens at 0.1 s; its
+    # freewheel diode turns on at once (the coil current may not be cut) and off when the
+    # current reaches zero, after which the coil current is held at 0 A (a configuration
+    # with fewer states).  Each sample (coil resistance, inductance) turns off at its own
+    # instant, closed form i0·e^(−t/τ) (Nilsson & Riedel ch. 7) checked in test_diodes.
+    import dataclasses
+
+    from test_diodes import relay
+
+    base = relay()
+    R = np.array([8.0, 12.0, 20.0])
+    L = np.array([0.1, 0.2, 0.4])
+    probes = [CurrentThrough("L1"), NodeVoltage("c"), CurrentThrough("D1")]
+    chunk = simulate_chunk(base, {("Rc", "resistance"): R, ("L1", "inductance"): L}, probes)
+    assert chunk.ok.all(), chunk.problems
+    offs = set()
+    for k in range(R.size):
+        one = dataclasses.replace(base, elements=tuple(
+            dataclasses.replace(e, resistance=float(R[k])) if e.name == "Rc" else
+            dataclasses.replace(e, inductance=float(L[k])) if e.name == "L1" else e
+            for e in base.elements))
+        w = simulate(one, probes=probes, method="exact")
+        assert [(e.switch, e.closed) for e in w.events] == [("K", False), ("D1", True), ("D1", False)]
+        offs.add(round(w.events[2].time, 9))
+        _rows_agree(chunk, k, w, [p.label for p in probes])
+        after = chunk.t[k] > w.events[2].time + 1e-9  # (past the two rows of the instant)
+        assert np.all(chunk.signals[0][k][after] == 0.0)  # held at zero, exactly
+    assert len(offs) == R.size
