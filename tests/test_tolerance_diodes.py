@@ -110,7 +110,7 @@ def test_half_wave_batch_figures_equal_single_runs():
     # [Reference: single runs] three toleranced parts (R_s, C_h, the load): each sample's
     # conduction angles differ, its figures equal its single run's.
     circuit = loads(HALF_WAVE)
-    got, ref, keys, scales = _figures_against_single_runs(circuit, HALF_WAVE, n=12, seed=3)
+    got, ref, keys, scales = _figures_against_single_runs(circuit, HALF_WAVE, n=8, seed=3)
     _assert_figures_agree(got, ref, keys, 60e-3, scales)
 
 
@@ -119,7 +119,7 @@ def test_bridge_batch_figures_equal_single_runs():
     # its own four diodes at its own instants (several at once when the bridge starts).
     circuit = load(BRIDGE)
     assert circuit.spreads, "the example carries tolerances"
-    got, ref, keys, scales = _figures_against_single_runs(circuit, BRIDGE, n=6, seed=5)
+    got, ref, keys, scales = _figures_against_single_runs(circuit, BRIDGE, n=4, seed=5)
     _assert_figures_agree(got, ref, keys, 100e-3, scales)
 
 
