@@ -211,13 +211,6 @@ def test_bridge_switched_on_at_the_mains_peak_first_peak_current():
     assert {"D2", "D3"} <= set(starts)
 
 
-def test_diodes_refuse_a_tolerance_batch():
-    from circuitode.tolerance.engine import refuse_diodes
-
-    with pytest.raises(CircuitodeError, match="diode D1.*tolerance batches do not follow diodes"):
-        refuse_diodes(loads(BRIDGE))
-
-
 # ---------------------------------------------------------------- complementarity
 
 

@@ -165,15 +165,15 @@ def enter(circuit: Circuit, ss: StateSpace, x: np.ndarray, time: float, cause: s
     return ss.project(x)
 
 
-def batch_entry(circuit: Circuit, ss: StateSpace, x: np.ndarray, time, cause: str):
-    """:func:`enter` for a batch: x (N, n), time s (scalar or (N,)) → (projected x,
-    bad (N,), message per bad sample)."""
+def batch_entry(circuit: Circuit, ss: StateSpace, x: np.ndarray, time, cause: str, atol=0.0):
+    """:func:`enter` for a batch: x (N, n), time s (scalar or (N,)), atol V or A (scalar
+    or (N,)) → (projected x, bad (N,), message per bad sample)."""
     from ..quantities import format_si
 
     x = np.asarray(x, dtype=float)
     if ss.basis is None:
         return x, np.zeros(x.shape[0], dtype=bool), {}
-    bad, found = entry_violations(circuit, ss, x)
+    bad, found = entry_violations(circuit, ss, x, atol)
     times = np.broadcast_to(np.asarray(time, dtype=float), (x.shape[0],))
     messages = {}
     for i in np.flatnonzero(bad):

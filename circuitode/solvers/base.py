@@ -119,12 +119,17 @@ class LinearEvent:
     rising : True fires when g goes from zero or below to above zero (the quantity
     rises through ``level``); False fires when g goes from zero or above to below
     zero.  A quantity that merely touches the level does not fire.
+    located_at : where an integrator that can (``exact``) puts the instant once a
+    crossing of ``level`` is found: the quantity's crossing of ``located_at``, at
+    or before it (a diode's event is detected a band past its limit, so that rounding
+    noise does not fire it, and located at the limit itself); None: at ``level``.
     """
 
     c: np.ndarray
     d: np.ndarray
     level: float
     rising: bool = True
+    located_at: float | None = None
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "c", np.asarray(self.c, dtype=float).reshape(-1))

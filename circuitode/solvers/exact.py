@@ -19,7 +19,11 @@ step (periodic switching) none.
 Events are detected by a sign change of g between consecutive check points
 (the output times, each interval split equally so that no part exceeds a
 quarter period of the fastest oscillation of M) and located by Brent's method
-on the exact propagation from the last check point.
+on the exact propagation from the last check point, then polished by Newton
+steps on the same propagation (g′ = c·(M w)), so the instant is the crossing
+to rounding rather than to ``event_tol``: a fast mode (ns) moves the state
+by its slope × ``event_tol`` otherwise, and the batch engine, which locates by
+Newton, would differ from the single run by that much.
 """
 from __future__ import annotations
 
@@ -183,9 +187,48 @@ class Exact(Integrator):
             if event.met(np.array([g_start[j]]))[0] or not event.met(np.array([end]))[0]:
                 continue
             s = brent_root(g, 0.0, h, xtol=self.event_tol, rtol=4 * np.finfo(float).eps)
+            rate = lambda s_, event=event: _rate(event, M, state(s_), n, H)
+            s = _newton_polish(g, rate, s, h)
+            if event.located_at is not None:  # back from the detection band to the limit
+                s = _back_to(lambda s_, g=g, event=event: g(s_) + event.level - event.located_at,
+                             rate, s)
             if best is None or s < best[0]:
                 best = (s, j)
         if best is None:  # re-evaluation rounded the crossing away: take the interval's end
             best = (h, first)
         s, j = best
         return s, j, state(s), calls
+
+
+def _rate(event, M: np.ndarray, ws: np.ndarray, n: int, H: np.ndarray) -> float:
+    """dg/ds of a linear event at the augmented state ws (its level drops out)."""
+    dw = M @ ws
+    return float(dw[:n] @ event.c + ((dw[n:] @ H.T) @ event.d if event.d.size else 0.0))
+
+
+def _newton_polish(g, rate, s: float, h: float, steps: int = 2) -> float:
+    """Up to ``steps`` Newton steps from Brent's s (s) inside [0, h]; s itself when a step
+    would leave the interval or the slope vanishes."""
+    for _ in range(steps):
+        slope = rate(s)
+        if slope == 0.0 or not np.isfinite(slope):
+            return s
+        nxt = s - g(s) / slope
+        if not 0.0 <= nxt <= h or nxt == s:
+            return s
+        s = nxt
+    return s
+
+
+def _back_to(g0, rate, s: float, steps: int = 3) -> float:
+    """Newton steps from s (s) toward the root of g0 at or before it, kept in [0, s]."""
+    top = s
+    for _ in range(steps):
+        slope = rate(s)
+        if slope == 0.0 or not np.isfinite(slope):
+            return s
+        nxt = min(max(s - g0(s) / slope, 0.0), top)
+        if nxt == s:
+            return s
+        s = nxt
+    return s

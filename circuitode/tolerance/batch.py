@@ -26,7 +26,7 @@ from ..analysis.measure import figure_unit, measure, trusted_clocks
 from ..analysis.window_integrals import figure_from_integrals
 from .batch_windows import label_units, windowed_figure
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
-from .engine import BATCH_METHODS, refuse_diodes, simulate_chunk
+from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .timed_switches import timing_refusal
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
@@ -297,7 +297,6 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
     _check_counts(**({} if sampler == "corners" else {"samples": samples}), seed=seed, keep_waveforms=keep_waveforms)
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
-    refuse_diodes(circuit)
     if min_yield is not None and not 0.0 <= float(min_yield) <= 1.0:
         raise CircuitodeError(f"--min-yield must be a fraction between 0 and 1, got {min_yield!r}")
     if isinstance(tol_overrides, dict):

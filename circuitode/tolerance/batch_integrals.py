@@ -78,7 +78,7 @@ class ChunkIntegrals:
 
     def by_recipe(self, recipe) -> list:
         """Per recorded probe: (∫ y dt (N,), ∫ y² dt (N,)); a power probe (∫ p dt, NaN)."""
-        out, power = [], self.linear.shape[1]
+        out, power = [], int(np.sum(self.pairs[:, 0] == self.pairs[:, 1]))  # products after squares
         for r in recipe:
             if r[0] == "row":
                 out.append((self.linear[:, r[1]], self.products[:, r[1]]))

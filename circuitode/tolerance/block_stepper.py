@@ -178,7 +178,7 @@ class BlockStepper:
                     W[idx] = W_idx
                     Y_new = self.G_cur[idx] @ np.swapaxes(W_idx, 1, 2)
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
-                    g[idx] = watch.values(Y[idx], code[idx])
+                    g[idx] = watch.values(Y[idx], code[idx], idx)
                 settled[idx] = j
         self.count(lambda r: np.concatenate([w[r, None], W[r, :-1]], axis=1), col_code, h,
                    sums=None if S1 is None else (S1, S2))

@@ -29,8 +29,13 @@ configuration), so the Python work is per block, not per step; crossings are
 found from a whole block's outputs at once and located for all the samples
 that cross in it together.
 
-Samples whose values are unusable, or whose run goes non-finite, are marked
-failed with a message; the others carry on.
+Diodes (:mod:`.diodes`) are watched like threshold switches with hysteresis
+(on: voltage through the drop; off: current through zero) and settled per
+sample at each event, scheduled change and stretch start, with the single
+run's rule; a diode's bits follow the threshold switches' in the code.
+
+Samples whose values are unusable, or whose run goes non-finite, or whose
+diodes cannot be settled, are marked failed with a message; the others carry on.
 """
 from __future__ import annotations
 
@@ -48,14 +53,21 @@ from ..equations.statespace import StateSpaceCache, initial_state
 from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from ..transient.window_integrals import window_marks
+from ..transient.commutation import DIODE_BAND, DIODE_TIE, diode_probes
 from .batch_integrals import ChunkIntegrals, integral_pairs
 from .block_stepper import BlockStepper
+from .diodes import BatchDiodes, diode_rules
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, fire_at_start
 from .timed_switches import Clocks
 
-__all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes", "refuse_diodes",
+__all__ = ["BATCH_METHODS", "EVENT_TOL_FRACTION", "ChunkWaves", "output_grid", "linear_probes",
            "simulate_chunk"]
+
+#: Extra rows first set aside per diode and sample (two per event); more are made
+#: by doubling, which copies the record (a bridge: about 20 events per diode pair in
+#: 100 ms, so its 80-odd extra rows fit without one).
+EXTRA_ROWS_PER_DIODE = 32
 
 #: Stepping methods of the batched engine.
 BATCH_METHODS = ("exact", "rk4")
@@ -131,19 +143,6 @@ def linear_probes(probes) -> tuple[list, list]:
     return rows, recipe
 
 
-def refuse_diodes(circuit: Circuit) -> None:
-    """Batches do not follow diodes yet: each sample would need its own sequence of
-    diode combinations.  Refuse before any work, naming the diode and what to do."""
-    for s in circuit.switches:
-        if isinstance(s, Diode):
-            where = f"{s.where}: " if s.where is not None else ""
-            raise CircuitodeError(
-                f"{where}diode {s.name}: tolerance batches do not follow diodes yet (each sample "
-                "would switch them at its own instants, several at once, and the batch engine does "
-                "not yet settle such combinations); run single runs with "
-                "`circuitode run --set NAME=VALUE` for the corners you need")
-
-
 def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exact") -> ChunkWaves:
     """Run one chunk of samples through the circuit's transient window.
 
@@ -157,7 +156,6 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     """
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
-    refuse_diodes(circuit)
     N = _batch_size(values)
     t_grid = output_grid(circuit)
     switches = circuit.switches
@@ -165,15 +163,16 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
                     1e-12 * float(output_grid(circuit)[-1]))
     thr = [i for i, s in enumerate(switches) if isinstance(s.control, ThresholdRule)]
     rules = [switches[i].control for i in thr]
+    dio = [i for i, s in enumerate(switches) if isinstance(s, Diode)]
     rows, recipe = linear_probes(tuple(probes))
     all_rows = list(rows)
-    for r in rules:  # watched quantities, sharing a recorded row where they can
-        if r.probe not in all_rows:
-            all_rows.append(r.probe)
-    watched = [all_rows.index(r.probe) for r in rules]
-    # switches with per-sample instants: thresholds on the clock rows after the probes' rows
+    for p in [r.probe for r in rules] + diode_probes(circuit):  # watched quantities, sharing
+        if p not in all_rows:                                    # a recorded row where they can
+            all_rows.append(p)
+    watched_rows = [all_rows.index(r.probe) for r in rules]
+    # switches with per-sample instants: thresholds on the clock rows after every probe's row
     thr += clocks.switches
-    watched += [len(all_rows) + j for j in range(clocks.k)]
+    watched_rows += [len(all_rows) + j for j in range(clocks.k)]
     rules += clocks.rules
     p_all = len(all_rows) + clocks.k
     element_values = {k: v for k, v in values.items() if not k[1].startswith(("waveform.", "control."))}
@@ -184,16 +183,38 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     m = nominal_bank.m
     until = float(t_grid[-1])
     slack = 1e-12 * until
-    watch = Watch(rules, watched, EVENT_TOL_FRACTION * until,
-                  np.full((N, len(rules)), np.nan))
+    k_thr = len(rules)
+    watched = rules + diode_rules(circuit)  # a diode is watched as a switch with hysteresis
     ok = np.ones(N, dtype=bool)
+    watch = Watch(watched, watched_rows
+                  + [all_rows.index(VoltageAcross(switches[i].name)) for i in dio],
+                  EVENT_TOL_FRACTION * until, np.full((N, len(watched)), np.nan),
+                  back_rows=watched_rows
+                  + [all_rows.index(CurrentThrough(switches[i].name)) for i in dio],
+                  settled=np.arange(len(watched)) >= k_thr,
+                  margin=np.zeros((N, len(watched))) if dio else None, ok=ok)
     problems: dict[int, str] = {}
-    tally = ChunkIntegrals(N, p_all, integral_pairs(recipe, p_all)) \
+    # (squares of the recorded rows only: a watched diode's voltage and current, and a clock, need none)
+    tally = ChunkIntegrals(N, p_all, integral_pairs(recipe, len(rows))) \
         if method == "exact" else None
+    diodes = BatchDiodes(circuit, cache, None, k_thr, until, N)
 
-    def enter_at(idx, x, t):  # a threshold switch acted for samples idx at instants t
-        return _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, t, ok, problems,
-                            "a threshold switch acts", idx)
+    def settle(idx, w_rows, t, H, F) -> np.ndarray:
+        """Settle the diodes of samples idx at instants t (their inputs from the stretch's
+        generator H, F); returns the bool of samples whose diodes changed."""
+        if not diodes.active:
+            return np.zeros(np.size(idx), dtype=bool)
+        z = w_rows[:, n:]
+        u = z @ H.T if H.size else np.zeros((z.shape[0], 0))
+        udot = z @ (H @ F).T if H.size else u
+        changed = diodes.settle(idx, w_rows[:, :n], u, udot, t, code, ok, problems)
+        watch.margin[idx, k_thr:] = diodes.band[idx, None]
+        return changed
+
+    def enter_at(idx, w_rows, t):  # a threshold switch acted or a diode crossed, samples idx
+        settle(idx, w_rows, t, stretch.H, stretch.F)
+        return _enter_batch(circuit, cache, key_for(tuple(timed)), code, w_rows[:, :n], t, ok, problems,
+                            "a switch or diode acts", idx, atol=_tie(diodes))
     watch.enter = enter_at
 
     def note(ss) -> None:
@@ -204,8 +225,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             closed = list(timed)
             for j, i in enumerate(thr):
                 closed[i] = rules[j].closes if (code >> j) & 1 else not rules[j].closes
+            for j, i in enumerate(dio):  # a diode's bit: conducting
+                closed[i] = bool((code >> (k_thr + j)) & 1)
             return tuple(closed)
         return key
+    diodes.key = lambda c: key_for(tuple(timed))(c)
 
     # stretches shared by every sample (as the single run: source corners, scheduled
     # switch changes, the end)
@@ -219,7 +243,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     cumulative = {}
 
     timed = [bool(s.initially_closed) for s in switches]
-    code = np.zeros(N, dtype=np.int64)  # bit j: threshold switch j has acted
+    code = np.zeros(N, dtype=np.int64)  # bit j: threshold switch j has acted (then diodes: conducting)
+    for j, i in enumerate(dio):
+        if switches[i].initially_closed:
+            code |= 1 << (k_thr + j)
     ss0 = cache.get(key_for(tuple(timed))(0))
     note(ss0)
     mode = circuit.analysis.initial if circuit.analysis is not None else "given"
@@ -235,7 +262,9 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
 
     # each switching instant and source corner adds two rows (and stands for a grid
     # instant it falls on)
-    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size + marks.size, 2 * len(rules), p_all)
+    # (room for a few commutations of each diode: the record grows by doubling beyond it)
+    record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size + marks.size,
+                    2 * len(rules) + EXTRA_ROWS_PER_DIODE * len(dio), p_all)
     y_end_before = None
     queue = list(changes)
     for seg, (a, b) in enumerate(zip(bounds[:-1], bounds[1:])):
@@ -262,14 +291,29 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
             record.all(a, y_end_before)
             for i, st in due:
                 timed[i] = st
+            settle(np.arange(N), w, a, H, F)  # the diodes settle with the scheduled changes
             w[:, :n] = _enter_batch(circuit, cache, key_for(tuple(timed)), code, w[:, :n], a, ok, problems,
                                     " and ".join(f"{switches[i].name} {'closes' if st else 'opens'}"
-                                                 for i, st in due) + " on schedule")
+                                                 for i, st in due) + " on schedule", atol=_tie(diodes))
+        # as the single run at each segment start, the diodes settle (rows before and after
+        # for the samples whose diodes change)
+        moved = np.zeros(N, dtype=bool)
+        if diodes.active and not due:
+            code_before, w_before = code.copy(), w.copy()
+            moved = settle(np.arange(N), w, a, H, F)
+            if moved.any():
+                idx = np.flatnonzero(moved)
+                w[idx, :n] = _enter_batch(circuit, cache, key_for(tuple(timed)), code, w[idx, :n], a, ok,
+                                          problems, "the diodes settle", idx, atol=_tie(diodes))
         stretch = Stretch(method, cache, H, F, key_for(tuple(timed)), note, clock_rows)
         G_cur = stretch.G(code)
         y_now = matvec(G_cur, w)
         if due:
             record.all(a, y_now)
+        if moved.any():
+            idx = np.flatnonzero(moved)
+            record.some(idx, np.full(idx.size, a), matvec(stretch.G(code_before, idx), w_before[idx]))
+            record.some(idx, np.full(idx.size, a), y_now[idx])
         corner = not due and a > 0 and corners.size and np.min(np.abs(corners - a)) <= slack
         if corner:  # a source breakpoint: the rows just before and after, as the single run
             record.all(a, y_end_before)
@@ -299,7 +343,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for i in np.flatnonzero(bad & ok):
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
-    return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times,
+    return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times[:, :k_thr],
                       None if tally is None else tally.by_recipe(recipe),
                       None if tally is None else cumulative)
 
@@ -328,11 +372,13 @@ def _batch_size(values: dict) -> int:
     return sizes.pop()
 
 
-def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause, samples=None) -> np.ndarray:
+def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause, samples=None,
+                 atol=None) -> np.ndarray:
     """States x entering their configurations at ``time`` (s, scalar or one per row), each
     sample in the configuration of its code, put on the constraint; a sample whose state
     would need an impulse (see equations.entry) is marked failed with the single run's
-    words.  samples : the sample index of each row of x (all samples when None)."""
+    words.  samples : the sample index of each row of x (all samples when None).
+    atol : (N,) V or A per chunk sample, the diodes' tie band (see equations.entry), or None."""
     x = np.array(x, dtype=float)
     samples = np.arange(code.size) if samples is None else np.asarray(samples)
     times = np.broadcast_to(np.asarray(time, dtype=float), (samples.size,))
@@ -342,7 +388,8 @@ def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause, sample
         if ss.basis is None:
             continue
         rows = np.flatnonzero(sub == c)
-        projected, bad, messages = batch_entry(circuit, ss, x[rows], times[rows], cause)
+        projected, bad, messages = batch_entry(circuit, ss, x[rows], times[rows], cause,
+                                               0.0 if atol is None else atol[samples[rows]])
         x[rows] = projected
         for j, message in messages.items():
             i = int(samples[rows[j]])
@@ -350,6 +397,11 @@ def _enter_batch(circuit, cache, key, code, x, time, ok, problems, cause, sample
                 problems[i] = message
         ok[samples[rows[bad]]] = False
     return x
+
+
+def _tie(diodes: BatchDiodes):
+    """(N,) the band within which a diode's entry counts as on its constraint, or None."""
+    return diodes.band * (DIODE_TIE / DIODE_BAND) if diodes.active else None
 
 
 def _collect(ss, ok: np.ndarray, problems: dict) -> None:

@@ -34,9 +34,21 @@ class Watch:
     rows: list
     tol: float
     event_times: np.ndarray
-    #: called as enter(samples, states (K, n), instants (K,)) after samples switch: returns
-    #: the states put on their new configuration's constraint (failing the impossible ones)
+    #: called as enter(samples, states w = [x; z] (K, s), instants (K,)) after samples switch
+    #: (or a settled column crosses): returns the states x (K, n) put on their new
+    #: configuration's constraint (failing the impossible ones)
     enter: object = None
+    #: (k,) output row of each switch's back clause (a diode watches its current once on);
+    #: None: the same row as ``rows``
+    back_rows: list | None = None
+    #: (k,) bool, True for a column that is settled by ``enter`` rather than flipped (a
+    #: diode: :mod:`.diodes` finds the consistent combination); None: none
+    settled: np.ndarray | None = None
+    #: (N, k) signed margin past each level before a crossing counts (a diode's band);
+    #: None: none
+    margin: np.ndarray | None = None
+    #: (N,) bool, the samples still running (a failed one is switched no more); None: all
+    ok: np.ndarray | None = None
 
     def __post_init__(self):
         self.levels = np.array([r.level for r in self.rules])
@@ -45,6 +57,8 @@ class Watch:
         self.repeats = np.array([bool(r.repeats) for r in self.rules], dtype=bool)
         self.back_levels = np.array([r.move(r.closes).level for r in self.rules])
         self.back_signs = np.array([1.0 if r.move(r.closes).above else -1.0 for r in self.rules])
+        self.back_rows = list(self.rows) if self.back_rows is None else list(self.back_rows)
+        self.settled = np.zeros(self.k, dtype=bool) if self.settled is None else np.asarray(self.settled)
 
     @property
     def k(self) -> int:
@@ -54,15 +68,32 @@ class Watch:
         """(N, k) True where threshold switch j is in its moved state (bit j of code)."""
         return ((code[:, None] >> np.arange(self.k)[None, :]) & 1) == 1
 
-    def clause(self, code: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """(levels, signs), each (N, k): the condition each sample's switch j watches now."""
+    def clause(self, code: np.ndarray, idx: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """(levels, signs), each (N, k): the condition each sample's switch j watches now
+        (levels moved by the margin of samples idx; all samples when None)."""
         back = self.moved(code) & self.repeats[None, :]
-        return (np.where(back, self.back_levels, self.levels), np.where(back, self.back_signs, self.signs))
+        levels = np.where(back, self.back_levels, self.levels)
+        signs = np.where(back, self.back_signs, self.signs)
+        if self.margin is not None:
+            levels = levels + signs * (self.margin if idx is None else self.margin[idx])
+        return levels, signs
 
-    def values(self, y: np.ndarray, code: np.ndarray) -> np.ndarray:
+    def watched_rows(self, code: np.ndarray) -> np.ndarray:
+        """(N, k) output row each sample's switch j watches now."""
+        back = self.moved(code) & self.repeats[None, :]
+        return np.where(back, np.asarray(self.back_rows, dtype=np.int64)[None, :],
+                        np.asarray(self.rows, dtype=np.int64)[None, :])
+
+    def values(self, y: np.ndarray, code: np.ndarray, idx: np.ndarray | None = None) -> np.ndarray:
         """(N, k) signed distance to each watched condition from outputs y (N, p), the
-        samples in states ``code`` (N,): met where ≥ 0; (N, k, K) from y (N, p, K)."""
-        levels, signs = self.clause(code)
+        samples idx (all when None) in states ``code`` (N,): met where ≥ 0; (N, k, K)
+        from y (N, p, K)."""
+        levels, signs = self.clause(code, idx)
+        if self.back_rows != self.rows:
+            rows = self.watched_rows(code)
+            if y.ndim == 3:
+                return (np.take_along_axis(y, rows[:, :, None], axis=1) - levels[:, :, None]) * signs[:, :, None]
+            return (np.take_along_axis(y, rows, axis=1) - levels) * signs
         if y.ndim == 3:
             return (y[:, self.rows] - levels[:, :, None]) * signs[:, :, None]
         return (y[:, self.rows] - levels) * signs
@@ -79,7 +110,7 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
     if not watch.k:
         return
     while True:
-        met = watch.pending(code) & (watch.values(y_now, code) > 0.0) & ok[:, None]
+        met = watch.pending(code) & (watch.values(y_now, code) > 0.0) & ok[:, None] & ~watch.settled[None, :]
         idx = np.flatnonzero(met.any(axis=1))
         if idx.size == 0:
             return
@@ -89,7 +120,7 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
         watch.event_times[idx, which] = a
         if watch.enter is not None:
             n = w.shape[1] - stretch.F.shape[0]
-            w[idx, :n] = watch.enter(idx, w[idx, :n], np.full(idx.size, a))
+            w[idx, :n] = watch.enter(idx, w[idx], np.full(idx.size, a))
         G_cur[idx] = stretch.G(code, idx)
         y_now[idx] = matvec(G_cur[idx], w[idx])
         record.some(idx, np.full(idx.size, a), y_now[idx])
@@ -123,29 +154,33 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
     while rows.size:
         sub = idx[rows]
         M, G = stretch.M(code, sub), stretch.G(code, sub)
-        tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[rows], code[sub])
+        tau, which = locate(watch, stretch, M, G, w_start, start, h, remaining, g_now[rows], code[sub], sub)
         w_e = matvec(stretch.propagate(M, tau - start), w_start)
         if tally is not None:  # the piece before the switch, in the old configuration
             tally.fresh(sub, M, G, w_start, tau - start)
         y_before = matvec(G, w_e)
         t_event, at = t_prev[rows] + tau, pos[rows]
-        code[sub] ^= (1 << which)
+        flip = ~watch.settled[which]  # a diode is settled by watch.enter, not flipped
+        code[sub[flip]] ^= (1 << which[flip])
         watch.event_times[sub, which] = t_event
         if watch.enter is not None:
             n = w_e.shape[1] - stretch.F.shape[0]
-            w_e[:, :n] = watch.enter(sub, w_e[:, :n], t_event)
+            w_e[:, :n] = watch.enter(sub, w_e, t_event)
         G_new = stretch.G(code, sub)
         y_after = matvec(G_new, w_e)
         record.some(sub, t_event, y_before, at)
         record.some(sub, t_event, y_after, at)
         while True:  # another threshold already strictly met at this instant acts at once
-            imm = watch.pending(code[sub]) & (watch.values(y_after, code[sub]) > 0.0)
+            imm = watch.pending(code[sub]) & (watch.values(y_after, code[sub], sub) > 0.0) & ~watch.settled[None, :]
             r = np.flatnonzero(imm.any(axis=1))
             if r.size == 0:
                 break
             wh = np.argmax(imm[r], axis=1)
             code[sub[r]] ^= (1 << wh)
             watch.event_times[sub[r], wh] = t_event[r]
+            if watch.enter is not None:  # (and the diodes settle again)
+                n = w_e.shape[1] - stretch.F.shape[0]
+                w_e[r, :n] = watch.enter(sub[r], w_e[r], t_event[r])
             G_new[r] = stretch.G(code, sub[r])
             record.some(sub[r], t_event[r], y_after[r], at[r])
             y_after[r] = matvec(G_new[r], w_e[r])
@@ -156,9 +191,11 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
         if out_y is None:
             out_y = np.empty((K, y_end.shape[1]))
         out_w[rows], out_y[rows] = w_end, y_end
-        g_after, g_e = watch.values(y_after, code[sub]), watch.values(y_end, code[sub])
+        g_after, g_e = watch.values(y_after, code[sub], sub), watch.values(y_end, code[sub], sub)
         g_now[rows] = g_e
         again = watch.pending(code[sub]) & (g_after < 0.0) & (g_e >= 0.0)
+        if watch.ok is not None:
+            again &= watch.ok[sub][:, None]
         more = again.any(axis=1) & (tau < h)
         if tally is not None:  # the rest of the step, for the samples that switch no more
             tally.fresh(sub[~more], M_new[~more], G_new[~more], w_e[~more], h - tau[~more])
@@ -166,22 +203,24 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
     return out_w, out_y, g_now
 
 
-def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_end, code):
+def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_end, code, idx=None):
     """Earliest crossing offset τ in (start, h] per row (s), and which switch crossed.
 
     Bracketed Newton iterations on g(τ) = c·Φ(τ − start) w_start − level from the
     secant guess through g(start) and g_end (signed values at the step's end), falling
-    back to bisection whenever a Newton step leaves the bracket.
+    back to bisection whenever a Newton step leaves the bracket.  idx : the samples of
+    the rows (for their margins).
     """
     K, k = crossed.shape
-    levels, signs = watch.clause(code)  # (K, k): the condition each row watches
+    levels, signs = watch.clause(code, idx)  # (K, k): the condition each row watches
+    watched = watch.watched_rows(code)  # (K, k)
     best_tau = np.full(K, np.inf)
     best_j = np.zeros(K, dtype=np.int64)
     for j in range(k):
         rows = np.flatnonzero(crossed[:, j])
         if rows.size == 0:
             continue
-        c = G[rows][:, watch.rows[j], :]
+        c = G[rows, watched[rows, j], :]
         Mr, wr, base = M[rows], w_start[rows], start[rows]
         level = levels[rows, j]
         lo, hi = base.copy(), np.full(rows.size, h)
@@ -210,7 +249,28 @@ def locate(watch: Watch, stretch: Stretch, M, G, w_start, start, h, crossed, g_e
             tau[a] = np.where(done & (g == 0), tau[a], nxt)
             active[a[done]] = False
         tau = np.clip(tau, base, h)
+        if watch.margin is not None and idx is not None:  # detected past the margin, located at
+            tau = _back_to_level(watch, stretch, Mr, wr, c, base, tau,  # the level itself
+                                 level - signs[rows, j] * watch.margin[idx[rows], j])
         better = tau < best_tau[rows]
         best_tau[rows[better]] = tau[better]
         best_j[rows[better]] = j
     return best_tau, best_j
+
+
+def _back_to_level(watch: Watch, stretch: Stretch, M, w_start, c, base, tau, raw, steps: int = 3):
+    """Newton steps from τ toward the crossing of the unshifted level ``raw`` (K,) at or
+    before it, kept in [base, τ] (a diode's event: detected a band past its limit, located
+    at the limit, as the single run's exact method)."""
+    top = tau.copy()
+    for _ in range(steps):
+        ws = matvec(stretch.propagate(M, tau - base), w_start)
+        g = np.einsum("ni,ni->n", c, ws) - raw
+        dg = np.einsum("ni,ni->n", c, matvec(M, ws))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            nxt = tau - g / dg
+        nxt = np.where(np.isfinite(nxt), np.clip(nxt, base, top), tau)
+        if np.all(nxt == tau):
+            break
+        tau = nxt
+    return tau

@@ -16,7 +16,9 @@ which the state may enter (no inductor current cut, see
 ``DIODE_TIE × scale`` of its limit (scale = the largest state or input
 magnitude, at least 1) is a tie, decided by its slope: a conducting diode whose
 current is 0 stays on unless it falls, a blocking one whose voltage sits at the
-drop stays off unless it rises.  A conducting diode whose current is 0 and does
+drop stays off unless it rises.  (An event is detected past the band but located at
+the limit itself — the current's zero, the voltage's drop — by the exact method.)
+A conducting diode whose current is 0 and does
 not change is *idle*: in series with a blocking one its current is structurally
 0 (the first diode of a bridge to turn on, which anchors the floating DC side).  Events fire ``DIODE_BAND × scale`` past the limit, which keeps rounding
 noise on a current that is structurally zero (a diode in series with a
@@ -121,9 +123,10 @@ class Commutation:
             d = self.circuit.switches[k]
             v_row, i_row = self._rows(ss, d.name)
             if closed[k]:
-                out.append((k, LinearEvent(ss.C[i_row], ss.D[i_row], -band, rising=False)))
+                out.append((k, LinearEvent(ss.C[i_row], ss.D[i_row], -band, rising=False, located_at=0.0)))
             else:
-                out.append((k, LinearEvent(ss.C[v_row], ss.D[v_row], d.drop + band, rising=True)))
+                out.append((k, LinearEvent(ss.C[v_row], ss.D[v_row], d.drop + band, rising=True,
+                                           located_at=float(d.drop))))
         return out
 
     # consistency ----------------------------------------------------------
