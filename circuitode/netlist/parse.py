@@ -16,13 +16,12 @@ exactly as lark's path reports it.
 """
 from __future__ import annotations
 
-import functools
-import gc
 import heapq
 
 from lark.exceptions import LarkError, UnexpectedInput, VisitError
 
 from ..errors import NetlistError, Where
+from ..gc_pause import collector_paused
 from .fast_lines import claim_lines
 from .limits import check_text_shape
 from .lark_parser import CURRENT_TEXT, build_parser, cached_parser
@@ -33,28 +32,7 @@ from .syntax import Netlist
 __all__ = ["STATEMENT_WORDS", "parse_text", "parse_with_lark", "build_parser"]
 
 
-def _without_gc(parse):
-    """Run ``parse`` with the cyclic garbage collector paused.
-
-    A parse allocates a few objects per token, none of them in a cycle; the
-    collector's passes over the growing tree cost more than the parse itself on
-    large files (60,000 lines: 2–3× the time).  Reference counting still frees
-    everything; the collector is restarted afterwards if it was running.
-    """
-    @functools.wraps(parse)
-    def paused(*args, **kwargs):
-        running = gc.isenabled()
-        gc.disable()
-        try:
-            return parse(*args, **kwargs)
-        finally:
-            if running:
-                gc.enable()
-
-    return paused
-
-
-@_without_gc
+@collector_paused
 def parse_text(text: str, file: str = "<text>") -> Netlist:
     """Parse netlist text into a :class:`Netlist` syntax tree.
 
@@ -82,7 +60,7 @@ def parse_text(text: str, file: str = "<text>") -> Netlist:
     return Netlist(file, tuple(s for _, s in merged), tuple(lines))
 
 
-@_without_gc
+@collector_paused
 def parse_with_lark(text: str, file: str = "<text>", lines: list[str] | None = None) -> Netlist:
     """Parse with lark alone (no fast path): the reference :func:`parse_text` must equal."""
     if lines is None:
