@@ -79,6 +79,14 @@ def test_generated_ladders_parse_the_same_and_take_the_fast_path():
     assert _claimed(text) == 1 + 3 * 50
 
 
+def test_names_spelled_like_keywords_parse_the_same():
+    # the contextual lexer reads a keyword where only a name can stand as a name
+    text = ("ground initial\nresistor initial param -- ground initial\nparam initial = normal ± 5 % uniform\n"
+            "capacitor resistor initial -- in 1 uF initial initial\ninductor L1 at -- to 1 H initial 0 A\n")
+    assert assert_same(text)[0] == "ok"
+    assert _claimed(text) == 5
+
+
 def test_record_continuation_is_left_to_lark():
     # lark reads the line after a trailing comma as the list's next probe: a plain line there is a mistake
     for text in ("ground g\nrecord voltage at a,\nresistor R1 a -- g 1 Ω\nvoltage at b\n",
