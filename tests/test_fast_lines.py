@@ -79,6 +79,29 @@ def test_generated_ladders_parse_the_same_and_take_the_fast_path():
     assert _claimed(text) == 1 + 3 * 50
 
 
+#: The grammar rules the fast path reads lines of, as it was written for them.  When one of
+#: these lines of grammar.lark changes, check circuitode/netlist/fast_lines.py against it and
+#: update this copy; the equality tests below only see the shapes they are given.
+FAST_PATH_RULES = """\
+param_stmt: "param" NAME "=" value
+ground_stmt: "ground" NAME
+element_stmt: ELEMENT_KIND NAME NAME "--" NAME value initial_value?
+initial_value: "initial" value
+value: expr tolerance?
+tolerance: PLUSMINUS NUMBER UNIT? DISTRIBUTION?
+quantity: NUMBER UNIT?
+_NL: /(?:\\r?\\n[ \\t]*(?:#[^\\n]*)?)++/
+COMMENT: /#[^\\n]*/
+WHITESPACE: /[ \\t\\f]+/"""
+
+
+def test_the_fast_path_was_written_for_these_rules():
+    grammar = (ROOT / "circuitode" / "netlist" / "grammar.lark").read_text(encoding="utf-8").splitlines()
+    heads = [rule.split(":")[0] + ":" for rule in FAST_PATH_RULES.splitlines()]
+    found = "\n".join(line for line in grammar if any(line.startswith(h) for h in heads))
+    assert found == FAST_PATH_RULES
+
+
 def test_names_spelled_like_keywords_parse_the_same():
     # the contextual lexer reads a keyword where only a name can stand as a name
     text = ("ground initial\nresistor initial param -- ground initial\nparam initial = normal ± 5 % uniform\n"

@@ -24,7 +24,8 @@ left to lark: :func:`.parse.parse_text` blanks the claimed lines, parses the res
 with lark and merges the two by line.  A line of nothing but ignored characters
 that is no blank line to the grammar (a form feed) means a mistake that depends
 on its neighbours, so then lark reads the whole text.  ``tests/test_fast_lines.py`` checks both
-paths equal on the examples, generated ladders and the fuzz corpus.
+paths equal on the examples, generated ladders and the fuzz corpus, and fails when
+the grammar rules of these shapes change (re-check this module then).
 """
 from __future__ import annotations
 
