@@ -12,7 +12,9 @@ Runs, interleaved and each in a fresh process,
   and of matplotlib's Figure (the plot),
 
 ``--rounds`` times (default 9) and prints the median wall-clock time of each
-and the two ratios to the baseline.  Interleaving spreads the load of a
+and the two ratios to the baseline.  ``--before DIR`` adds ``check`` and
+``run`` of another checkout of circuitode (e.g. ``git worktree add DIR REV``),
+interleaved with the rest, to compare two revisions side by side.  Interleaving spreads the load of a
 shared machine evenly over the three; the medians drop the outliers.
 
     python3 bench/startup.py [--rounds 9]
@@ -31,9 +33,9 @@ ROOT = Path(__file__).resolve().parents[1]
 NETLIST = ROOT / "netlists" / "precharge.cnet"
 
 
-def _seconds(command: list[str]) -> float:
+def _seconds(command: list[str], cwd: Path = ROOT) -> float:
     start = time.perf_counter()
-    done = subprocess.run(command, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    done = subprocess.run(command, cwd=cwd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
     elapsed = time.perf_counter() - start
     if done.returncode not in (0, 1):
         raise SystemExit(f"{' '.join(command)} failed ({done.returncode}):\n{done.stderr}")
@@ -43,6 +45,7 @@ def _seconds(command: list[str]) -> float:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--rounds", type=int, default=9)
+    parser.add_argument("--before", type=Path, help="another checkout whose check and run are timed alongside")
     args = parser.parse_args()
     py = sys.executable
     with tempfile.TemporaryDirectory() as out:
@@ -54,12 +57,17 @@ def main() -> None:
             "import numpy, scipy.linalg, networkx": [py, "-c", "import numpy, scipy.linalg, networkx"],
             "import matplotlib.figure": [py, "-c", "import numpy; from matplotlib.figure import Figure"],
         }
-        for command in commands.values():  # warm the file cache and lark's grammar cache once
-            _seconds(command)
+        folders = {name: ROOT for name in commands}
+        if args.before is not None:
+            for name in ("circuitode check", "circuitode run"):
+                commands[f"{name} (before)"] = commands[name]
+                folders[f"{name} (before)"] = args.before.resolve()
+        for name, command in commands.items():  # warm the file cache and lark's grammar cache once
+            _seconds(command, folders[name])
         times: dict[str, list[float]] = {name: [] for name in commands}
         for _ in range(args.rounds):
             for name, command in commands.items():
-                times[name].append(_seconds(command))
+                times[name].append(_seconds(command, folders[name]))
     median = {name: statistics.median(values) for name, values in times.items()}
     base = median["bare import numpy, scipy"]
     print(f"{args.rounds} interleaved rounds, median wall-clock per command:")

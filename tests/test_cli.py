@@ -305,3 +305,16 @@ def test_interrupt_message_says_how_to_resume():
     argv = ["tolerance", "netlists/precharge.cnet", "--samples", "10000"]
     words = _interrupted_words(build_parser().parse_args(argv), argv)
     assert "circuitode tolerance netlists/precharge.cnet --samples 10000" in words and "resume" in words
+
+
+def test_check_loads_no_scipy_and_no_plotting(tmp_path):
+    # Start-up time counts (DEVELOPERS.md; bench/startup.py measures it): check needs numpy,
+    # lark and networkx, but no scipy submodule and no matplotlib.  A fresh process, so
+    # that modules other tests imported do not count.
+    script = ("import sys\nfrom circuitode.cli import main\n"
+              f"code = main(['check', {str(ROOT / 'netlists' / 'precharge.cnet')!r}])\n"
+              "print(sorted(m for m in sys.modules if m.startswith(('scipy', 'matplotlib'))))\n")
+    done = subprocess.run([sys.executable, "-c", script], cwd=ROOT, capture_output=True, text=True,
+                          env={"PYTHONPATH": str(ROOT), "PATH": "/usr/bin:/bin", "HOME": str(tmp_path)})
+    assert done.returncode == 0, done.stderr
+    assert done.stdout.strip().splitlines()[-1] == "[]"

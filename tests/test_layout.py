@@ -17,7 +17,7 @@ PACKAGE = Path(__file__).resolve().parents[1] / "circuitode"
 #: Stage rank in the data flow; a module may import only ranks ≤ its own.
 #: Modules of one stage may import each other.
 RANKS = {
-    "errors": 0, "quantities": 0, "notebook": 0,
+    "errors": 0, "quantities": 0, "notebook": 0, "gc_pause": 0,
     "model": 1,
     "netlist": 2,
     "checks": 3,

@@ -16,7 +16,6 @@ import math
 from typing import Any
 
 import numpy as np
-from scipy.optimize import brentq
 
 from .figures import rise_time, settling_time
 from .window_integrals import integral_figure
@@ -62,8 +61,10 @@ def _crossing(between, label: str, t: np.ndarray, i: int, level_of) -> float | N
         return float(t[i])
     if a * b > 0:
         return None
-    return float(t[i]) + brentq(lambda s: level_of(f(s)), 0.0, h, xtol=1e-15 * max(float(t[-1]), h),
-                                rtol=4 * np.finfo(float).eps)
+    from ..solvers.roots import brent_root  # the solvers package loads scipy.linalg; check needs neither
+
+    return float(t[i]) + brent_root(lambda s: level_of(f(s)), 0.0, h, xtol=1e-15 * max(float(t[-1]), h),
+                                    rtol=4 * np.finfo(float).eps)
 
 
 def _crossing_figure(figure: str, waveforms: Any, label: str) -> float | None:

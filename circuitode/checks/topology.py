@@ -28,6 +28,7 @@ from ..errors import (
     TopologyError,
     UnconnectedNodeError,
 )
+from ..gc_pause import collector_paused
 from ..model import Circuit
 from ..model.configurations import enumerate_configurations
 from .element_checks import check_couplings, check_duplicate_names, check_values
@@ -52,6 +53,7 @@ _ERROR_CLASSES: dict[str, type[TopologyError]] = {
 }
 
 
+@collector_paused
 def diagnose(circuit: Circuit, until: float | None = None) -> list[Diagnostic]:
     """Run every check and return every finding, errors and warnings.
 

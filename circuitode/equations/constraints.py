@@ -54,7 +54,6 @@ from __future__ import annotations
 from typing import Callable
 
 import numpy as np
-import scipy.linalg
 
 from ..errors import SingularSystemError
 
@@ -76,6 +75,8 @@ def free_basis(P: np.ndarray, k: int) -> tuple[np.ndarray, np.ndarray]:
     n = P.shape[1]
     if k == 0:
         return np.eye(n), np.arange(n)
+    import scipy.linalg  # loads slowly; only circuits with constraints need it (check often has none)
+
     P = np.linalg.svd(P)[2][:k]  # an orthonormal basis of the rows
     _, _, pivots = scipy.linalg.qr(P, pivoting=True, mode="economic")
     dependent = np.sort(pivots[:k])

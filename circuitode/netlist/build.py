@@ -16,6 +16,7 @@ from typing import Any, Mapping
 from .. import model as cm
 from ..errors import NetlistError, Where
 from ..model.run_settings import check_windows
+from ..gc_pause import collector_paused
 from . import expressions as ex
 from .build_elements import ElementStatements
 from .expressions import did_you_mean
@@ -233,6 +234,7 @@ class _Builder(ElementStatements):
         )
 
 
+@collector_paused
 def build_circuit(statements: list, overrides: Mapping[str, Any] | None = None,
                   source_file: str | None = None, varied=()) -> cm.Circuit:
     """Build a Circuit from statements whose includes are already expanded.

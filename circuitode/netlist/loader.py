@@ -20,6 +20,7 @@ from typing import Any, Mapping
 
 from .. import model as cm
 from ..errors import NetlistError, Where
+from ..gc_pause import collector_paused
 from .build import build_circuit
 from .limits import ReadPolicy, current_policy, raise_hint
 from .parse import parse_text
@@ -181,6 +182,7 @@ def expand_includes(netlist: Netlist, base_dir: Path, chain: tuple[str, ...] = (
     return _Expansion(policy or current_policy(), Path(base_dir).resolve()).expand(netlist, base_dir, chain)
 
 
+@collector_paused
 def loads(text: str, filename: str = "<text>", overrides: Mapping[str, Any] | None = None,
           varied=()) -> cm.Circuit:
     """Parse and build netlist text. Includes are resolved relative to ``filename``'s folder

@@ -206,14 +206,6 @@ def _spread_words(circuit: Circuit, names: Iterable[str]) -> str:
     return "; ".join(words)
 
 
-def _element_spreads(circuit: Circuit, element_name: str) -> str:
-    names: set[str] = set()
-    for (owner, _field), recipe in circuit.recipes.items():
-        if owner == element_name:
-            names |= set(recipe.names)
-    return _spread_words(circuit, names)
-
-
 def configuration_lines(configurations: Sequence[Any], indent: str = "  ") -> list[str]:
     """Lines for each configuration's own states (ConfigurationStates)."""
     out = []
@@ -239,11 +231,14 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
     out[-1:] = _wrap(out[-1], indent="", width=WIDTH)
     out.append("")
     out.append(f"elements ({len(circuit.elements) + len(circuit.couplings)}):")
+    recipe_names: dict[str, set[str]] = {}  # element → the parameters its recipes read (one pass)
+    for (owner, _field), recipe in circuit.recipes.items():
+        recipe_names.setdefault(owner, set()).update(recipe.names)
     for e in circuit.elements:
         kind = _ELEMENT_WORDS.get(type(e), type(e).__name__)
         head = f"  {kind:<15}{_fit(e.name, 12):<13}{_fit(e.first, 10):>10} -- {_fit(e.second, 10):<10} "
         body = _value_words(e)
-        spread = _element_spreads(circuit, e.name)
+        spread = _spread_words(circuit, recipe_names.get(e.name, ()))
         line = head + body
         if len(line) > WIDTH:
             out.append(head.rstrip())

@@ -26,7 +26,7 @@ from typing import Sequence
 
 import numpy as np
 from scipy.linalg import expm
-from scipy.optimize import brentq
+from ..solvers.roots import brent_root
 
 from ..solvers.base import generator_matrices
 from ..solvers.exact import augmented_matrix
@@ -183,7 +183,7 @@ def refine_extrema(t: np.ndarray, states: np.ndarray, configs: Sequence,
                     h = float(gaps[i])
                     if not (sign * slope_at(0.0) > 0 > sign * slope_at(h)):
                         continue
-                    s = brentq(slope_at, 0.0, h, xtol=xtol, rtol=4 * np.finfo(float).eps)
+                    s = brent_root(slope_at, 0.0, h, xtol=xtol, rtol=4 * np.finfo(float).eps)
                     found = value_at(s)
                     if sign * found > sign * value:
                         value, when = found, float(t[i]) + s
