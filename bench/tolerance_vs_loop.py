@@ -33,7 +33,8 @@ from circuitode.netlist import loads  # noqa: E402
 from circuitode.model import SourceBank  # noqa: E402
 from circuitode.equations.statespace import assemble  # noqa: E402
 from circuitode.tolerance import run_batch  # noqa: E402
-from circuitode.tolerance.batch import _element_values, batch_figure_keys  # noqa: E402
+from circuitode.tolerance.batch import batch_figure_keys  # noqa: E402
+from circuitode.tolerance.sample_values import element_values  # noqa: E402
 from circuitode.tolerance.engine import output_grid  # noqa: E402
 from circuitode.tolerance.kernel import kernel_name  # noqa: E402
 
@@ -120,7 +121,7 @@ def loop_figures(circuit, table, keys, probes, count, kind="exact"):
     returns figures, seconds."""
     solve = LOOPS[kind]
     t_grid = output_grid(circuit)
-    values = _element_values(circuit, table.names, table.values[:count])
+    values = element_values(circuit, table.names, table.values[:count])
     bank = SourceBank.of(circuit)
     before = assemble(circuit, (False,), probes, values)
     after = assemble(circuit, (True,), probes, values)

@@ -59,7 +59,7 @@ def fit_job(source: Any, *, measured, channel, quantity: str, free: Sequence[str
     from ..measured.compare import compare_waveforms
     from ..measured.fit import fit_parameters
     from ..netlist.probe_words import probe_from_words
-    from ..tolerance.batch import _check_supported, _element_values
+    from ..tolerance.sample_values import check_supported, element_values
     from ..tolerance.engine import simulate_chunk
 
     circuit = load_any(source, overrides)
@@ -68,12 +68,12 @@ def fit_job(source: Any, *, measured, channel, quantity: str, free: Sequence[str
     if not names:
         raise CircuitodeError("--free needs at least one parameter name, e.g. --free L_cab,R_damp")
     nominal, lower, upper = _bounds(circuit, names)
-    _check_supported(circuit, names)
+    check_supported(circuit, names)
     capture = read_capture(measured)
     name = capture.channel(channel)
 
     def run(thetas: np.ndarray):
-        waves = simulate_chunk(circuit, _element_values(circuit, names, np.atleast_2d(thetas)), [probe],
+        waves = simulate_chunk(circuit, element_values(circuit, names, np.atleast_2d(thetas)), [probe],
                                method=method)
         if not np.all(waves.ok):
             raise CircuitodeError("; ".join(waves.problems.values()))

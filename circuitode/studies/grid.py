@@ -31,7 +31,8 @@ from ..errors import CircuitodeError, NetlistError
 from ..model import Circuit
 from ..netlist.parts import expose_parts, resolve_part
 from ..quantities import parse_quantity
-from ..tolerance.batch import _check_supported, batch_figure_keys, label_units, run_chunk
+from ..tolerance.batch import batch_figure_keys, label_units, run_chunk
+from ..tolerance.sample_values import check_supported
 from ..tolerance.engine import BATCH_METHODS, output_grid
 
 __all__ = ["Axis", "PointResults", "parse_axis", "axis_from", "study_circuit", "evaluate_points",
@@ -162,7 +163,7 @@ def study_circuit(source: Any, names: Sequence[str], overrides: Mapping[str, Any
         raise CircuitodeError(f"each name may be varied once; got {', '.join(names)}")
     for name in names:
         try:
-            _check_supported(circuit, [name])
+            check_supported(circuit, [name])
         except CircuitodeError as exc:  # reworded: the batch's message speaks of tolerances
             reached = sorted(f"the {_field_words(field)} of {element}"
                              for (element, field), recipe in circuit.recipes.items() if name in recipe.names)

@@ -30,7 +30,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from ..errors import CircuitodeError
-from ..tolerance.batch import _check_supported
+from ..tolerance.sample_values import check_supported
 from ..tolerance.sampling import draw_samples, spreads_with_overrides
 from ..tolerance.statistics import wilson_interval
 from .grid import evaluate_points
@@ -69,7 +69,7 @@ class YieldSetting:
             base = np.column_stack([base, np.full(table.count, math.nan)])
             column = len(names) - 1
             factor = np.ones(table.count)
-        _check_supported(circuit, names)
+        check_supported(circuit, names)
         self.names, self.base, self.part_factor, self.column = names, base, factor, column
         self.table = table
         self.count = table.count

@@ -11,13 +11,13 @@ import io
 import json
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Sequence
+from typing import Any
 
 import numpy as np
 
-from ..model import Circuit, Coupling, PowerIn
+from ..model import Circuit, PowerIn
 from ..model.run_settings import check_windows
-from ..errors import CircuitodeError, NetlistError, environment_fault
+from ..errors import CircuitodeError, environment_fault
 from ..checks.bounds import check_batch_bounds, check_run_bounds
 from ..netlist.parts import expose_parts
 from ..output.atomic import check_out_folder, write_atomic
@@ -28,7 +28,7 @@ from .batch_windows import label_units, windowed_figure
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
-from .timed_switches import timing_refusal
+from .sample_values import check_supported, element_values
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .lock import FolderLock
@@ -121,64 +121,6 @@ def batch_figure_keys(circuit: Circuit) -> tuple[list, list]:
     return probes, keys
 
 
-def _element_values(circuit: Circuit, names: Sequence[str], block: np.ndarray) -> dict:
-    env: dict[str, Any] = {k: float(v) for k, v in circuit.parameters.items()}
-    env.update({n: block[:, j] for j, n in enumerate(names)})
-    size = block.shape[0]
-    out = {}
-    for (element, field_), recipe in circuit.recipes.items():
-        if not set(getattr(recipe, "names", ())) & set(names):
-            continue
-        out[(element, field_)] = np.broadcast_to(np.asarray(recipe.evaluate(env), dtype=float), (size,)).copy()
-    return out
-
-
-def _check_supported(circuit: Circuit, names: Sequence[str]) -> None:
-    """Source fields may vary per sample only where the waveform is linear in them
-    (its levels); of the timing fields only the instant of a switch that moves once
-    (or its closing angle) may vary, as a per-sample event (see timed_switches)."""
-    from ..equations.mna import VARIABLE_FIELDS
-    from ..model.source_batch import LEVEL_FIELDS
-
-    for (element, field_), recipe in circuit.recipes.items():
-        varied = sorted(set(getattr(recipe, "names", ())) & set(names))
-        if not varied:
-            continue
-        if "." not in field_:
-            owner = circuit.by_name.get(element)
-            allowed = ("k",) if isinstance(owner, Coupling) else VARIABLE_FIELDS.get(type(owner), ())
-            if field_ not in allowed:
-                spread = circuit.spreads.get(varied[0])
-                raise NetlistError(
-                    f"the tolerance on {varied[0]} reaches the {field_.replace('_', ' ')} of {element}, "
-                    "which a batch keeps common to every sample",
-                    getattr(spread, "where", None),
-                    f"remove the tolerance from {varied[0]}, or give {element} its "
-                    f"{field_.replace('_', ' ')} as a fixed value",
-                )
-            continue
-        if field_.startswith("control."):  # a switch's instant may vary (a per-sample event)
-            reason = timing_refusal(circuit, element, field_)
-            if reason is not None:
-                spread = circuit.spreads.get(varied[0])
-                raise NetlistError(f"the tolerance on {varied[0]}: {reason}", getattr(spread, "where", None),
-                                   f"remove the tolerance from {varied[0]}, or fix the value")
-            continue
-        source = circuit.by_name.get(element)
-        level = field_.split(".", 1)[1]
-        kind = type(getattr(source, "waveform", None))
-        allowed = LEVEL_FIELDS.get(kind, ())
-        if not field_.startswith("waveform.") or level not in allowed:
-            from ..netlist.vocabulary import written_field
-
-            words = ", ".join(written_field(kind, a) for a in allowed) or "none for this waveform"
-            raise CircuitodeError(
-                f"the tolerance on {written_field(kind, level)} of source {element} is not supported in batches: "
-                f"switching instants and other timing stay common to every sample; only a "
-                f"source's levels ({words}) may vary — remove that tolerance or fix the value"
-            )
-
-
 def _override_names(overrides) -> list[str]:
     """The names ``--tol`` overrides refer to (parameters or parts such as ``K_main.on``)."""
     if isinstance(overrides, dict):
@@ -198,7 +140,7 @@ def run_chunk(task: dict) -> dict:
     messages = np.full(size, "", dtype=object)
     ok = np.zeros(size, dtype=bool)
     try:
-        values = _element_values(circuit, names, block)
+        values = element_values(circuit, names, block)
         if not values:
             raise CircuitodeError("no element value depends on the sampled parameters")
         waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
@@ -310,7 +252,7 @@ def run_batch(circuit_or_path, *, samples: int, sampler: str = "lhs", seed: int 
                        len(spreads), len(batch_figure_keys(circuit)[1]), out_dir, int(keep_waveforms),
                        _WAVEFORM_POINTS)
     table = draw_samples(spreads, int(samples), sampler, int(seed))
-    _check_supported(circuit, table.names)
+    check_supported(circuit, table.names)
     probes, keys = batch_figure_keys(circuit)
     if not keys:
         raise CircuitodeError("nothing to measure: add a 'record' or 'require' statement to the netlist")
