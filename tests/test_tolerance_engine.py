@@ -1,7 +1,8 @@
 """The batched engine against the single-run engine, sample by sample.
 
 Reference: circuitode.transient.simulate(method="exact") run on the same
-parameter values, one sample at a time, with figures from circuitode.analysis.measure.
+parameter values, one sample at a time, with figures from circuitode.analysis.measure
+(integrals, peaks and minima: what the single run carries beyond its rows).
 The batch must agree within 1e-9 relative (issue 5).  Scale-free figures of a
 flat or vanishing quantity get an absolute floor of 1e-9 of the signal's own
 scale, since their relative error is rounding noise over a near-zero value.
@@ -12,6 +13,7 @@ import pytest
 from circuitode.errors import CircuitodeError
 from circuitode.analysis.measure import measure
 from circuitode.analysis.window_integrals import integral_figure
+from circuitode.analysis.between_rows import EXTREMUM_FIGURES, carried_figure
 from circuitode.netlist import loads
 from circuitode.tolerance.batch import batch_figure_keys, run_chunk
 from circuitode.tolerance.engine import simulate_chunk
@@ -117,8 +119,11 @@ def _batch_and_reference(text, n=50, seed=11):
         wf = simulate(loads(text, overrides=dict(zip(table.names, table.values[i]))), method="exact")
         for j, (fig, label) in enumerate(keys):
             y = wf.signals[label]
-            # integral figures: the single run's own exact integrals (not the rows' trapezoid)
+            # integral figures: the single run's own exact integrals (not the rows' trapezoid);
+            # peaks, their instants and minima: located between rows (as the batch does)
             carried = integral_figure(fig, wf, label)
+            if carried is None and fig in EXTREMUM_FIGURES:
+                carried = carried_figure(fig, wf, label)
             ref[i, j] = carried if carried is not None else measure(fig, wf.t, y, signal_unit=wf.units[label])
             if fig == "time_of_peak":
                 peak_time_value[i, j] = (np.interp(res["figures"][i, j], wf.t, y), np.max(y), np.ptp(y))

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .batch_extrema import ChunkExtrema
 from .batch_integrals import ChunkIntegrals
 from .stepping import Record, Stretch, matvec
 from .thresholds import Watch, handle_crossings
@@ -37,9 +38,9 @@ class BlockStepper:
     """
 
     def __init__(self, stretch: Stretch, watch: Watch, code, ok, G_cur, record: Record,
-                 tally: ChunkIntegrals | None = None):
+                 tally: ChunkIntegrals | None = None, extrema: ChunkExtrema | None = None):
         self.stretch, self.watch, self.code, self.ok = stretch, watch, code, ok
-        self.G_cur, self.record, self.tally = G_cur, record, tally
+        self.G_cur, self.record, self.tally, self.extrema = G_cur, record, tally, extrema
         self.moments: dict = {}  # (configuration code, step length) → integral operators
         self.phi: dict = {}  # step length → (N, s, s), each sample's configuration
         self.powers: dict = {}  # (step length, K) → (N, K, s, s), each sample's configuration
@@ -114,6 +115,8 @@ class BlockStepper:
                 self.refresh(idx)
                 w_new[idx], y[idx], g[idx] = w_e, y_e, g_e
         self.count(w[:, None], col_code, h)
+        if self.extrema is not None:  # peaks between the rows
+            self.extrema.steps(w[:, None], w_new[:, None], col_code, h, t_prev)
         if t_row is not None:
             self.record.all(float(t_row), y)
         return w_new, y, g
@@ -133,9 +136,9 @@ class BlockStepper:
         Y = self.G_cur @ np.swapaxes(W, 1, 2)  # (N, p, Kb)
         g = watch.values(Y, code)  # (N, k, Kb)
         col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
+        t_before = np.concatenate([[t_start], ts[:-1]])
         if watch.k:
             cols = np.arange(Kb)
-            t_before = np.concatenate([[t_start], ts[:-1]])
             settled = np.full(w.shape[0], -1)  # instants up to here are final, per sample
             c0 = record.common
             while True:
@@ -168,7 +171,10 @@ class BlockStepper:
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
                     g[idx] = watch.values(Y[idx], code[idx])
                 settled[idx] = j
-        self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
+        starts = np.concatenate([w[:, None], W[:, :-1]], axis=1)
+        self.count(starts, col_code, h)
+        if self.extrema is not None:  # peaks between the rows
+            self.extrema.steps(starts, W, col_code, h, t_before)
         record.columns(np.asarray(ts, dtype=float), Y)
         return W[:, -1], Y[:, :, -1], g[:, :, -1]
 

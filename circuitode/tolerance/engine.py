@@ -47,6 +47,7 @@ from ..equations.statespace import VARIABLE_FIELDS
 from ..equations.statespace import StateSpaceCache, initial_state
 from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
+from .batch_extrema import ChunkExtrema
 from .batch_integrals import ChunkIntegrals, integral_pairs
 from .block_stepper import BlockStepper
 from .stepping import Record, Stretch, matvec
@@ -71,6 +72,9 @@ class ChunkWaves:
     event_times : (N, k) s, instant each threshold switch acted, NaN if it never did.
     integrals : per probe asked for, (∫ y dt (N,), ∫ y² dt (N,)) over the window, exact
         (method "exact"; a power probe has (∫ p dt, NaN)); None with rk4.
+    extrema : per probe asked for, (maximum, its instant, minimum, its instant) (N,) each,
+        located between rows on the solution (NaN where none was), None for a power probe
+        (see :mod:`.batch_extrema`).
     """
 
     t: np.ndarray
@@ -79,6 +83,7 @@ class ChunkWaves:
     problems: dict[int, str] = field(default_factory=dict)
     event_times: np.ndarray | None = None
     integrals: list | None = None
+    extrema: list | None = None
 
     @property
     def y(self) -> np.ndarray:
@@ -186,6 +191,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     problems: dict[int, str] = {}
     tally = ChunkIntegrals(N, p_all, integral_pairs(recipe, p_all)) \
         if method == "exact" else None
+    located = ChunkExtrema(N, [r[1] for r in recipe if r[0] == "row"])
 
     def enter_at(idx, x, t):  # a threshold switch acted for samples idx at instants t
         return _enter_batch(circuit, cache, key_for(tuple(timed)), code, x, t, ok, problems,
@@ -281,8 +287,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         if not last or stops.size == 0 or stops[-1] < b - slack:
             stops, slots = np.append(stops, b), np.append(slots, -1)
         lengths = np.diff(np.concatenate([[a], stops]))
-        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally)
+        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally, located)
+        located.begin(stretch)
         w, y_now, g_prev = stepper.run(w, g_prev, a, stops, lengths, slots >= 0)
+        located.finish()
         x = w[:, :n]
         y_end_before = y_now
     t_all, y_all = record.finish()
@@ -291,7 +299,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
     return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times,
-                      None if tally is None else tally.by_recipe(recipe))
+                      None if tally is None else tally.by_recipe(recipe),
+                      [located.located().get(r[1]) if r[0] == "row" else None for r in recipe])
 
 
 # --------------------------------------------------------------------------
