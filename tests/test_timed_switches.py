@@ -220,3 +220,13 @@ def test_sweep_command_names_the_worst_angle_in_degrees(tmp_path, capsys):
     assert "worst point of each limit:" in out
     assert re.search(r"89\.9\d A \(fails\) at K\.angle = (0|180|360) deg\n", out)
     assert "(grid point; ± 15 deg)" in out
+
+
+def test_a_single_run_names_the_angle_its_switch_closed_on():
+    # the event says why the switch moved in the language's own words (not "its timed schedule")
+    wf = co.simulate(loads(ANGLE.format(angle="90 deg", start="")))
+    (event,) = wf.events
+    assert event.switch == "K1" and event.closed
+    assert event.reason == "K1 closes on angle 90 deg of Vs"
+    # phase 2π·50 Hz·(t − 1 ms) + 30° reaches 90° at t − 1 ms = 60/360 · 20 ms
+    assert event.time == pytest.approx(1e-3 + 20e-3 / 6, rel=1e-12)
