@@ -40,6 +40,9 @@ EXTREMUM_FIGURES = ("peak", "time_of_peak", "minimum", "overshoot")
 
 _SIGNS = (1.0, -1.0)
 _ITERATIONS = 80
+#: A Newton step below this fraction of the interval ends the search (the error after it is
+#: of its square, far below rounding).
+_STEP_TOL = 1e-12
 
 
 class ChunkExtrema:
@@ -76,37 +79,40 @@ class ChunkExtrema:
             self._gm[c] = (G, G @ M)
         return self._gm[c]
 
-    def steps(self, starts: np.ndarray, ends: np.ndarray, col_code: np.ndarray, h: float, t_left) -> None:
-        """K steps of length h (s) for every sample: states at their starts and ends (N, K, s),
-        each step's configuration col_code (N, K) (−1: split by a switch, not searched),
-        t_left (K,) s the steps' starting instants."""
+    def steps(self, points: np.ndarray, col_code: np.ndarray, h: float, t_left) -> None:
+        """K steps of length h (s) for every sample: states at the K + 1 instants that bound
+        them, points (N, K + 1, s) (step k from points[:, k] to points[:, k + 1]), each step's
+        configuration col_code (N, K) (−1: split by a switch, not searched), t_left (K,) s the
+        steps' starting instants."""
         if self.rows.size == 0 or self.stretch is None:
             return
-        N, K, s = starts.shape
+        N, K, s = points.shape[0], points.shape[1] - 1, points.shape[2]
         if self.w is None:
             self.w = np.zeros(self.value.shape + (s,))
         t_left = np.broadcast_to(np.asarray(t_left, dtype=float), (K,))
-        for c in np.unique(col_code[col_code >= 0]):
+        across = np.swapaxes(points, 1, 2)  # (N, s, K + 1)
+        codes = np.unique(col_code)
+        for c in codes[codes >= 0]:
             G, GM = self._outputs(int(c))
-            use = (col_code == c)[:, None, :]  # (N, 1, K)
-            y0 = np.einsum("nrs,nks->nrk", G, starts)
-            y1 = np.einsum("nrs,nks->nrk", G, ends)
-            d0 = np.einsum("nrs,nks->nrk", GM, starts)
-            d1 = np.einsum("nrs,nks->nrk", GM, ends)
-            for d, sign in enumerate(_SIGNS):
-                inside = use & (sign * d0 > 0) & (sign * d1 < 0)
-                score = np.where(inside, np.maximum(sign * y0, sign * y1), -np.inf)  # (N, r, K)
-                k = np.argmax(score, axis=2)  # (N, r)
-                best = np.take_along_axis(score, k[:, :, None], axis=2)[:, :, 0]
-                better = best > self.score[:, :, d]
+            y = G @ across  # (N, r, K + 1): values and slopes at the bounding instants
+            d = GM @ across
+            use = None if codes.size == 1 else (col_code == c)[:, None, :]  # (N, 1, K)
+            for k, sign in enumerate(_SIGNS):
+                inside = (sign * d[:, :, :-1] > 0) & (sign * d[:, :, 1:] < 0)
+                if use is not None:
+                    inside &= use
+                score = np.where(inside, np.maximum(sign * y[:, :, :-1], sign * y[:, :, 1:]), -np.inf)
+                j = np.argmax(score, axis=2)  # (N, r)
+                best = np.take_along_axis(score, j[:, :, None], axis=2)[:, :, 0]
+                better = best > self.score[:, :, k]
                 if not better.any():
                     continue
-                n, j = np.nonzero(better)
-                self.score[n, j, d] = best[n, j]
-                self.code[n, j, d] = c
-                self.h[n, j, d] = h
-                self.t0[n, j, d] = t_left[k[n, j]]
-                self.w[n, j, d] = starts[n, k[n, j]]
+                n, r = np.nonzero(better)
+                self.score[n, r, k] = best[n, r]
+                self.code[n, r, k] = c
+                self.h[n, r, k] = h
+                self.t0[n, r, k] = t_left[j[n, r]]
+                self.w[n, r, k] = points[n, j[n, r]]
 
     def finish(self) -> None:
         """Locate the stretch's candidates that may beat the best so far; keep the larger."""
@@ -148,7 +154,7 @@ def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sig
     minimum.  Returns (s* (R,) s, y(s*) (R,)).  Safeguarded Newton on dy/ds with stacked
     matrix exponentials: the bracket shrinks every iteration, a Newton step leaving it
     (or a wrong-signed curvature) is replaced by bisection; stops when the step is below
-    four rounding units of h.
+    :data:`_STEP_TOL` of h.
     """
     R = h.size
     gM = np.einsum("rs,rst->rt", g, M)
@@ -160,7 +166,7 @@ def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sig
         s = np.clip(h * d0 / (d0 - d1), 0.0, h)  # the secant of the slopes
     s = np.where(np.isfinite(s), s, 0.5 * h)
     active = np.arange(R)
-    tol = 4 * np.finfo(float).eps * np.maximum(h, np.finfo(float).tiny)
+    tol = _STEP_TOL * np.maximum(h, np.finfo(float).tiny)
     for _ in range(_ITERATIONS):
         if active.size == 0:
             break

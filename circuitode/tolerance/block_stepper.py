@@ -116,7 +116,7 @@ class BlockStepper:
                 w_new[idx], y[idx], g[idx] = w_e, y_e, g_e
         self.count(w[:, None], col_code, h)
         if self.extrema is not None:  # peaks between the rows
-            self.extrema.steps(w[:, None], w_new[:, None], col_code, h, t_prev)
+            self.extrema.steps(np.stack([w, w_new], axis=1), col_code, h, t_prev)
         if t_row is not None:
             self.record.all(float(t_row), y)
         return w_new, y, g
@@ -171,10 +171,9 @@ class BlockStepper:
                     Y[idx] = np.where(later[:, None, :], Y_new, Y[idx])
                     g[idx] = watch.values(Y[idx], code[idx])
                 settled[idx] = j
-        starts = np.concatenate([w[:, None], W[:, :-1]], axis=1)
-        self.count(starts, col_code, h)
+        self.count(np.concatenate([w[:, None], W[:, :-1]], axis=1), col_code, h)
         if self.extrema is not None:  # peaks between the rows
-            self.extrema.steps(starts, W, col_code, h, t_before)
+            self.extrema.steps(np.concatenate([w[:, None], W], axis=1), col_code, h, t_before)
         record.columns(np.asarray(ts, dtype=float), Y)
         return W[:, -1], Y[:, :, -1], g[:, :, -1]
 
