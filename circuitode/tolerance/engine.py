@@ -298,9 +298,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for i in np.flatnonzero(bad & ok):
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
+    peaks = located.located()
     return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times,
                       None if tally is None else tally.by_recipe(recipe),
-                      [located.located().get(r[1]) if r[0] == "row" else None for r in recipe])
+                      [peaks.get(r[1]) if r[0] == "row" else None for r in recipe])
 
 
 # --------------------------------------------------------------------------
