@@ -18,7 +18,7 @@ from circuitode.netlist import load, loads
 from circuitode.netlist.parts import set_parts
 from circuitode.studies.grid import evaluate_points, study_circuit
 from circuitode.tolerance.batch import batch_figure_keys, run_chunk
-from circuitode.tolerance.batch_extrema import locate_roots
+from circuitode.tolerance.batch_extrema import hermite_guess, locate_roots
 
 V, L, C = 10.0, 100e-6, 10e-6
 W_N = 1.0 / math.sqrt(L * C)  # 31.6 krad/s
@@ -131,3 +131,14 @@ def test_locate_roots_finds_the_crest_and_trough_of_a_damped_sine():
     t_low = t_top + math.pi / b
     assert s0 + s[1] == pytest.approx(t_low, rel=1e-12)
     assert y[1] == pytest.approx(math.exp(-a * t_low) * math.sin(b * t_low), rel=1e-12)
+
+
+def test_the_first_guess_is_exact_for_a_cubic():
+    # the cubic Hermite interpolant of a cubic is the cubic itself, so its slope's root is the
+    # true one (calculus): y = s − s³ on [0, 1] peaks at 1/√3; y = s − s³/3 on [0, 2] at 1
+    guess = hermite_guess(np.array([0.0, 0.0]), np.array([0.0, -2.0 / 3.0]), np.array([1.0, 1.0]),
+                          np.array([-2.0, -3.0]), np.array([1.0, 2.0]))
+    assert guess == pytest.approx([1 / math.sqrt(3), 1.0], rel=1e-14)
+    # a slope that keeps its sign (y = s) gives no guess
+    assert np.isnan(hermite_guess(np.array([0.0]), np.array([1.0]), np.array([1.0]), np.array([1.0]),
+                                  np.array([1.0]))[0])

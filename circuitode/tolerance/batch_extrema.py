@@ -33,7 +33,7 @@ import numpy as np
 
 from .batchexpm import expm_stack
 
-__all__ = ["ChunkExtrema", "EXTREMUM_FIGURES", "extremum_figures", "locate_roots"]
+__all__ = ["ChunkExtrema", "EXTREMUM_FIGURES", "extremum_figures", "hermite_guess", "locate_roots"]
 
 #: Figures read from the located extrema (as :data:`circuitode.analysis.between_rows.EXTREMUM_FIGURES`).
 EXTREMUM_FIGURES = ("peak", "time_of_peak", "minimum", "overshoot")
@@ -67,16 +67,16 @@ class ChunkExtrema:
         self.code = np.zeros((N, r, 2), dtype=np.int64)
         self.h = np.zeros((N, r, 2))
         self.t0 = np.zeros((N, r, 2))
+        self.ends = np.zeros((4, N, r, 2))  # y and dy/ds at the step's two ends (the first guess)
         self.w = None
         self._gm: dict = {}
 
     def _outputs(self, c: int):
-        """(G (N, r, s), G M (N, r, s)) of configuration c for every sample."""
+        """[G; G M] (N, 2r, s) of configuration c for every sample: values and slopes."""
         if c not in self._gm:
             full = np.full(self.value.shape[0], c)
-            M = self.stretch.M(full)
             G = self.stretch.G(full)[:, self.rows]
-            self._gm[c] = (G, G @ M)
+            self._gm[c] = np.concatenate([G, G @ self.stretch.M(full)], axis=1)
         return self._gm[c]
 
     def steps(self, points: np.ndarray, col_code: np.ndarray, h: float, t_left) -> None:
@@ -93,9 +93,8 @@ class ChunkExtrema:
         across = np.swapaxes(points, 1, 2)  # (N, s, K + 1)
         codes = np.unique(col_code)
         for c in codes[codes >= 0]:
-            G, GM = self._outputs(int(c))
-            y = G @ across  # (N, r, K + 1): values and slopes at the bounding instants
-            d = GM @ across
+            both = self._outputs(int(c)) @ across  # (N, 2r, K + 1): values, slopes at the bounds
+            y, d = both[:, :self.rows.size], both[:, self.rows.size:]
             use = None if codes.size == 1 else (col_code == c)[:, None, :]  # (N, 1, K)
             for k, sign in enumerate(_SIGNS):
                 inside = (sign * d[:, :, :-1] > 0) & (sign * d[:, :, 1:] < 0)
@@ -113,6 +112,8 @@ class ChunkExtrema:
                 self.h[n, r, k] = h
                 self.t0[n, r, k] = t_left[j[n, r]]
                 self.w[n, r, k] = points[n, j[n, r]]
+                jj = j[n, r]
+                self.ends[:, n, r, k] = (y[n, r, jj], y[n, r, jj + 1], d[n, r, jj], d[n, r, jj + 1])
 
     def finish(self) -> None:
         """Locate the stretch's candidates that may beat the best so far; keep the larger."""
@@ -129,7 +130,9 @@ class ChunkExtrema:
                 M[sel] = self.stretch.M(full, n[sel])
                 G[sel] = self.stretch.G(full, n[sel])[np.arange(sel.sum()), self.rows[j[sel]]]
             sign = np.where(d == 0, 1.0, -1.0)
-            s, y = locate_roots(M, self.w[n, j, d], G, self.h[n, j, d], sign)
+            y0, y1, d0, d1 = self.ends[:, n, j, d]
+            s, y = locate_roots(M, self.w[n, j, d], G, self.h[n, j, d], sign,
+                                hermite_guess(y0, y1, d0, d1, self.h[n, j, d]))
             found = sign * y
             better = found > self.value[n, j, d]
             self.value[n[better], j[better], d[better]] = found[better]
@@ -147,24 +150,22 @@ class ChunkExtrema:
         return out
 
 
-def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sign: np.ndarray):
+def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sign: np.ndarray,
+                 start: np.ndarray | None = None):
     """Extremum of y(s) = g·e^{Ms} w inside (0, h) where sign·dy/ds changes from + to −.
 
     M : (R, s, s) 1/s.  w, g : (R, s).  h : (R,) s.  sign : (R,) +1 for a maximum, −1 for a
-    minimum.  Returns (s* (R,) s, y(s*) (R,)).  Safeguarded Newton on dy/ds with stacked
-    matrix exponentials: the bracket shrinks every iteration, a Newton step leaving it
-    (or a wrong-signed curvature) is replaced by bisection; stops when the step is below
+    minimum.  start : (R,) s, a first guess inside (0, h) (the middle when None).  Returns
+    (s* (R,) s, y(s*) (R,)).  Safeguarded Newton on dy/ds with stacked matrix
+    exponentials: the bracket shrinks every iteration, a Newton step leaving it (or a
+    wrong-signed curvature) is replaced by bisection; stops when the step is below
     :data:`_STEP_TOL` of h.
     """
     R = h.size
     gM = np.einsum("rs,rst->rt", g, M)
     gMM = np.einsum("rs,rst->rt", gM, M)
-    d0 = sign * np.einsum("rs,rs->r", gM, w)
-    d1 = sign * np.einsum("rs,rs->r", gM, (expm_stack(M * h[:, None, None]) @ w[:, :, None])[:, :, 0])
     lo, hi = np.zeros(R), h.astype(float).copy()
-    with np.errstate(invalid="ignore", divide="ignore"):
-        s = np.clip(h * d0 / (d0 - d1), 0.0, h)  # the secant of the slopes
-    s = np.where(np.isfinite(s), s, 0.5 * h)
+    s = 0.5 * h if start is None else np.where((start > 0) & (start < h), start, 0.5 * h)
     active = np.arange(R)
     tol = _STEP_TOL * np.maximum(h, np.finfo(float).tiny)
     for _ in range(_ITERATIONS):
@@ -180,11 +181,28 @@ def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sig
             newton = s[a] - f / fp
         bad = ~((newton > lo[a]) & (newton < hi[a]) & (fp < 0))
         nxt = np.where(bad, 0.5 * (lo[a] + hi[a]), newton)
-        done = (f == 0) | (np.abs(nxt - s[a]) <= tol[a]) | (hi[a] - lo[a] <= tol[a])
+        done = (f == 0) | (np.abs(nxt - s[a]) <= tol[a]) | (hi[a] - lo[a] <= tol[a]) | ~np.isfinite(f)
         s[a] = np.where(f == 0, s[a], nxt)
         active = a[~done]
     y = np.einsum("rs,rs->r", g, (expm_stack(M * s[:, None, None]) @ w[:, :, None])[:, :, 0])
     return s, y
+
+
+def hermite_guess(y0, y1, d0, d1, h):
+    """Where the cubic through values y0, y1 and slopes d0, d1 (per s) at 0 and h has its
+    slope's sign change (s, same shape); NaN where the quadratic gives no root in [0, h]."""
+    m0, m1 = d0 * h, d1 * h  # slopes per unit of the normalised variable τ = s/h
+    a = 6 * y0 + 3 * m0 - 6 * y1 + 3 * m1
+    b = -6 * y0 - 4 * m0 + 6 * y1 - 2 * m1
+    with np.errstate(invalid="ignore", divide="ignore"):
+        root = np.sqrt(b * b - 4 * a * m0)
+        # the two roots in the cancellation-free forms; keep the one inside [0, 1]
+        q = -0.5 * (b + np.copysign(root, b))
+        r1, r2 = q / a, m0 / q
+        linear = -m0 / b
+        tau = np.where(np.abs(a) <= 1e-14 * (np.abs(b) + np.abs(m0)), linear,
+                       np.where((r1 >= 0) & (r1 <= 1), r1, r2))
+    return np.where((tau >= 0) & (tau <= 1), tau * h, np.nan)
 
 
 def extremum_figures(figure: str, t: np.ndarray, y: np.ndarray, located) -> np.ndarray | None:
