@@ -225,8 +225,8 @@ def test_unknown_batch_method_is_refused():
 def test_coarse_steps_locate_the_same_peaks_as_single_runs(text, coarse, window):
     # peaks, their instants, minima and overshoot between rows (tolerance/batch_extrema.py)
     # equal the single run's own located ones at steps 10-20x coarser, threshold switches
-    # included (the batch does not search the one step a switch splits; the single run does,
-    # so a peak inside that step would differ; none of these three has one there)
+    # included (a step a switch splits is searched piece by piece, as the single run's rows
+    # at the event split it)
     coarse_text = re.sub(r"(transient until \S+ \S+) step \S+ \S+", rf"\1 {coarse}", text)
     assert coarse_text != text
     _assert_agree(*_batch_and_reference(coarse_text, n=6), window=window)

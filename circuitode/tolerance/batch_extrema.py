@@ -21,8 +21,9 @@ the method's state error, as in the single run.
 Only the best candidate step per stretch is located, and only when its end rows
 reach the best value located so far (a true peak between two rows that both lie
 below an earlier located peak is not looked for; the single run looks at the six
-largest local maxima of the rows).  Steps split by a threshold switch are not
-searched; their rows count as they are.  :func:`extremum_figures` combines the
+largest local maxima of the rows).  A step split by a threshold switch is searched
+piece by piece (before and after the switch, :meth:`ChunkExtrema.piece`, told by
+:func:`.thresholds.handle_crossings`).  :func:`extremum_figures` combines the
 located values with the rows (never below the rows' own extremes).
 """
 from __future__ import annotations
@@ -114,6 +115,32 @@ class ChunkExtrema:
                 self.w[n, r, k] = points[n, j[n, r]]
                 jj = j[n, r]
                 self.ends[:, n, r, k] = (y[n, r, jj], y[n, r, jj + 1], d[n, r, jj], d[n, r, jj + 1])
+
+    def piece(self, idx: np.ndarray, codes: np.ndarray, G: np.ndarray, M: np.ndarray, w0: np.ndarray,
+              w1: np.ndarray, length: np.ndarray, t0: np.ndarray) -> None:
+        """Pieces of a step split by a switch, one per sample idx (each once): configuration
+        codes (K,), output and system matrices G (K, p, s), M (K, s, s), states at both ends
+        w0, w1 (K, s), lengths (K,) s, starting instants t0 (K,) s."""
+        if self.rows.size == 0 or self.stretch is None or idx.size == 0:
+            return
+        if self.w is None:
+            self.w = np.zeros(self.value.shape + (w0.shape[1],))
+        Gr = G[:, self.rows]
+        GM = Gr @ M
+        y0, y1 = np.einsum("krs,ks->kr", Gr, w0), np.einsum("krs,ks->kr", Gr, w1)
+        d0, d1 = np.einsum("krs,ks->kr", GM, w0), np.einsum("krs,ks->kr", GM, w1)
+        length = np.asarray(length, dtype=float)
+        for k, sign in enumerate(_SIGNS):
+            inside = (sign * d0 > 0) & (sign * d1 < 0) & (length > 0)[:, None]
+            score = np.where(inside, np.maximum(sign * y0, sign * y1), -np.inf)  # (K, r)
+            a, r = np.nonzero(score > self.score[idx, :, k])
+            n = idx[a]
+            self.score[n, r, k] = score[a, r]
+            self.code[n, r, k] = codes[a]
+            self.h[n, r, k] = length[a]
+            self.t0[n, r, k] = np.asarray(t0, dtype=float)[a]
+            self.w[n, r, k] = w0[a]
+            self.ends[:, n, r, k] = (y0[a, r], y1[a, r], d0[a, r], d1[a, r])
 
     def finish(self) -> None:
         """Locate the stretch's candidates that may beat the best so far; keep the larger."""

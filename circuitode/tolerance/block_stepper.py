@@ -110,7 +110,7 @@ class BlockStepper:
                 idx = np.flatnonzero(crossed.any(axis=1))
                 w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, crossed[idx], self.code,
                                                  w[idx], g[idx], t_prev, h, self.record,
-                                                 tally=self.tally)
+                                                 tally=self.tally, extrema=self.extrema)
                 col_code[idx, 0] = -1
                 self.refresh(idx)
                 w_new[idx], y[idx], g[idx] = w_e, y_e, g_e
@@ -156,7 +156,7 @@ class BlockStepper:
                 w_prev = np.where((j > 0)[:, None], W[idx, np.maximum(j - 1, 0)], w[idx])
                 w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, turned[idx, :, j], code,
                                                  w_prev, g[idx, :, j], t_before[j], h, record, c0 + j,
-                                                 tally=self.tally)
+                                                 tally=self.tally, extrema=self.extrema)
                 self.refresh(idx)
                 W[idx, j], Y[idx, :, j], g[idx, :, j] = w_e, y_e, g_e
                 later = cols[None, :] > j[:, None]  # (R, Kb): instants after the switch
