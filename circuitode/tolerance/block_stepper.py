@@ -7,7 +7,8 @@ equal recorded steps in blocks of up to :data:`MAX_BLOCK` steps: with the powers
 product, and threshold crossings are found from the whole block's outputs at
 once and handed to :func:`.thresholds.handle_crossings`; partial steps go one by
 one.  It updates each sample's configuration code, the record and, with the
-exact method, the running integrals; it knows nothing of the circuit itself.
+exact method, the running integrals, and the candidates for peaks between rows
+(:mod:`.batch_extrema`); it knows nothing of the circuit itself.
 """
 from __future__ import annotations
 
