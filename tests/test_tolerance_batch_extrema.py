@@ -178,3 +178,19 @@ def test_a_peak_inside_the_step_a_threshold_switch_splits_is_located():
         rows = float(measure("peak", single.t, single.signals[label], signal_unit="A"))
         off_rows = max(off_rows, abs(got["peak", label][i] - rows) / rows)
     assert off_rows > 1e-3  # the rows alone miss it (the check can fail)
+
+
+def test_a_swing_hidden_between_two_rows_is_warned_about():
+    # With L1 = 10 µH the loop rings with a 14 µs period inside one 50 µs step: the first
+    # current peak (0.95 A with a 0.5 µs step) begins and ends between two rows, so neither
+    # the rows nor the slope test at the rows see it; the run says so beside its figures
+    from circuitode.analysis.resolution import resolution_warnings
+
+    text = RING_AFTER_THRESHOLD.replace("1.2 mH", "10 uH")
+    label = "current through L1"
+    fine = co.simulate(loads(text.replace("step 50 us", "step 0.5 us"), overrides={"R_c": 800.0}))
+    coarse = co.simulate(loads(text, overrides={"R_c": 800.0}))
+    assert carried_figure("peak", fine, label) > 5 * carried_figure("peak", coarse, label)
+    (warning,) = resolution_warnings(coarse)
+    assert "a swing that begins and ends between two rows is not seen" in warning
+    assert resolution_warnings(fine) == []
