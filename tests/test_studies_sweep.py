@@ -179,3 +179,22 @@ def test_a_parameter_that_feeds_nothing_is_refused(tmp_path):
     path.write_text(RC.replace("param C = 1 uF", "param C = 1 uF\nparam tau = R * C"), encoding="utf-8")
     with pytest.raises(CircuitodeError, match="tau feeds no element value"):
         sweep(path, ["tau=1us,2us"])
+
+
+@pytest.mark.parametrize("vary", [["R=10Ω..40Ω/5/log"], ["R=10Ω..40Ω/5/log", "C=1uF..2uF/4"]])
+def test_the_title_of_a_long_named_circuit_stays_inside_the_image(rc, tmp_path, vary):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    long = tmp_path / "long.cnet"
+    long.write_text(rc.read_text(encoding="utf-8").replace(
+        'circuit "RC charge"', 'circuit "RC charge of a film capacitor through a wirewound resistor, one pulse"'),
+        encoding="utf-8")
+    figure = sweep(long, vary).plot()
+    canvas = FigureCanvasAgg(figure)
+    canvas.draw()
+    from matplotlib.text import Text
+
+    title = [t for t in figure.findobj(Text) if t.get_text() == figure.get_suptitle()]
+    assert title and "wirewound" in figure.get_suptitle()
+    box, frame = title[0].get_window_extent(canvas.get_renderer()), figure.bbox
+    assert frame.x0 <= box.x0 and box.x1 <= frame.x1 and frame.y0 <= box.y0 and box.y1 <= frame.y1

@@ -1,17 +1,21 @@
 """The batched engine against the single-run engine, sample by sample.
 
 Reference: circuitode.transient.simulate(method="exact") run on the same
-parameter values, one sample at a time, with figures from circuitode.analysis.measure.
+parameter values, one sample at a time, with figures from circuitode.analysis.measure
+(integrals, peaks and minima: what the single run carries beyond its rows).
 The batch must agree within 1e-9 relative (issue 5).  Scale-free figures of a
 flat or vanishing quantity get an absolute floor of 1e-9 of the signal's own
 scale, since their relative error is rounding noise over a near-zero value.
 """
+import re
+
 import numpy as np
 import pytest
 
 from circuitode.errors import CircuitodeError
 from circuitode.analysis.measure import measure
 from circuitode.analysis.window_integrals import integral_figure
+from circuitode.analysis.between_rows import EXTREMUM_FIGURES, carried_figure
 from circuitode.netlist import loads
 from circuitode.tolerance.batch import batch_figure_keys, run_chunk
 from circuitode.tolerance.engine import simulate_chunk
@@ -117,8 +121,11 @@ def _batch_and_reference(text, n=50, seed=11):
         wf = simulate(loads(text, overrides=dict(zip(table.names, table.values[i]))), method="exact")
         for j, (fig, label) in enumerate(keys):
             y = wf.signals[label]
-            # integral figures: the single run's own exact integrals (not the rows' trapezoid)
+            # integral figures: the single run's own exact integrals (not the rows' trapezoid);
+            # peaks, their instants and minima: located between rows (as the batch does)
             carried = integral_figure(fig, wf, label)
+            if carried is None and fig in EXTREMUM_FIGURES:
+                carried = carried_figure(fig, wf, label)
             ref[i, j] = carried if carried is not None else measure(fig, wf.t, y, signal_unit=wf.units[label])
             if fig == "time_of_peak":
                 peak_time_value[i, j] = (np.interp(res["figures"][i, j], wf.t, y), np.max(y), np.ptp(y))
@@ -208,3 +215,18 @@ def test_unknown_batch_method_is_refused():
     circuit = loads(RLC_WITH_TIMED_SWITCH)
     with pytest.raises(CircuitodeError, match="exact, rk4"):
         simulate_chunk(circuit, {("C1", "capacitance"): np.ones(2) * 2e-5}, circuit.records, method="radau")
+
+
+@pytest.mark.parametrize("text, coarse, window", [
+    (RLC_WITH_TIMED_SWITCH, "step 40 us", 2e-3),
+    (PRECHARGE_WITH_THRESHOLD, "step 500 us", 0.06),
+    (CASCADE, "step 500 us", 40e-3),
+])
+def test_coarse_steps_locate_the_same_peaks_as_single_runs(text, coarse, window):
+    # peaks, their instants, minima and overshoot between rows (tolerance/batch_extrema.py)
+    # equal the single run's own located ones at steps 10-20x coarser, threshold switches
+    # included (a step a switch splits is searched piece by piece, as the single run's rows
+    # at the event split it)
+    coarse_text = re.sub(r"(transient until \S+ \S+) step \S+ \S+", rf"\1 {coarse}", text)
+    assert coarse_text != text
+    _assert_agree(*_batch_and_reference(coarse_text, n=6), window=window)

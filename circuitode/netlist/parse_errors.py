@@ -150,6 +150,12 @@ def syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistEr
     if re.match(r"\s*coupling\b", text) and "with" in expected_literals(expected):
         return NetlistError("a coupling names its two inductors with 'with' between them",
                             where, "write e.g. 'coupling M1 L1 with L2 k 0.95'")
+    missing_angle = re.search(r"\b(closes|opens)[ \t]+on[ \t]+angle[ \t]+(of)\b(?:[ \t]+(\w+))?", text)
+    if missing_angle and column > missing_angle.start(2):  # "angle of V": "of" read as the value
+        verb, source = missing_angle.group(1), missing_angle.group(3) or "Vmains"
+        return NetlistError("the angle is missing: a value with its unit comes between 'angle' and 'of'",
+                            Where(file, line, missing_angle.start(2) + 1, text),
+                            f"write e.g. '{verb} on angle 90 deg of {source}'")
     wanted, keywords = _describe(expected)
     rest = text[column - 1:]
     word_match = _WORD.match(rest)

@@ -61,6 +61,17 @@ def _figure(rows: int, cols: int):
     return fig, axes
 
 
+def _suptitle(fig, title: str, key: str) -> None:
+    """The circuit's title over the key to the marks, each wrapped to the figure's width
+    (one line of 10 pt text holds about 13 characters per inch), so that neither runs
+    off the edges of the image."""
+    import textwrap
+
+    width = max(20, int(fig.get_figwidth() * 13))
+    text = "\n".join([textwrap.fill(title, width), textwrap.fill(key, width)])
+    fig.suptitle(text, fontsize=10)
+
+
 def _log_axis(axis) -> None:
     """Log scale with plain tick labels at 1, 2, 5 × 10^n (no crowded minor labels)."""
     from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
@@ -143,7 +154,7 @@ def _lines(result: Any):
             _tidy(ax)
             if row == 0 and col == 0 and (second is not None or req is not None):
                 ax.legend(fontsize=7, frameon=False)
-    fig.suptitle(f"{result.title}: filled points meet every requirement", fontsize=10)
+    _suptitle(fig, result.title, "filled points meet every requirement")
     return fig
 
 
@@ -191,5 +202,5 @@ def _contours(result: Any):
         ax.set_title(_title(j, req, result), fontsize=9)
     for n in range(len(panels), rows * cols):
         grid[n // cols][n % cols].set_visible(False)
-    fig.suptitle(f"{result.title}: red line = limit, hatched = meets every requirement", fontsize=10)
+    _suptitle(fig, result.title, "red line = limit, hatched = meets every requirement")
     return fig

@@ -26,6 +26,7 @@ from ..analysis.measure import figure_unit, measure, trusted_clocks
 from ..analysis.window_integrals import figure_from_integrals
 from .batch_windows import label_units, windowed_figure
 from ..output.report import SAFETY_TEXT, requirement_words, unit_of_parameter
+from .batch_extrema import extremum_figures
 from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sample_values import check_supported, element_values
@@ -162,6 +163,8 @@ def run_chunk(task: dict) -> dict:
                     first, square = waves.integrals[row]
                     carried = figure_from_integrals(fig, first, square, waves.t[:, -1] - waves.t[:, 0],
                                                     units[row])
+                if carried is None and waves.extrema is not None:  # peaks located between rows
+                    carried = extremum_figures(fig, waves.t, waves.signals[row], waves.extrema[row])
                 figures[:, j] = carried if carried is not None else measure(
                     fig, waves.t, waves.signals[row], signal_unit=units[row])
         ok = waves.ok.copy()

@@ -7,12 +7,14 @@ and integral sums at the next K instants are one call of the block kernel
 :data:`POWER_TABLE_BYTES`), and threshold crossings are found from the whole block's outputs at
 once and handed to :func:`.thresholds.handle_crossings`; partial steps go one by
 one.  It updates each sample's configuration code, the record and, with the
-exact method, the running integrals; it knows nothing of the circuit itself.
+exact method, the running integrals, and the candidates for peaks between rows
+(:mod:`.batch_extrema`); it knows nothing of the circuit itself.
 """
 from __future__ import annotations
 
 import numpy as np
 
+from .batch_extrema import ChunkExtrema
 from .batch_integrals import ChunkIntegrals
 from .kernel import block_steps
 from .stepping import Record, Stretch, matvec
@@ -38,9 +40,9 @@ class BlockStepper:
     """
 
     def __init__(self, stretch: Stretch, watch: Watch, code, ok, G_cur, record: Record,
-                 tally: ChunkIntegrals | None = None):
+                 tally: ChunkIntegrals | None = None, extrema: ChunkExtrema | None = None):
         self.stretch, self.watch, self.code, self.ok = stretch, watch, code, ok
-        self.G_cur, self.record, self.tally = G_cur, record, tally
+        self.G_cur, self.record, self.tally, self.extrema = G_cur, record, tally, extrema
         self.moments: dict = {}  # (configuration code, step length) → integral operators
         self.phi: dict = {}  # step length → (N, s, s), each sample's configuration
 
@@ -121,11 +123,13 @@ class BlockStepper:
                 idx = np.flatnonzero(crossed.any(axis=1))
                 w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, crossed[idx], self.code,
                                                  w[idx], g[idx], t_prev, h, self.record,
-                                                 tally=self.tally)
+                                                 tally=self.tally, extrema=self.extrema)
                 col_code[idx, 0] = -1
                 self.refresh(idx)
                 w_new[idx], y[idx], g[idx] = w_e, y_e, g_e
         self.count(w[:, None], col_code, h)
+        if self.extrema is not None:  # peaks between the rows
+            self.extrema.steps(np.stack([w, w_new], axis=1), col_code, h, t_prev)
         if t_row is not None:
             self.record.all(float(t_row), y)
         return w_new, y, g
@@ -145,9 +149,9 @@ class BlockStepper:
         W, Y, S1, S2 = block_steps(self.phi[h], self.G_cur, w, Kb, sums=self.tally is not None)
         g = watch.values(Y, code)  # (N, k, Kb)
         col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
+        t_before = np.concatenate([[t_start], ts[:-1]])
         if watch.k:
             cols = np.arange(Kb)
-            t_before = np.concatenate([[t_start], ts[:-1]])
             settled = np.full(w.shape[0], -1)  # instants up to here are final, per sample
             c0 = record.common
             while True:
@@ -165,7 +169,7 @@ class BlockStepper:
                 w_prev = np.where((j > 0)[:, None], W[idx, np.maximum(j - 1, 0)], w[idx])
                 w_e, y_e, g_e = handle_crossings(watch, self.stretch, idx, turned[idx, :, j], code,
                                                  w_prev, g[idx, :, j], t_before[j], h, record, c0 + j,
-                                                 tally=self.tally)
+                                                 tally=self.tally, extrema=self.extrema)
                 self.refresh(idx)
                 W[idx, j], Y[idx, :, j], g[idx, :, j] = w_e, y_e, g_e
                 later = cols[None, :] > j[:, None]  # (R, Kb): instants after the switch
@@ -182,6 +186,8 @@ class BlockStepper:
                 settled[idx] = j
         self.count(lambda r: np.concatenate([w[r, None], W[r, :-1]], axis=1), col_code, h,
                    sums=None if S1 is None else (S1, S2))
+        if self.extrema is not None:  # peaks between the rows
+            self.extrema.steps(np.concatenate([w[:, None], W], axis=1), col_code, h, t_before)
         record.columns(np.asarray(ts, dtype=float), Y)
         return W[:, -1], Y[:, :, -1], g[:, :, -1]
 

@@ -54,6 +54,7 @@ from ..equations.entry import batch_entry
 from ..transient import DEFAULT_POINTS, EVENT_TOL_FRACTION
 from ..transient.window_integrals import window_marks
 from ..transient.commutation import DIODE_BAND, DIODE_TIE, diode_probes
+from .batch_extrema import ChunkExtrema
 from .batch_integrals import ChunkIntegrals, integral_pairs
 from .block_stepper import BlockStepper
 from .diodes import BatchDiodes, diode_rules
@@ -86,6 +87,9 @@ class ChunkWaves:
         (method "exact"; a power probe has (∫ p dt, NaN)); None with rk4.
     cumulative_integrals : end of a requirement's window (s) → the same integrals from 0 to
         that instant (a stretch bound, so exact as well); None with rk4.
+    extrema : per probe asked for, (maximum, its instant, minimum, its instant) (N,) each,
+        located between rows on the solution (NaN where none was), None for a power probe
+        (see :mod:`.batch_extrema`).
     """
 
     t: np.ndarray
@@ -95,6 +99,7 @@ class ChunkWaves:
     event_times: np.ndarray | None = None
     integrals: list | None = None
     cumulative_integrals: dict | None = None
+    extrema: list | None = None
 
     @property
     def y(self) -> np.ndarray:
@@ -198,6 +203,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     tally = ChunkIntegrals(N, p_all, integral_pairs(recipe, len(rows))) \
         if method == "exact" else None
     diodes = BatchDiodes(circuit, cache, None, k_thr, until, N)
+    located = ChunkExtrema(N, [r[1] for r in recipe if r[0] == "row"])
 
     def settle(idx, w_rows, t, H, F) -> np.ndarray:
         """Settle the diodes of samples idx at instants t (their inputs from the stretch's
@@ -334,8 +340,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         if not last or stops.size == 0 or stops[-1] < b - slack:
             stops, slots = np.append(stops, b), np.append(slots, -1)
         lengths = np.diff(np.concatenate([[a], stops]))
-        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally)
+        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally, located)
+        located.begin(stretch)
         w, y_now, g_prev = stepper.run(w, g_prev, a, stops, lengths, slots >= 0)
+        located.finish()
         x = w[:, :n]
         y_end_before = y_now
     t_all, y_all = record.finish()
@@ -343,9 +351,11 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     for i in np.flatnonzero(bad & ok):
         problems[int(i)] = "the run produced non-finite values"
     ok &= ~bad
+    peaks = located.located()
     return ChunkWaves(t_all, _recipe_rows(y_all, recipe), ok, problems, watch.event_times[:, :k_thr],
                       None if tally is None else tally.by_recipe(recipe),
-                      None if tally is None else cumulative)
+                      cumulative_integrals=None if tally is None else cumulative,
+                      extrema=[peaks.get(r[1]) if r[0] == "row" else None for r in recipe])
 
 
 # --------------------------------------------------------------------------

@@ -128,7 +128,7 @@ def fire_at_start(watch: Watch, stretch: Stretch, a: float, w, y_now, code, ok, 
 
 def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: np.ndarray, code,
                      w_prev: np.ndarray, g_end: np.ndarray, t_prev, h: float, record: Record, pos=None,
-                     tally=None):
+                     tally=None, extrema=None):
     """Locate, switch and finish one step for the samples idx, each with a crossing in it.
 
     idx : (K,) samples.  crossed : (K, k) bool, which pending thresholds turned.
@@ -140,6 +140,8 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
     per-sample matrices it holds for the samples idx.  tally : a
     :class:`~circuitode.tolerance.batch_integrals.ChunkIntegrals` to which the
     integrals over the pieces of the step (before and after each switch) are added.
+    extrema : a :class:`~circuitode.tolerance.batch_extrema.ChunkExtrema` told of the same
+    pieces (peaks between rows are searched in them too).
     """
     K = idx.size
     t_prev = np.broadcast_to(np.asarray(t_prev, dtype=float), (K,))
@@ -160,6 +162,8 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
             tally.fresh(sub, M, G, w_start, tau - start)
         y_before = matvec(G, w_e)
         t_event, at = t_prev[rows] + tau, pos[rows]
+        if extrema is not None:  # the piece before the switch, in the old configuration
+            extrema.piece(sub, code[sub], G, M, w_start, w_e, tau - start, t_prev[rows] + start)
         flip = ~watch.settled[which]  # a diode is settled by watch.enter, not flipped
         code[sub[flip]] ^= (1 << which[flip])
         watch.event_times[sub, which] = t_event
@@ -199,6 +203,10 @@ def handle_crossings(watch: Watch, stretch: Stretch, idx: np.ndarray, crossed: n
         more = again.any(axis=1) & (tau < h)
         if tally is not None:  # the rest of the step, for the samples that switch no more
             tally.fresh(sub[~more], M_new[~more], G_new[~more], w_e[~more], h - tau[~more])
+        if extrema is not None:
+            last = ~more
+            extrema.piece(sub[last], code[sub[last]], G_new[last], M_new[last], w_e[last], w_end[last],
+                          h - tau[last], t_event[last])
         rows, start, w_start, remaining = rows[more], tau[more], w_e[more], again[more]
     return out_w, out_y, g_now
 

@@ -25,6 +25,8 @@ from ..model import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from ..model.configurations import reachable_configurations
 from ..errors import CircuitodeError, NoSteadyStateError
+from ..model.switch_controls import AngleSchedule
+from ..quantities import format_value
 from ..notebook import WaveformsView
 from ..solvers import (LinearEvent, LinearSegment, check_rk4_step, choose_method, get_integrator)
 from ..solvers.explicit_guard import check_explicit_work
@@ -209,7 +211,12 @@ def _threshold_reason(sw: Switch, closed: bool) -> str:
 
 
 def _schedule_reason(sw: Switch) -> str:
-    kind = "periodic" if isinstance(sw.control, PeriodicSchedule) else "timed"
+    """Why a scheduled switch moved: its schedule, or the angle of the sine it closes on."""
+    control = sw.control
+    if isinstance(control, AngleSchedule):  # in the language's words: "closes on angle 90 deg of Vmains"
+        verb = "closes" if control.changes[0][1] else "opens"
+        return f"{sw.name} {verb} on angle {format_value(control.angle, 'rad')} of {control.source}"
+    kind = "periodic" if isinstance(control, PeriodicSchedule) else "timed"
     return f"{sw.name} follows its {kind} schedule"
 
 
