@@ -251,12 +251,16 @@ def test_threshold_switches_are_refused_with_words():
     assert sparse_choice(circuit, "auto") is None  # small, and dense handles thresholds
 
 
-def test_run_skips_the_dense_mode_table_above_the_size_and_says_so(tmp_path):
+def test_run_prints_the_reduced_mode_table_above_the_size_and_says_so(tmp_path):
     from circuitode.jobs.run import run_job
+    from circuitode.output.mode_table import modes_json
 
     result = run_job(ladder(SPARSE_STATES // 2 + 1, until="50 us"), out_dir=None)
-    assert result.modes == []
-    assert any("modes not computed" in p and "O(n³)" in p for p in result.problems)
+    (cfg,) = result.modes
+    assert 6 <= len(cfg.modes) <= 12 and cfg.states is None
+    assert "not all 502" in cfg.note
+    assert any("lists only the slowest and the least damped" in p for p in result.problems)
+    assert "shift-invert" in modes_json(result.modes)[0]["note"]
 
 
 def test_sparse_estimate_of_the_fastest_rate_matches_dense_eigenvalues():
