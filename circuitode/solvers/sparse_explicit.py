@@ -124,6 +124,11 @@ class SparseIVP:
 
             def rate(t, x):
                 return reduced @ x + b
+        elif reduced is not None:  # varying inputs: one sparse product and the inputs at t
+            varying = _forcing(B1, B2, A12, G, solve_e, n, m)
+
+            def rate(t, x):
+                return reduced @ x + varying @ segment.input_values(np.array([t]))[0]
         else:
             def rate(t, x):
                 u = held[:, None] if held is not None else segment.input_values(np.array([t])).T
@@ -157,14 +162,18 @@ class SparseIVP:
                 w = np.vstack([x_cols, algebraic_part(x_cols, u)])
                 out[which] = (w if observe is None else observe @ w).T
 
-        if m:
-            direct = B1.toarray() - A12 @ (G.solve(np.asarray(B2.toarray(), dtype=float)) if G is not None
-                                           else np.zeros((0, m)))
-            forcing = np.asarray(solve_e(np.asarray(direct, dtype=float)), dtype=float).reshape(n, m)
-        else:
-            forcing = np.zeros((n, 0))
+        forcing = _forcing(B1, B2, A12, G, solve_e, n, m)
         return types.SimpleNamespace(n=n, reduced=reduced, rate=rate, record=record,
                                      algebraic_part=algebraic_part, out=out, forcing=forcing)
+
+
+def _forcing(B1, B2, A12, G, solve_e, n: int, m: int) -> np.ndarray:
+    """E₁₁⁻¹(B₁ − A₁₂ A₂₂⁻¹ B₂) (n, m) dense; G the LU of A₂₂ (None when there is no A₂₂)."""
+    if not m:
+        return np.zeros((n, 0))
+    direct = B1.toarray() - A12 @ (G.solve(np.asarray(B2.toarray(), dtype=float)) if G is not None
+                                   else np.zeros((0, m)))
+    return np.asarray(solve_e(np.asarray(direct, dtype=float)), dtype=float).reshape(n, m)
 
 
 class SparseRK45(SparseIVP):
