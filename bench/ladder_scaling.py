@@ -12,9 +12,10 @@ per size and the exponent of a power-law fit of time against states, and
 asserts that the voltages at the far end and after section 200 agree within
 AGREEMENT (largest difference against the RK45 baseline, of a 0.5 V plateau).
 
-circuitode side: ``co.simulate(netlist text)`` with ``method auto`` (above 500
-states the sparse path, which picks rk45 or trbdf2 by estimated cost; on this
-ladder rk45).  With ``--method trbdf2`` the circuitode side names TR-BDF2 at the
+circuitode side: ``co.loads(netlist text)`` then ``co.simulate`` with ``method auto``
+(above 500 states the sparse path, which picks rk45, bdf or trbdf2 by estimated cost;
+on this ladder rk45 at every size above 500); the two calls are timed apart, since
+parsing and checking are not the solver's work.  With ``--method trbdf2`` the circuitode side names TR-BDF2 at the
 1 µs output step instead (second order: it agrees to about 7 mV).
 Baseline: a careful user's script: scipy.sparse A and B written from the
 section equations, ``solve_ivp`` (RK45; and BDF with ``jac`` = sparse A),
@@ -174,8 +175,9 @@ def main() -> None:
             assert ours["t"].shape == theirs["t"].shape and np.allclose(ours["t"], theirs["t"])
             allowed = AGREEMENT[str(ours["method"])]  # the method circuitode used
             assert diff < allowed, f"voltages disagree by {diff:.3g} V (> {allowed:g} V) at {states} states"
-    print("circuitode's own parts (medians, in its process): imports, parse+build+checks (co.loads), "
-          "simulate (assembly, stepping, recording); the whole run without co.loads against the best baseline")
+    print("circuitode's own parts (medians, in its process): `import circuitode` (lazy: the libraries load "
+          "in the parts after it), parse+build+checks (co.loads), simulate (checks again, assembly, stepping, "
+          "recording); the whole process without co.loads against the best baseline")
     for states, parts, rest, best in split:
         print(f"{states:>7}  imports {parts['imports']:.2f}s  loads {parts['load']:.2f}s  simulate "
               f"{parts['simulate']:.2f}s  without loads {rest:.2f}s = {rest / best:.2f}× best baseline")
