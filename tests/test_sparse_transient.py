@@ -333,3 +333,13 @@ def test_sine_driven_ladder_on_the_sparse_path_against_solve_ivp(method):
     bound = {"rk45": 1e-4, "exact": 1e-8}[method]  # rk45's rtol 1e-6 global error; exact: rounding
     for j, p in enumerate(probes):
         assert np.max(np.abs(w[p.label][pick] - Y[:, j])) < bound, p.label
+
+
+def test_sparse_exact_refuses_a_stiff_circuit_with_words():
+    # With the contactor open, the first inductor's current flows into 10 MΩ: a rate of
+    # R/L = 1e12 1/s, for which expm_multiply's series would need ~1e8 products.
+    text = ladder(260, until="0.6 ms").replace(
+        f"resistor R_s src -- n0 {Z0!r} Ω",
+        f"resistor R_s src -- a {Z0!r} Ω\nswitch Q1 a -- n0 closes at 0.2 ms off 10 MΩ")
+    with pytest.raises(CircuitodeError, match="too stiff for it; use method bdf"):
+        co.simulate(text, method="exact")

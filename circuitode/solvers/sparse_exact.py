@@ -19,7 +19,11 @@ from ..errors import IntegrationError
 from .base import SegmentResult, generator_matrices
 from .sparse_explicit import SparseIVP
 
-__all__ = ["SparseExact"]
+__all__ = ["SparseExact", "NORM_SPAN_LIMIT"]
+
+#: expm_multiply's work grows as ‖M‖₁ · t (its Taylor series is stepped like an explicit
+#: method, Al-Mohy & Higham 2011, sec. 3); above this many units the segment is refused.
+NORM_SPAN_LIMIT = 2e5
 
 
 class SparseExact(SparseIVP):
@@ -54,6 +58,13 @@ class SparseExact(SparseIVP):
                      [None, sp.csr_matrix(F) if q else None]], format="csr") if q else sp.csr_matrix(p.reduced)
         v0 = np.concatenate([segment.w0[:n], g0])
         span = segment.t1 - segment.t0
+        norm = float(abs(M).sum(axis=0).max()) if M.nnz else 0.0
+        if norm * span > NORM_SPAN_LIMIT:
+            raise IntegrationError(
+                f"method exact on a large circuit applies the matrix exponential by a series whose work "
+                f"grows with ‖A‖₁·t = {norm:.3g} 1/s × {span:.3g} s = {norm * span:.3g} (limit "
+                f"{NORM_SPAN_LIMIT:.0e}): the circuit is too stiff for it; use method bdf (adaptive, to rtol) "
+                "or trbdf2")
         times = np.append(t_out - segment.t0, span)
         values = _at_times(M, v0, times, expm_multiply)  # (len(times), n + q)
         x = values[:, :n]
