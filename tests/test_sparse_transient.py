@@ -45,6 +45,32 @@ def ladder(sections, *, lossless=False, method="auto", step="1 us", until="2 ms"
     return "\n".join(lines) + "\n"
 
 
+def expm_reference(text, step=1e-6):
+    """Dense exact reference without the driver: the assembled dense A, B, C, D stepped by
+    Φ = scipy.linalg.expm([[A, B], [0, 0]] h) (exact for the constant sources of these
+    ladders), outputs C x + D u on the output grid; {label: (rows,)} and the times.
+    A recurrence over the 1 µs rows (each row needs the previous one)."""
+    from scipy.linalg import expm
+
+    from circuitode.model import SourceBank
+
+    circuit = co.loads(text)
+    probes = _linear_probes(recorded_probes(circuit))
+    ss = assemble(circuit, (), probes)
+    n, m = ss.B.shape
+    M = np.zeros((n + m, n + m))
+    M[:n, :n], M[:n, n:] = ss.A, ss.B
+    phi = expm(M * step)
+    u = SourceBank.of(circuit).values(np.array([step / 2]))[0]
+    rows = int(round(circuit.analysis.until / step)) + 1
+    X = np.zeros((rows, n))
+    forced = phi[:n, n:] @ u
+    for k in range(1, rows):
+        X[k] = phi[:n, :n] @ X[k - 1] + forced
+    Y = X @ ss.C.T + u @ ss.D.T
+    return {p.label: Y[:, j] for j, p in enumerate(probes)}
+
+
 def reduced(sparse):
     """Eliminate z from E w' = A w + B u, y = C w + D u (dense, small circuits only)."""
     n = sparse.n_states
@@ -88,12 +114,13 @@ def test_trbdf2_against_dense_exact_at_1000_states():
     # 500 sections; 0.4 ms (the front reaches section ~126).  Error at the near end and in
     # the source current against the dense exact method, at h = 1 µs and 0.5 µs.
     text = ladder(500, until="0.4 ms")
-    exact = co.simulate(text, method="exact")
+    exact = expm_reference(text)
+    exact_t = np.linspace(0.0, 0.4e-3, 401)
     errors = []
     for step in (1e-6, 0.5e-6):
         w = co.simulate(text, method="trbdf2", step=step)
         assert w.method == "trbdf2" and w.states.shape[1] == 1000
-        pick = np.searchsorted(w.t, exact.t)
+        pick = np.searchsorted(w.t, exact_t)
         errors.append(max(np.max(np.abs(w[label][pick] - exact[label]))
                           for label in ("voltage at n1", "current through R_s")))
     order = np.log2(errors[0] / errors[1])
@@ -113,15 +140,72 @@ def test_auto_takes_the_sparse_path_above_the_size_and_says_why():
     stiff = ladder(SPARSE_STATES // 2 + 1, until="0.1 ms").replace(
         "resistor R_t", "capacitor C_fast n0 -- gnd 1 nF\nresistor R_t")
     w = co.simulate(stiff)
-    assert w.method == "trbdf2" and w.method_reason.startswith("trbdf2: stiff")
+    assert w.method == "bdf" and w.method_reason.startswith("bdf: stiff")
+    assert w.counters["lu_decompositions"] > 0  # scipy's BDF factored the sparse Jacobian
 
 
 def test_auto_takes_trbdf2_when_the_reduced_matrix_would_be_too_large(monkeypatch):
-    from circuitode.solvers.sparse_explicit import SparseRK45
+    import circuitode.solvers.schur as schur
+    from circuitode.solvers.sparse_explicit import SparseIVP
 
-    monkeypatch.setattr(SparseRK45, "budget", 1e5)  # 502 states × 753 nodal unknowns exceed it
+    monkeypatch.setattr(schur, "SMALL", 0)  # every connected block counts as large …
+    monkeypatch.setattr(SparseIVP, "budget", 10.0)  # … and their dense cost exceeds the budget
     w = co.simulate(ladder(SPARSE_STATES // 2 + 1, until="0.1 ms"))
-    assert w.method == "trbdf2" and "too large to form the reduced matrix" in w.method_reason
+    assert w.method == "trbdf2" and "too large to form" in w.method_reason
+    with pytest.raises(CircuitodeError, match="use method trbdf2"):
+        co.simulate(ladder(SPARSE_STATES // 2 + 1, until="0.1 ms"), method="bdf")
+
+
+def test_reduced_matrix_by_blocks_equals_the_dense_elimination():
+    # schur.reduced_matrix (connected blocks of the algebraic part, batched dense inverses)
+    # against numpy's dense elimination E₁₁⁻¹(A₁₁ − A₁₂ A₂₂⁻¹ A₂₁), with small blocks and
+    # with every block treated as large (sparse LU per block).
+    import scipy.sparse as sp
+
+    import circuitode.solvers.schur as schur
+
+    for source in ("netlists/cable_ladder.cnet", ladder(40)):
+        circuit = co.load(source) if source.endswith(".cnet") else co.loads(source)
+        d = assemble_sparse(circuit, (False,) * len(circuit.switches))
+        n, A = d.n_states, d.A.toarray()
+        E11 = d.E.toarray()[:n, :n]
+        want = np.linalg.solve(E11, A[:n, :n] - A[:n, n:] @ np.linalg.solve(A[n:, n:], A[n:, :n]))
+        scale = sp.diags(1.0 / np.diag(E11))
+        for small in (64, 0):
+            schur.SMALL, keep = small, schur.SMALL
+            try:
+                got = schur.reduced_matrix(d.A[:n, :n], d.A[:n, n:], d.A[n:, :n], d.A[n:, n:], scale)
+            finally:
+                schur.SMALL = keep
+            np.testing.assert_allclose(got.toarray(), want, rtol=1e-12, atol=1e-12 * np.abs(want).max())
+
+
+def test_sparse_exact_against_dense_exact_at_1000_states():
+    # The sparse exact method (expm_multiply on the reduced sparse matrix, Al-Mohy & Higham
+    # 2011) against the dense exact method (dense matrix exponential) at 1,000 states:
+    # both exact up to rounding, so they agree to 1e-9 (of a 0.5 V / 0.16 A scale).
+    text = ladder(500, until="0.4 ms")
+    exact = expm_reference(text)  # scipy.linalg.expm of the dense matrices, stepped per row
+    w = co.simulate(text, method="exact")
+    assert w.method == "exact" and "reduced sparse" in w.method_reason
+    assert set(exact) == set(w.signals)
+    for label in exact:
+        assert np.max(np.abs(w[label] - exact[label])) < 1e-9, label
+
+
+@pytest.mark.parametrize("method", ["bdf", "radau"])
+def test_sparse_bdf_and_radau_against_dense_exact(method):
+    # scipy's BDF and Radau on the reduced sparse equations with the sparse Jacobian, at
+    # 602 states, against the dense exact method: within their global error at rtol 1e-6
+    # (tighter rtol 1e-8 shrinks it, so the difference is the method's, not a wrong system).
+    text = ladder(301, until="0.3 ms")
+    exact = expm_reference(text)
+    errors = []
+    for rtol in (1e-6, 1e-8):
+        w = co.simulate(text, method=method, rtol=rtol, atol=1e-12)
+        assert w.method == method and w.counters["lu_decompositions"] > 0
+        errors.append(max(np.max(np.abs(w[label] - exact[label])) for label in exact))
+    assert errors[0] < 1e-3 and errors[1] < errors[0] / 5, errors
 
 
 @pytest.mark.parametrize("reduced", [True, False])
@@ -136,8 +220,8 @@ def test_sparse_rk45_against_dense_exact(reduced, monkeypatch):
     text = ladder(300)
     w = co.simulate(text)
     assert w.method == "rk45"
-    exact = co.simulate(text, method="exact")
-    for label in exact.signals:
+    exact = expm_reference(text)
+    for label in exact:
         assert np.max(np.abs(w[label] - exact[label])) < 1e-4, label
 
 
@@ -167,12 +251,16 @@ def test_threshold_switches_are_refused_with_words():
     assert sparse_choice(circuit, "auto") is None  # small, and dense handles thresholds
 
 
-def test_run_skips_the_dense_mode_table_above_the_size_and_says_so(tmp_path):
+def test_run_prints_the_reduced_mode_table_above_the_size_and_says_so(tmp_path):
     from circuitode.jobs.run import run_job
+    from circuitode.output.mode_table import modes_json
 
     result = run_job(ladder(SPARSE_STATES // 2 + 1, until="50 us"), out_dir=None)
-    assert result.modes == []
-    assert any("modes not computed" in p and "O(n³)" in p for p in result.problems)
+    (cfg,) = result.modes
+    assert 6 <= len(cfg.modes) <= 12 and cfg.states is None
+    assert "not all 502" in cfg.note
+    assert any("lists only the slowest and the least damped" in p for p in result.problems)
+    assert "shift-invert" in modes_json(result.modes)[0]["note"]
 
 
 def test_sparse_estimate_of_the_fastest_rate_matches_dense_eigenvalues():
@@ -219,3 +307,39 @@ def test_dc_steady_start_on_the_sparse_path_stays_put():
         rtol = 1e-9 if method == "trbdf2" else 2e-6  # rk45 drifts within its own rtol (1e-6)
         np.testing.assert_allclose(w[f"voltage at n{S}"], current * Z0, rtol=rtol)
         np.testing.assert_allclose(w["current through R_s"], current, rtol=rtol)
+
+
+@pytest.mark.parametrize("method", ["rk45", "exact"])
+def test_sine_driven_ladder_on_the_sparse_path_against_solve_ivp(method):
+    # A 20 kHz sine (delay 0, so the input is continuous) drives 602 states; reference:
+    # scipy.integrate.solve_ivp DOP853 at rtol 1e-10 on the dense A, B of the same circuit
+    # (the reference library).  rk45 uses the reduced matrix with the input at each t;
+    # exact propagates the sine's own linear generator with expm_multiply.
+    from scipy.integrate import solve_ivp
+
+    text = ladder(301, until="0.2 ms").replace("constant 1 V", "sine amplitude 1 V frequency 20 kHz")
+    circuit = co.loads(text)
+    probes = _linear_probes(recorded_probes(circuit))
+    ss = assemble(circuit, (), probes)
+    t = np.linspace(0.0, 2e-4, 201)
+    omega = 2 * np.pi * 20e3
+    b = ss.B[:, 0]
+    ref = solve_ivp(lambda tt, x: ss.A @ x + b * np.sin(omega * tt), (0.0, 2e-4), np.zeros(ss.A.shape[0]),
+                    method="DOP853", t_eval=t, rtol=1e-10, atol=1e-13)
+    Y = ref.y.T @ ss.C.T + np.sin(omega * t)[:, None] @ ss.D.T
+    w = co.simulate(text, method=method, step=1e-6)
+    assert w.method == method and w.states.shape[1] == 602
+    pick = np.searchsorted(w.t, t)
+    bound = {"rk45": 1e-4, "exact": 1e-8}[method]  # rk45's rtol 1e-6 global error; exact: rounding
+    for j, p in enumerate(probes):
+        assert np.max(np.abs(w[p.label][pick] - Y[:, j])) < bound, p.label
+
+
+def test_sparse_exact_refuses_a_stiff_circuit_with_words():
+    # With the contactor open, the first inductor's current flows into 10 MΩ: a rate of
+    # R/L = 1e12 1/s, for which expm_multiply's series would need ~1e8 products.
+    text = ladder(260, until="0.6 ms").replace(
+        f"resistor R_s src -- n0 {Z0!r} Ω",
+        f"resistor R_s src -- a {Z0!r} Ω\nswitch Q1 a -- n0 closes at 0.2 ms off 10 MΩ")
+    with pytest.raises(CircuitodeError, match="too stiff for it; use method bdf"):
+        co.simulate(text, method="exact")

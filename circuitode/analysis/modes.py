@@ -138,6 +138,7 @@ class ConfigurationModes:
     modes: tuple[Mode, ...]
     states: tuple[str, ...] | None = None  # the configuration's free states (None: not given)
     dependent: tuple[str, ...] = ()  # one sentence per state an ideal switch ties or holds
+    note: str = ""  # how the modes were found when not all of them are listed (large circuits)
 
 
 # --------------------------------------------------------------------------
@@ -386,8 +387,13 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
     """
     from ..equations.statespace import assemble, describe_configuration
     from ..model.configurations import reachable_configurations
+    from ..transient.sparse_driver import SPARSE_STATES
     from .configuration_states import dependent_words
 
+    if len(circuit.state_names) > SPARSE_STATES:  # a dense eig is O(n³): a few modes, sparsely
+        from .sparse_modes import sparse_circuit_modes
+
+        return sparse_circuit_modes(circuit, until)
     out = []
     for configuration in reachable_configurations(circuit, until):
         system = assemble(circuit, configuration.closed)

@@ -106,11 +106,21 @@ def _right_hand_sides(circuit: Circuit, layout) -> sp.csc_matrix:
     return sp.csc_matrix((vals, (rows, cols)), shape=(layout.size, n + len(sources)))
 
 
+def _positive(circuit: Circuit, samples: Samples, items, unit: str) -> np.ndarray:
+    """Values (k,) of the ``(name, field)`` items of one circuit, checked positive and finite
+    together; a bad one raises through ``samples.positive`` in its words."""
+    values = np.array([float(getattr(circuit.by_name[name], field)) for name, field in items], dtype=float)
+    bad = ~(np.isfinite(values) & (values > 0))
+    for i in np.flatnonzero(bad):
+        samples.positive(items[i][0], items[i][1], unit)  # raises BadValueError
+    return values
+
+
 def _inductance(circuit: Circuit, samples: Samples) -> sp.csc_matrix:
     """Sparse inductance matrix (nL, nL), H; the coupled subset is checked positive definite."""
     inds = circuit.inductors
     pos = {l.name: i for i, l in enumerate(inds)}
-    own = np.array([samples.positive(l.name, "inductance", "henry")[0] for l in inds])
+    own = _positive(circuit, samples, [(l.name, "inductance") for l in inds], "henry")
     rows, cols, vals = list(range(len(inds))), list(range(len(inds))), list(own)
     coupled: dict[int, None] = {}
     for c in circuit.couplings:
@@ -146,14 +156,14 @@ def assemble_sparse(circuit: Circuit, closed: Sequence[bool], probes: Sequence =
     closed = check_closed(circuit, closed)
     layout = build_layout(circuit, closed)
     samples = Samples(circuit, None)
-    conductance = np.array([[1.0 / samples.positive(name, f, "ohms")[0] for name, f, _, _ in layout.conductors]])
+    conductance = 1.0 / _positive(circuit, samples, [(name, f) for name, f, _, _ in layout.conductors], "ohms")[None, :]
     caps, inds = circuit.capacitors, circuit.inductors
     n, nc, K = len(caps) + len(inds), len(caps), layout.size
     rows, cols, vals = _stamp(layout, conductance.reshape(1, -1))
     G = sp.csc_matrix((vals[0], (rows, cols)), shape=(K, K))
     R = _right_hand_sides(circuit, layout)
     Rx, Ru = R[:, :n].tocsc(), R[:, n:].tocsc()
-    capacitance = np.array([samples.positive(c.name, "capacitance", "farads")[0] for c in caps])
+    capacitance = _positive(circuit, samples, [(c.name, "capacitance") for c in caps], "farads")
     E = sp.block_diag([sp.diags(capacitance), _inductance(circuit, samples), sp.csc_matrix((K, K))], format="csc")
     # P: capacitor rows pick their branch current, inductor rows v_a − v_b
     p_rows = list(range(nc))

@@ -106,6 +106,8 @@ def modes_text(configurations: Sequence[Any], path: str | None = None, title: st
                              + (", ".join(cfg.states) or "none"), indent="  "))
             for d in cfg.dependent:
                 out.extend(_wrap(d, indent="    "))
+        if cfg.note:
+            out.extend(_wrap(cfg.note, indent="  "))
         if not cfg.modes:
             out.append("  no dynamic states in this configuration")
             continue
@@ -138,6 +140,7 @@ def modes_json(configurations: Sequence[Any]) -> list[dict[str, Any]]:
             "cause": cfg.cause,
             "states": None if cfg.states is None else list(cfg.states),
             "held_or_tied": list(cfg.dependent),
+            "note": cfg.note,
             "modes": rows,
         })
     return out

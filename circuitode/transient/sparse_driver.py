@@ -22,13 +22,16 @@ from ..model import SourceBank
 from ..model.run_settings import check_windows
 from .window_integrals import window_marks
 
-__all__ = ["SPARSE_STATES", "SPARSE_METHODS", "STATE_ROWS_LIMIT", "sparse_choice", "simulate_sparse"]
+__all__ = ["SPARSE_STATES", "SPARSE_METHODS", "REDUCED_METHODS", "STATE_ROWS_LIMIT", "sparse_choice", "simulate_sparse"]
 
 #: ``auto`` takes the sparse path above this many states (the dense exact method's cost
 #: grows as n³; at 1,000 states it already takes seconds, see bench/ladder_scaling.py).
 SPARSE_STATES = 500
-#: The sparse path's integrators by name.
+#: The sparse path's own integrators by name (any size).
 SPARSE_METHODS = ("trapezoidal", "trbdf2")
+#: Methods that also run on the sparse path above SPARSE_STATES, on the reduced sparse matrix
+#: (exact by expm_multiply; scipy's steppers, BDF and Radau with it as sparse Jacobian).
+REDUCED_METHODS = ("exact", "rk45", "dop853", "bdf", "radau")
 #: States are kept in the Waveforms only when rows × states stays below this (8 bytes each).
 STATE_ROWS_LIMIT = 20_000_000
 
@@ -41,7 +44,8 @@ def sparse_choice(circuit, method: str) -> tuple[str, str] | None:
     """
     n = len(circuit.state_names)
     thresholds = [s.name for s in circuit.switches if isinstance(s.control, (ThresholdRule, DiodeRule))]
-    wanted = method in SPARSE_METHODS or (method == "auto" and n > SPARSE_STATES and not thresholds)
+    wanted = method in SPARSE_METHODS or (method in ("auto",) + REDUCED_METHODS and n > SPARSE_STATES
+                                          and not thresholds)
     if not wanted:  # the common case: no configuration is enumerated for a dense run
         return None
     held = _held_states(circuit)
@@ -58,6 +62,9 @@ def sparse_choice(circuit, method: str) -> tuple[str, str] | None:
                 f"method {method} does not locate threshold instants, and switch(es) "
                 f"{', '.join(thresholds)} act on a threshold; use method exact, radau or bdf")
         return method, f"{method}: chosen by the user (sparse descriptor equations, {n} states)"
+    if method in REDUCED_METHODS:
+        return method, (f"{method}: chosen by the user; {n} states is above {SPARSE_STATES}, so on the "
+                        "reduced sparse equations (no dense matrix)")
     return "auto", (f"{n} states is above {SPARSE_STATES}, so the equations stay sparse "
                     "(descriptor form) and no dense eigenvalues are computed")
 
@@ -79,32 +86,32 @@ def _held_states(circuit) -> str:
 
 
 def _auto_method(fastest: float | None, until: float, rows: int, size: int, n: int,
-                 budget: float) -> tuple[str, str]:
-    """rk45 or trbdf2 by estimated cost, in sparse solves, and the sentence that says why.
+                 reducible: bool) -> tuple[str, str]:
+    """The sparse method by estimated cost, and the sentence that says why.
 
     rk45's step is held by stability to about 3/|λ|max (Dormand–Prince reaches about
-    −3.3 on the negative real axis, from memory): about until·|λ|max/3 steps of 6 solves
-    of the K = size − n algebraic unknowns.  TR-BDF2 takes at least one step per output
-    row, 2 solves of all ``size`` unknowns each.  rk45 is only considered while its
-    reduced sparse matrix can be formed (n·K ≤ ``budget``): without it every right-hand
-    side is a sparse solve, and on the 40,000-state ladder of bench/ladder_scaling.py that
-    was slower than TR-BDF2 (47 s against 28 s).
+    −3.3 on the negative real axis, from memory): about until·|λ|max/3 steps of 6
+    products with the reduced sparse matrix.  TR-BDF2 takes at least one step per output
+    row, 2 triangular solves of all ``size`` unknowns each (counted as 4 products).  A
+    stiff system goes to BDF with the reduced matrix as sparse Jacobian (adaptive, to
+    rtol) and, when that matrix cannot be formed (``reducible`` False: a connected
+    resistive block too large), to TR-BDF2 at the output step.
     """
     if fastest is None:
         return "trbdf2", "trbdf2: the fastest rate could not be estimated, so an L-stable method"
-    if n * (size - n) > budget:
-        return "trbdf2", (f"trbdf2: too large to form the reduced matrix an explicit method needs "
-                          f"({n} states × {size - n} nodal unknowns > {budget:.0e}); L-stable, order 2, "
-                          f"fixed step = the output step (fastest |λ| ≈ {fastest:.3g} 1/s, sparse "
-                          "Arnoldi estimate, ~1 %)")
-    explicit = 2.0 * until * fastest * (size - n)
-    implicit = 2.0 * rows * size
+    if not reducible:
+        return "trbdf2", ("trbdf2: the reduced sparse matrix an explicit or BDF method needs is too "
+                          "large to form (a large connected block of resistive unknowns); L-stable, "
+                          f"order 2, fixed step = the output step (fastest |λ| ≈ {fastest:.3g} 1/s, "
+                          "sparse Arnoldi estimate, ~1 %)")
+    explicit = 2.0 * until * fastest * n
+    implicit = 8.0 * rows * size
     figures = (f"fastest |λ| ≈ {fastest:.3g} 1/s (sparse Arnoldi estimate, ~1 %), "
-               f"rk45 about {explicit:.3g} and trbdf2 about {implicit:.3g} unknowns solved")
+               f"rk45 about {explicit:.3g} and trbdf2 about {implicit:.3g} unknowns touched")
     if explicit <= implicit:
         return "rk45", f"rk45: not stiff enough to need an implicit method over {until:g} s ({figures})"
-    return "trbdf2", (f"trbdf2: stiff (the stability of an explicit method would cost more; {figures}); "
-                      "L-stable, order 2, fixed step = the output step")
+    return "bdf", (f"bdf: stiff (the stability of an explicit method would cost more; {figures}); "
+                   "scipy's BDF with the reduced sparse matrix as Jacobian, to rtol")
 
 
 def simulate_sparse(circuit, settings, name: str, reason: str, probes=None, rtol: float = 1e-6,
@@ -119,7 +126,9 @@ def simulate_sparse(circuit, settings, name: str, reason: str, probes=None, rtol
 
     from ..equations.sparse_statespace import SparseDescriptorCache
     from ..solvers.descriptor import DescriptorSegment
-    from ..solvers.sparse_explicit import SparseRK45
+    from ..solvers.schur import block_cost
+    from ..solvers.sparse_exact import SparseExact
+    from ..solvers.sparse_explicit import SPARSE_IVP, SparseIVP
     from ..solvers.sparse_spectrum import largest_rate
     from ..solvers.trapezoidal import Trapezoidal
     from ..solvers.trbdf2 import TRBDF2
@@ -140,15 +149,18 @@ def simulate_sparse(circuit, settings, name: str, reason: str, probes=None, rtol
     n, slack = desc.n_states, 1e-12 * s.until
     fastest = largest_rate(desc.E, desc.A, n, tol=1e-2, maxiter=50) if n else 0.0
     if name == "auto":
-        name, why = _auto_method(fastest, s.until, grid.size, desc.size, n, SparseRK45.budget)
+        reducible = block_cost(desc.A[n:, n:], desc.A[n:, :n]) <= SparseIVP.budget
+        name, why = _auto_method(fastest, s.until, grid.size, desc.size, n, reducible)
         reason = f"{why}; {reason} (rate estimated in the configuration at the start)"
     elif fastest is not None:
         reason += f"; fastest |λ| ≈ {fastest:.3g} 1/s at the start (sparse Arnoldi estimate, ~1 %)"
     if name in ("trapezoidal", "trbdf2"):
         integrator = {"trapezoidal": Trapezoidal, "trbdf2": TRBDF2}[name](step=step)
         reason += f", h·|λ| = {step * (fastest or 0.0):.3g}"
+    elif name == "exact":
+        integrator = SparseExact(rtol=rtol, atol=atol)
     else:
-        integrator = SparseRK45(rtol=rtol, atol=atol)
+        integrator = SPARSE_IVP[name](rtol=rtol, atol=atol)
     keep_states = n * grid.size <= STATE_ROWS_LIMIT
     if not keep_states:
         warnings += (f"note: the {n} states are not kept per output row ({grid.size} rows would need "
