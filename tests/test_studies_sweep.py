@@ -179,3 +179,20 @@ def test_a_parameter_that_feeds_nothing_is_refused(tmp_path):
     path.write_text(RC.replace("param C = 1 uF", "param C = 1 uF\nparam tau = R * C"), encoding="utf-8")
     with pytest.raises(CircuitodeError, match="tau feeds no element value"):
         sweep(path, ["tau=1us,2us"])
+
+
+def test_a_long_title_stays_inside_a_one_panel_sweep_figure(tmp_path):
+    """The title of a one-panel sweep (5.2 in wide) is wrapped, not cut at both edges
+    (the reactor example's 'Line reactor switched onto 230 V mains: filled points …' was)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    path = tmp_path / "long.cnet"
+    path.write_text(RC.replace('"RC charge"', '"Line reactor switched onto 230 V mains, long title"'),
+                    encoding="utf-8")
+    figure = sweep(path, ["R=10Ω..40Ω/3"]).plot()
+    canvas = FigureCanvasAgg(figure)
+    canvas.draw()
+    title = figure._suptitle
+    box = title.get_window_extent(renderer=canvas.get_renderer())
+    assert "\n" in title.get_text()
+    assert box.x0 >= 0 and box.x1 <= figure.bbox.width

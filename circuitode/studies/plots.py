@@ -61,6 +61,14 @@ def _figure(rows: int, cols: int):
     return fig, axes
 
 
+def _suptitle(fig, text: str) -> None:
+    """The figure's title, wrapped to the figure's width (a one-panel sweep is 5.2 in wide)."""
+    import textwrap
+
+    width = max(20, int(fig.get_figwidth() * 11))  # characters of 10 pt text per inch, with margin
+    fig.suptitle(textwrap.fill(text, width=width), fontsize=10)
+
+
 def _log_axis(axis) -> None:
     """Log scale with plain tick labels at 1, 2, 5 × 10^n (no crowded minor labels)."""
     from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
@@ -143,7 +151,7 @@ def _lines(result: Any):
             _tidy(ax)
             if row == 0 and col == 0 and (second is not None or req is not None):
                 ax.legend(fontsize=7, frameon=False)
-    fig.suptitle(f"{result.title}: filled points meet every requirement", fontsize=10)
+    _suptitle(fig, f"{result.title}: filled points meet every requirement")
     return fig
 
 
@@ -191,5 +199,5 @@ def _contours(result: Any):
         ax.set_title(_title(j, req, result), fontsize=9)
     for n in range(len(panels), rows * cols):
         grid[n // cols][n % cols].set_visible(False)
-    fig.suptitle(f"{result.title}: red line = limit, hatched = meets every requirement", fontsize=10)
+    _suptitle(fig, f"{result.title}: red line = limit, hatched = meets every requirement")
     return fig
