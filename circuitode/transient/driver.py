@@ -21,7 +21,7 @@ from typing import Sequence
 
 import numpy as np
 
-from ..model import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from ..model import (AngleSchedule, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from ..model.configurations import reachable_configurations
 from ..errors import CircuitodeError, NoSteadyStateError
@@ -209,6 +209,10 @@ def _threshold_reason(sw: Switch, closed: bool) -> str:
 
 
 def _schedule_reason(sw: Switch) -> str:
+    c = sw.control
+    if isinstance(c, AngleSchedule):  # not "its timed schedule": the user wrote an angle
+        verb = "closes" if c.changes[0][1] else "opens"
+        return f"{sw.name} {verb} on angle {np.degrees(c.angle):.6g} deg of {c.source}"
     kind = "periodic" if isinstance(sw.control, PeriodicSchedule) else "timed"
     return f"{sw.name} follows its {kind} schedule"
 
