@@ -196,3 +196,17 @@ def test_a_long_title_stays_inside_a_one_panel_sweep_figure(tmp_path):
     box = title.get_window_extent(renderer=canvas.get_renderer())
     assert "\n" in title.get_text()
     assert box.x0 >= 0 and box.x1 <= figure.bbox.width
+
+
+def test_sweep_and_size_text_fit_80_columns(rc, tmp_path, capsys):
+    """The grid line of a two-name sweep (94 columns here) and the 'searched …' line of size
+    (98 for the README's sizing) went past 80 columns; they wrap under their indent."""
+    assert main(["sweep", str(rc), "--vary", "R=10Ω..40Ω/4/log", "--vary", "C=1uF,2uF",
+                 "--out", str(tmp_path / "s"), "--no-plots"]) == 0
+    swept = capsys.readouterr().out
+    assert main(["size", str(rc), "--part", "R", "--range", "1Ω..1kΩ", "--points", "9"]) == 0
+    sized = capsys.readouterr().out
+    for text in (swept, sized):
+        assert max(len(line) for line in text.splitlines()) <= 80
+    assert "sweep: 8 points (R 4 values 10 Ω to 40 Ω (log) × C 2 values 1 µF to 2 µF)," in " ".join(
+        line.strip() for line in swept.splitlines())
