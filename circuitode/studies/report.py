@@ -98,7 +98,7 @@ def size_text(result: Any, path: str | None = None) -> str:
     u = result.unit
     low, high = result.searched
     out = [*heading_lines(f"sizing {result.part}: {result.title}", path),
-           f"searched {format_si(low, u)} to {format_si(high, u)}: {result.grid.size} values swept as one batch, "
+           f"searched {format_value(low, u)} to {format_value(high, u)}: {result.grid.size} values swept as one batch, "
            f"sign changes refined by brentq; {result.evaluations} runs in all", ""]
     if not result.intervals and result.yield_details is not None:
         out.append(f"no value of {result.part} in this range reaches a yield of "
@@ -119,10 +119,10 @@ def size_text(result: Any, path: str | None = None) -> str:
     for k, iv in enumerate(result.intervals):
         what = (f"at least {100 * details['target']:g} % of the samples meet every requirement" if details
                 else "every requirement holds")
-        out.append(f"{what} for {result.part} from {format_si(iv.low, u)} to {format_si(iv.high, u)}")
+        out.append(f"{what} for {result.part} from {format_value(iv.low, u)} to {format_value(iv.high, u)}")
         for side, (end, value, limit) in enumerate((("lower", iv.low, iv.low_limit), ("upper", iv.high, iv.high_limit))):
             reason = f"set by {limit_words(limit)}" if limit is not None else "end of the searched range"
-            out.append(f"  {end} end {format_si(value, u)}: {reason}")
+            out.append(f"  {end} end {format_value(value, u)}: {reason}")
             if details is not None:
                 estimate, low_y, high_y = details["ends"][details["inside_ends"][k][side]]
                 out.append(f"    yield there {100 * estimate:.1f} % (95 % Wilson interval {100 * low_y:.1f} to "
@@ -132,7 +132,7 @@ def size_text(result: Any, path: str | None = None) -> str:
         out += ["", f"preferred values (IEC 60063){band} inside:"]
         for k, iv in enumerate(result.intervals):
             if len(result.intervals) > 1:
-                out.append(f"  {format_si(iv.low, u)} to {format_si(iv.high, u)}:")
+                out.append(f"  {format_value(iv.low, u)} to {format_value(iv.high, u)}:")
             pad = "    " if len(result.intervals) > 1 else "  "
             for series, per_interval in result.preferred.items():
                 values = per_interval[k]
