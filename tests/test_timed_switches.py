@@ -59,6 +59,15 @@ def test_a_run_lists_the_closing_by_its_angle():
     assert event.time == pytest.approx(1e-3 + 20e-3 / 6, rel=1e-12)
 
 
+@pytest.mark.parametrize("argv", [["run", "--set", "K1.angle=30", "--no-plots"],
+                                  ["sweep", "--vary", "K1.angle=0..360/5", "--no-plots"]])
+def test_a_bare_angle_on_the_command_line_is_exit_2(argv, tmp_path, capsys):
+    path = tmp_path / "angle.cnet"
+    path.write_text(ANGLE.format(angle="90 deg", start=""), encoding="utf-8")
+    assert main([argv[0], str(path), *argv[1:], "--out", str(tmp_path / "out")]) == 2
+    assert "is an angle and needs its unit" in capsys.readouterr().err
+
+
 def test_angle_and_instant_are_parts_to_set_and_vary():
     c = loads(ANGLE.format(angle="90 deg", start=""))
     assert "K1.angle" in part_names(c)
