@@ -44,6 +44,12 @@ CASES = [
     (BASE + "switch K a -- b closes at 2 ms opens at 1 ms", 5, 41, r"times must increase", None),
     (BASE + "switch K a -- b opens when power in R1 > 3 W", 5, 28, r"cannot watch a power", None),
     (BASE + "switch K a -- b toggles every 1 ms duty 140 %", 5, 41, r"duty must lie strictly between", None),
+    # a word after a name ending in a digit (R1) is no unit: it said "unknown unit 'between'"
+    (BASE + "require peak current through R1 between 1 ms and 2 ms < 1 A", 5, 33,
+     r"unexpected 'between'; expected a window", r"'from A to B', 'after A' or 'before B'"),
+    (BASE + "require peak current through R1 form 1 ms to 2 ms < 1 A", 5, 33,
+     r"unexpected 'form'; expected a window", r"'from A to B'"),
+    (BASE + "resistor R2 a -- b 10ohmz", 5, 22, r"unknown unit 'ohmz'", None),
     # a period ≤ 0 s gave no end of toggle instants: `run` looped for ever (-1 ms) or failed inside (0 s)
     (BASE + "switch K a -- b toggles every -1 ms duty 40 %", 5, 31, r"toggling period must be positive", None),
     (BASE + "switch K a -- b toggles every 0 s duty 40 %", 5, 31, r"toggling period must be positive", None),
