@@ -303,6 +303,9 @@ def parse_quantity(text: str, expected_unit: str | None = None, what: str = "the
         raise NetlistError(f"'{text}' is not a quantity", hint="write a number with an optional unit, e.g. 47 Ω, 4k7 or 100 µF")
     sign, number, unit = m.groups()
     q = read_quantity(number, unit)
+    if expected_unit == "rad" and not q.unit:  # as in a netlist: a bare 30 would be 30 rad = 1719 deg
+        raise NetlistError(f"{what} is an angle and needs its unit",
+                           hint="write it in degrees (deg) or radians (rad), e.g. 90deg")
     check_unit(q.unit, expected_unit, what)
     return -q.value if sign == "-" else q.value
 

@@ -318,3 +318,16 @@ def test_check_loads_no_scipy_and_no_plotting(tmp_path):
                           env={"PYTHONPATH": str(ROOT), "PATH": "/usr/bin:/bin", "HOME": str(tmp_path)})
     assert done.returncode == 0, done.stderr
     assert done.stdout.strip().splitlines()[-1] == "[]"
+
+
+@pytest.mark.parametrize("command", ["check", "run", "modes"])
+def test_a_long_heading_keeps_the_file_name_within_80_columns(command, tmp_path, monkeypatch, capsys):
+    """check printed "title  (path)" 86 columns wide for the filter example; run and modes cut
+    the file name ("(netlists/filter_damping_rela…"). Now the path goes on its own line."""
+    monkeypatch.chdir(ROOT)
+    netlist = "netlists/filter_damping_relay.cnet"
+    argv = [command, netlist] + (["--out", str(tmp_path), "--no-plots"] if command == "run" else [])
+    assert main(argv) == 0
+    lines = capsys.readouterr().out.splitlines()
+    assert lines[:2] == ["input filter, damping relay opens after power-up", f"({netlist})"]
+    assert all(len(line) <= 80 for line in lines)

@@ -44,6 +44,15 @@ CASES = [
     (BASE + "switch K a -- b closes at 2 ms opens at 1 ms", 5, 41, r"times must increase", None),
     (BASE + "switch K a -- b opens when power in R1 > 3 W", 5, 28, r"cannot watch a power", None),
     (BASE + "switch K a -- b toggles every 1 ms duty 140 %", 5, 41, r"duty must lie strictly between", None),
+    # a word after a name ending in a digit (R1) is no unit: it said "unknown unit 'between'"
+    (BASE + "require peak current through R1 between 1 ms and 2 ms < 1 A", 5, 33,
+     r"unexpected 'between'; expected a window", r"'from A to B', 'after A' or 'before B'"),
+    (BASE + "require peak current through R1 form 1 ms to 2 ms < 1 A", 5, 33,
+     r"unexpected 'form'; expected a window", r"'from A to B'"),
+    (BASE + "resistor R2 a -- b 10ohmz", 5, 22, r"unknown unit 'ohmz'", None),
+    # a period ≤ 0 s gave no end of toggle instants: `run` looped for ever (-1 ms) or failed inside (0 s)
+    (BASE + "switch K a -- b toggles every -1 ms duty 40 %", 5, 31, r"toggling period must be positive", None),
+    (BASE + "switch K a -- b toggles every 0 s duty 40 %", 5, 31, r"toggling period must be positive", None),
     # point-on-wave closing: the angle of a sine source, in degrees or radians
     (BASE + "switch K a -- b closes on angle 90 deg of V1", 5, 43, r"closes on an angle of 'V1', which is not a sine source",
      r"declare a 'sine' source"),
@@ -236,3 +245,15 @@ def test_toggling_switch_former_words_point_to_the_pulses_words():
         with pytest.raises(NetlistError) as caught:
             loads(text)
         assert f"did you mean '{successor}'" in str(caught.value)
+
+
+def test_run_of_a_toggling_switch_without_a_positive_period_is_exit_2(tmp_path, capsys):
+    """`run` refuses it at its place before any work (it used to loop for ever in the bounds check)."""
+    from circuitode.cli import main
+
+    path = tmp_path / "toggle.cnet"
+    path.write_text(BASE + "switch K a -- b toggles every -10 us duty 40 %\ntransient until 1 ms step 1 us\n",
+                    encoding="utf-8")
+    assert main(["run", str(path), "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert "toggle.cnet:5:31: error: a toggling period must be positive" in err and "Traceback" not in err

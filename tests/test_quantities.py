@@ -116,6 +116,15 @@ def test_degrees_become_radians():
     assert parse_quantity("1 rad", "rad") == 1.0
 
 
+def test_an_angle_given_without_its_unit_is_refused():
+    """A netlist refuses a bare closing angle; --set and --vary read '30' as 30 rad (1719 deg)
+    until they did the same."""
+    with pytest.raises(NetlistError, match="needs its unit") as info:
+        parse_quantity("30", "rad", "the value given for 'K_on.angle'")
+    assert "deg" in info.value.hint
+    assert parse_quantity("30", "Ω") == 30.0  # other units still take a bare number as SI
+
+
 def test_wrong_kind_of_unit_names_the_expected_unit():
     with pytest.raises(NetlistError) as info:
         parse_quantity("1 H", "F", "a capacitor's value")

@@ -204,3 +204,18 @@ def test_yield_refuses_to_drop_a_tolerance_the_part_was_written_with(tmp_path):
     text = RC.replace("param R = 10 Ω", "param R = 10 Ω ± 5 %").replace("out R ± 5 %", "out R")
     with pytest.raises(CircuitodeError, match="tolerance of R reaches no element once R1 is sized"):
         size(_file(tmp_path, text), "R1", "1Ω..1kΩ", yield_target=0.9, yield_samples=50)
+
+
+def test_a_closing_angle_is_sized_and_printed_in_degrees(capsys):
+    """size printed an angle in rad ("searched 0 rad to 3.142 rad") where sweep and --set use
+    degrees; the ends printed are the interval's own, converted (180/π deg per rad)."""
+    from pathlib import Path
+
+    netlist = Path(__file__).resolve().parents[1] / "netlists" / "reactor_inrush.cnet"
+    fit = size(netlist, "K_on.angle", "0deg..180deg")
+    assert main(["size", str(netlist), "--part", "K_on.angle", "--range", "0deg..180deg"]) == 0
+    text = capsys.readouterr().out
+    assert " rad" not in text and "searched 0 deg to 180 deg" in text
+    low, high = (co.quantities.format_si(math.degrees(v), "deg") for v in
+                 (fit.intervals[0].low, fit.intervals[0].high))
+    assert f"for K_on.angle from {low} to {high}" in text

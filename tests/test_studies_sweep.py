@@ -198,3 +198,34 @@ def test_the_title_of_a_long_named_circuit_stays_inside_the_image(rc, tmp_path, 
     assert title and "wirewound" in figure.get_suptitle()
     box, frame = title[0].get_window_extent(canvas.get_renderer()), figure.bbox
     assert frame.x0 <= box.x0 and box.x1 <= frame.x1 and frame.y0 <= box.y0 and box.y1 <= frame.y1
+
+
+def test_a_long_title_stays_inside_a_one_panel_sweep_figure(tmp_path):
+    """The title of a one-panel sweep (5.2 in wide) is wrapped, not cut at both edges
+    (the reactor example's 'Line reactor switched onto 230 V mains: filled points …' was)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    path = tmp_path / "long.cnet"
+    path.write_text(RC.replace('"RC charge"', '"Line reactor switched onto 230 V mains, long title"'),
+                    encoding="utf-8")
+    figure = sweep(path, ["R=10Ω..40Ω/3"]).plot()
+    canvas = FigureCanvasAgg(figure)
+    canvas.draw()
+    title = figure._suptitle
+    box = title.get_window_extent(renderer=canvas.get_renderer())
+    assert "\n" in title.get_text()
+    assert box.x0 >= 0 and box.x1 <= figure.bbox.width
+
+
+def test_sweep_and_size_text_fit_80_columns(rc, tmp_path, capsys):
+    """The grid line of a two-name sweep (94 columns here) and the 'searched …' line of size
+    (98 for the README's sizing) went past 80 columns; they wrap under their indent."""
+    assert main(["sweep", str(rc), "--vary", "R=10Ω..40Ω/4/log", "--vary", "C=1uF,2uF",
+                 "--out", str(tmp_path / "s"), "--no-plots"]) == 0
+    swept = capsys.readouterr().out
+    assert main(["size", str(rc), "--part", "R", "--range", "1Ω..1kΩ", "--points", "9"]) == 0
+    sized = capsys.readouterr().out
+    for text in (swept, sized):
+        assert max(len(line) for line in text.splitlines()) <= 80
+    assert "sweep: 8 points (R 4 values 10 Ω to 40 Ω (log) × C 2 values 1 µF to 2 µF)," in " ".join(
+        line.strip() for line in swept.splitlines())

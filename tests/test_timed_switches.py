@@ -50,6 +50,24 @@ def test_the_closing_instant_is_the_first_at_that_angle(angle, start, expected):
     assert wave.value(t) == pytest.approx(10.0 * math.sin(a), abs=1e-9)
 
 
+def test_a_run_lists_the_closing_by_its_angle():
+    """The event names the angle the user wrote (it said "follows its timed schedule"), at the
+    instant of the first parametrised case (1 ms + 20 ms/6 = 4.333 ms)."""
+    waves = co.simulate(loads(ANGLE.format(angle="90 deg", start="")))
+    (event,) = [e for e in waves.events if e.switch == "K1"]
+    assert event.reason == "K1 closes on angle 90 deg of Vs"
+    assert event.time == pytest.approx(1e-3 + 20e-3 / 6, rel=1e-12)
+
+
+@pytest.mark.parametrize("argv", [["run", "--set", "K1.angle=30", "--no-plots"],
+                                  ["sweep", "--vary", "K1.angle=0..360/5", "--no-plots"]])
+def test_a_bare_angle_on_the_command_line_is_exit_2(argv, tmp_path, capsys):
+    path = tmp_path / "angle.cnet"
+    path.write_text(ANGLE.format(angle="90 deg", start=""), encoding="utf-8")
+    assert main([argv[0], str(path), *argv[1:], "--out", str(tmp_path / "out")]) == 2
+    assert "is an angle and needs its unit" in capsys.readouterr().err
+
+
 def test_angle_and_instant_are_parts_to_set_and_vary():
     c = loads(ANGLE.format(angle="90 deg", start=""))
     assert "K1.angle" in part_names(c)

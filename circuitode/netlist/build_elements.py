@@ -158,6 +158,10 @@ class ElementStatements(ValueResolver):
                 field = next(f for f in c.fields if f.name == "duty")
                 raise NetlistError("the duty must lie strictly between 0 % and 100 %", field.value.where,
                                    "write e.g. 'duty 40 %'")
+            if not (kw["period"] > 0.0 and math.isfinite(kw["period"])):  # else no toggle instants end
+                field = next(f for f in c.fields if f.name == "every")
+                raise NetlistError(f"a toggling period must be positive (got {kw['period']:g} s)",
+                                   field.value.where, "write e.g. 'toggles every 20 us duty 40 %'")
             control = cm.PeriodicSchedule(kw["period"], kw["duty"], kw["start"])
         else:
             probe = self.probe(c.probe, "a switch rule")

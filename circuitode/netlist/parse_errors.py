@@ -186,7 +186,9 @@ def syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistEr
     if word and re.search(r"%[ \t]*$", before) and word.isidentifier():
         return NetlistError(f"unknown distribution '{word}'", where,
                             "a tolerance's distribution is 'normal' or 'uniform' (or leave it out for normal)")
-    if word and re.search(r"\d[ \t]*$", before) and (word[0].isalpha() or word[0] in "%°"):
+    last = before.split()[-1] if before.split() else ""  # a number's last digit, not a name's (R1)
+    if word and re.search(r"\d[ \t]*$", before) and last[:1] in "0123456789." and (
+            word[0].isalpha() or word[0] in "%°"):
         try:
             split_unit(word)
         except NetlistError as unit_err:
@@ -201,7 +203,8 @@ def syntax_error(err: UnexpectedInput, file: str, lines: list[str]) -> NetlistEr
     if len(wanted.split(", ")) > 4:  # a list this long (merged parser states) would not help
         return NetlistError(f"unexpected '{shown}' here", where,
                             "check the spelling and the order of the words against docs/language.md")
-    return NetlistError(f"unexpected '{shown}'; expected {wanted}", where)
+    hint = "a window is 'from A to B', 'after A' or 'before B'" if "a window" in wanted else None
+    return NetlistError(f"unexpected '{shown}'; expected {wanted}", where, hint)
 
 
 def too_deep(file: str, lines: list[str]) -> NetlistError:

@@ -14,7 +14,7 @@ from typing import Any, Sequence
 
 from ..quantities import format_si
 
-__all__ = ["modes_text", "mode_words", "modes_json", "write_modes_json", "zeta_words", "q_words"]
+__all__ = ["heading_lines", "modes_text", "mode_words", "modes_json", "write_modes_json", "zeta_words", "q_words"]
 
 WIDTH = 80
 #: Least participation for a state to be named as forming a mode.
@@ -25,6 +25,16 @@ _SHORT_KIND = {"aperiodic (first-order)": "first-order decay"}
 
 def _fit(text: str, width: int) -> str:
     return text if len(text) <= width else text[: width - 1] + "…"
+
+
+def heading_lines(title: str, path: str | None) -> list[str]:
+    """The heading of check, run and modes: "title  (path)" when it fits 80 columns, else the
+    path on a line of its own, cut at its start if need be (its file name is what tells)."""
+    line = title + (f"  ({path})" if path else "")
+    if len(line) <= WIDTH or not path:
+        return [_fit(line, WIDTH)]
+    shown = path if len(path) + 2 <= WIDTH else "…" + path[-(WIDTH - 3):]
+    return [_fit(title, WIDTH), f"({shown})"]
 
 
 def _wrap(text: str, indent: str) -> list[str]:
@@ -95,7 +105,7 @@ def modes_text(configurations: Sequence[Any], path: str | None = None, title: st
     """
     out = []
     if title or path:
-        out.append(_fit(f"{title}" + (f"  ({path})" if path else ""), WIDTH))
+        out.extend(heading_lines(title, path))
     for cfg in configurations:
         out.append("")
         when = "" if math.isnan(cfg.first_time) else f" from {format_si(cfg.first_time, 's')}"

@@ -153,6 +153,10 @@ def _values(t: np.ndarray, y: Any) -> np.ndarray:
 def _draw_panel(ax: Any, t: np.ndarray, tf: float, curves, unit: str, word: str, peaks: bool) -> None:
     values = [(label, _values(t, y)) for label, y in curves]
     yf, yp = si_scale(np.concatenate([v for _, v in values]) if values else np.zeros(1))
+    marked: list[tuple[float, float]] = []  # peaks labelled so far, as shares of the time and value spans
+    span_t = float(np.ptp(t)) or 1.0
+    finite = np.concatenate([v[np.isfinite(v)] for _, v in values]) if values else np.zeros(1)
+    span_y = float(np.ptp(finite)) if finite.size and np.ptp(finite) > 0 else 1.0
     for i, (label, y) in enumerate(values):
         color = _PALETTE[i % len(_PALETTE)]
         ax.plot(t * tf, y * yf, color=color, lw=1.4, label=label)
@@ -161,7 +165,12 @@ def _draw_panel(ax: Any, t: np.ndarray, tf: float, curves, unit: str, word: str,
         k = int(np.nanargmax(np.abs(y))) if y.size else 0
         if y.size and np.isfinite(y[k]) and y[k] != 0:
             ax.plot(t[k] * tf, y[k] * yf, "o", ms=4.5, color=color, mec="white", mew=0.8, zorder=5)
-            ax.annotate(format_si(y[k], unit, 3), (t[k] * tf, y[k] * yf), xytext=(6, 6 if y[k] > 0 else -12),
+            here = (t[k] / span_t, y[k] / span_y)  # peaks close together get their labels stacked, not overlaid
+            near = sum(abs(here[0] - a) < 0.12 and abs(here[1] - b) < 0.1 for a, b in marked)
+            marked.append(here)
+            step = 11 * near
+            ax.annotate(format_si(y[k], unit, 3), (t[k] * tf, y[k] * yf),
+                        xytext=(6, 6 + step if y[k] > 0 else -12 - step),
                         textcoords="offset points", fontsize=8, color=color)
     ax.set_ylabel(f"{word} [{yp}{unit}]")
     ax.margins(x=0, y=0.14)
@@ -185,6 +194,7 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
     yf = getattr(ax, "_circuitode_scale", 1.0)
     low, high = ax.get_ylim()
     notes = []
+    labelled: list[float] = []  # levels whose label sits on their line
     for r in results:
         req = r.requirement
         verdict = "pass" if r.passed else "FAIL"
@@ -210,6 +220,10 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
                 if req.figure == "peak" and low < -0.5 * level:  # a peak is of the magnitude: both signs
                     ax.hlines(-level, x0, x1, color=color, lw=1.3, ls="--") if windowed else \
                         ax.axhline(-level, color=color, lw=1.3, ls="--")
+                if any(abs(level - other) < 0.07 * span for other in labelled):  # labels would overlap
+                    notes.append((words, color))
+                    continue
+                labelled.append(level)
                 # an upper limit is labelled above its line, a lower one below, on the side the data must avoid
                 ax.text(0.99, level, words + " ", transform=transforms.blended_transform_factory(
                     ax.transAxes, ax.transData), fontsize=7, color=color, ha="right",

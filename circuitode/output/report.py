@@ -33,7 +33,7 @@ from ..analysis.idle_switches import idle_switches
 from ..analysis.measure import figure_unit
 from ..analysis.resolution import resolution_warnings
 from ..quantities import format_si, format_value
-from .mode_table import modes_text  # noqa: F401 - the modes table lives in its own module
+from .mode_table import heading_lines, modes_text  # noqa: F401 - the modes table lives in its own module
 
 __all__ = [
     "SAFETY_LINE",
@@ -225,7 +225,7 @@ def check_text(circuit: Circuit, diagnostics: Sequence[Any], path: str | None = 
                configurations: Sequence[Any] = ()) -> str:
     """The printed summary of ``circuitode check``: nodes, elements, states, switches, findings;
     ``configurations`` (ConfigurationStates) adds each configuration's own states."""
-    out = [f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else "")]
+    out = heading_lines(circuit.title or "untitled circuit", path)
     out.append(f"nodes ({len(circuit.nodes)}): " + ", ".join(
         f"{n} (ground)" if n == circuit.ground else n for n in circuit.nodes))
     out[-1:] = _wrap(out[-1], indent="", width=WIDTH)
@@ -408,7 +408,7 @@ def run_text(
     path: str | None = None,
 ) -> str:
     """The printed summary of ``circuitode run``, at most 80 columns wide."""
-    out = [_fit(f"{circuit.title or 'untitled circuit'}" + (f"  ({path})" if path else ""), WIDTH)]
+    out = heading_lines(circuit.title or "untitled circuit", path)
     reason = waveforms.method_reason
     if reason.startswith(f"{waveforms.method}: "):
         reason = reason[len(waveforms.method) + 2:]

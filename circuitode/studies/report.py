@@ -7,7 +7,7 @@ import numpy as np
 
 from ..analysis.measure import figure_unit
 from ..quantities import format_si, format_value
-from ..output.report import requirement_words
+from ..output.report import heading_lines, requirement_words
 
 __all__ = ["limit_words", "sweep_text", "size_text", "worst_lines"]
 
@@ -38,15 +38,26 @@ def worst_lines(result: Any) -> list[str]:
     return out
 
 
-def _head(title: str, path: str | None) -> str:
-    return f"{title}  ({path})" if path else title
+def _within_80(lines: list[str]) -> str:
+    """The lines joined, each wider than 80 columns wrapped under its own indent plus two."""
+    import textwrap
+
+    out: list[str] = []
+    for line in lines:
+        if len(line) <= 80:
+            out.append(line)
+            continue
+        indent = line[: len(line) - len(line.lstrip())]
+        out += textwrap.wrap(line, width=80, subsequent_indent=indent + "  ", break_on_hyphens=False,
+                             break_long_words=False)
+    return "\n".join(out)
 
 
 def sweep_text(result: Any, path: str | None = None) -> str:
     """Summary of a sweep: the grid, how many points meet each requirement, where they lie, files."""
     n = result.points.shape[0]
     good = result.all_pass
-    out = [_head(result.title, path)]
+    out = heading_lines(result.title, path)
     grid = " × ".join(f"{a.name} {a.values.size} values {format_value(a.values.min(), a.unit)} to "
                       f"{format_value(a.values.max(), a.unit)}{' (log)' if a.log else ''}" for a in result.axes)
     out += [f"sweep: {n} points ({grid}), through the batch engine", ""]
@@ -71,7 +82,7 @@ def sweep_text(result: Any, path: str | None = None) -> str:
     out += worst_lines(result)
     if result.files:
         out += ["", "files:"] + [f"  {name:<9} {p}" for name, p in result.files.items()]
-    return "\n".join(out)
+    return _within_80(out)
 
 
 def _values(values: Sequence[float], unit: str, most: int = 8) -> str:
@@ -86,20 +97,20 @@ def size_text(result: Any, path: str | None = None) -> str:
     """The interval(s), the limiting requirement at each end, and the E12/E24 values inside."""
     u = result.unit
     low, high = result.searched
-    out = [_head(f"sizing {result.part}: {result.title}", path),
-           f"searched {format_si(low, u)} to {format_si(high, u)}: {result.grid.size} values swept as one batch, "
+    out = [*heading_lines(f"sizing {result.part}: {result.title}", path),
+           f"searched {format_value(low, u)} to {format_value(high, u)}: {result.grid.size} values swept as one batch, "
            f"sign changes refined by brentq; {result.evaluations} runs in all", ""]
     if not result.intervals and result.yield_details is not None:
         out.append(f"no value of {result.part} in this range reaches a yield of "
                    f"{100 * result.yield_target:g} % over {result.yield_details['samples']} samples")
-        return "\n".join(out)
+        return _within_80(out)
     if not result.intervals:
         out.append(f"no value of {result.part} in this range meets every requirement")
         for i, req in enumerate(result.requirements):
             m = result.grid_margins[:, i]
             met = int(np.sum(m > 0))
             out.append(f"  met at {met:>3} of {m.size} swept values: {limit_words(req)}")
-        return "\n".join(out)
+        return _within_80(out)
     details = result.yield_details
     if details is not None:
         names = ", ".join(details["names"])
@@ -108,10 +119,10 @@ def size_text(result: Any, path: str | None = None) -> str:
     for k, iv in enumerate(result.intervals):
         what = (f"at least {100 * details['target']:g} % of the samples meet every requirement" if details
                 else "every requirement holds")
-        out.append(f"{what} for {result.part} from {format_si(iv.low, u)} to {format_si(iv.high, u)}")
+        out.append(f"{what} for {result.part} from {format_value(iv.low, u)} to {format_value(iv.high, u)}")
         for side, (end, value, limit) in enumerate((("lower", iv.low, iv.low_limit), ("upper", iv.high, iv.high_limit))):
             reason = f"set by {limit_words(limit)}" if limit is not None else "end of the searched range"
-            out.append(f"  {end} end {format_si(value, u)}: {reason}")
+            out.append(f"  {end} end {format_value(value, u)}: {reason}")
             if details is not None:
                 estimate, low_y, high_y = details["ends"][details["inside_ends"][k][side]]
                 out.append(f"    yield there {100 * estimate:.1f} % (95 % Wilson interval {100 * low_y:.1f} to "
@@ -121,9 +132,9 @@ def size_text(result: Any, path: str | None = None) -> str:
         out += ["", f"preferred values (IEC 60063){band} inside:"]
         for k, iv in enumerate(result.intervals):
             if len(result.intervals) > 1:
-                out.append(f"  {format_si(iv.low, u)} to {format_si(iv.high, u)}:")
+                out.append(f"  {format_value(iv.low, u)} to {format_value(iv.high, u)}:")
             pad = "    " if len(result.intervals) > 1 else "  "
             for series, per_interval in result.preferred.items():
                 values = per_interval[k]
                 out.append(f"{pad}{series}: {_values(values, u) if len(values) else 'none'}")
-    return "\n".join(out)
+    return _within_80(out)

@@ -21,7 +21,7 @@ from typing import Sequence
 
 import numpy as np
 
-from ..model import (Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
+from ..model import (AngleSchedule, Circuit, CurrentThrough, NodeVoltage, PeriodicSchedule,
                       PowerIn, Switch, ThresholdRule, VoltageAcross)
 from ..model.configurations import reachable_configurations
 from ..errors import CircuitodeError, NoSteadyStateError

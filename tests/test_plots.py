@@ -1,0 +1,42 @@
+"""The run's waveform figure (circuitode.output.plots): what it writes must be legible."""
+from __future__ import annotations
+
+import itertools
+
+from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+from circuitode.jobs.run import run_job
+from circuitode.netlist import loads
+from circuitode.output.plots import waveform_figure
+
+# The resistor and the capacitor carry one current: two peaks (10 V / 10 Ω = 1 A at t = 0,
+# Nilsson & Riedel ch. 7, RC step) at one place, and two limits 4 % of the span apart.
+RC = """
+circuit "two labels at one place"
+ground g
+voltage_source V1 a -- g constant 10 V
+resistor R1 a -- b 10 Ω
+capacitor C1 b -- g 1 uF initial 0 V
+transient until 50 us step 50 ns method exact
+record current through R1, current through C1
+require peak current through R1 < 1.2 A
+require peak current through C1 < 1.25 A
+"""
+
+
+def test_peak_and_limit_labels_at_one_place_do_not_overlap():
+    """The bridge example's two limits (80 A and 75 A) and two peaks (69.15 A and 68.18 A at
+    5 ms) were printed over each other; labels near each other are now stacked."""
+    result = run_job(loads(RC), with_modes=False)
+    assert [r.passed for r in result.limits] == [True, True]
+    figure = waveform_figure(result.waveforms, limits=result.limits)
+    canvas = FigureCanvasAgg(figure)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    (panel,) = [ax for ax in figure.axes if ax.get_ylabel().startswith("current")]
+    texts = [t for t in panel.texts if t.get_text().strip()]
+    words = [t.get_text() for t in texts]
+    assert sum("1 A" == w for w in words) == 2 and sum(w.startswith("pass: peak") for w in words) == 2
+    boxes = [t.get_window_extent(renderer=renderer) for t in texts]
+    for (a, wa), (b, wb) in itertools.combinations(zip(boxes, words), 2):
+        assert not a.overlaps(b), f"{wa!r} overlaps {wb!r}"
