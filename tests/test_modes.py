@@ -391,3 +391,21 @@ def test_modes_account_for_every_eigenvalue_once(case):
     assert abs(sum(covered) - np.trace(A)) <= 1e-6 * scale
     for mode in modes:
         assert sum(w for _, w in mode.participation) == pytest.approx(1.0)
+
+
+def test_a_capacitor_without_a_discharge_path_is_integrating_not_growing():
+    """Bridge example, K open and one diode conducting: the bulk capacitor has no path to
+    discharge (λ = 0 exactly).  Eliminating the 20 mΩ diode beside a 470 nF capacitor
+    (1e8 1/s) leaves rounding of about +3e-9 1/s in that configuration's A; it must read as
+    integrating (λ = 0), never as a growing (unstable) mode (a fact of linear algebra: a
+    capacitor with no resistive path holds its voltage)."""
+    from pathlib import Path
+
+    from circuitode.analysis.modes import GROWING, INTEGRATING, circuit_modes
+    from circuitode.netlist import load
+
+    circuit = load(Path(__file__).resolve().parent.parent / "netlists" / "bridge_rectifier.cnet")
+    table = circuit_modes(circuit, circuit.analysis.until)
+    kinds = [m.kind for conf in table for m in conf.modes]
+    assert GROWING not in kinds
+    assert INTEGRATING in kinds

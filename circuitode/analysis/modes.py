@@ -243,6 +243,7 @@ def analyse_modes(
     tolerance: float = 1e-6,
     zero_tolerance: float = 1e-12,
     pair_share: float = 0.02,
+    rounding_scale: float | None = None,
 ) -> tuple[Mode, ...]:
     """Natural modes of ``dx/dt = A x``, lowest natural frequency first.
 
@@ -257,6 +258,9 @@ def analyse_modes(
     zero_tolerance : an eigenvalue with |λ| ≤ zero_tolerance × ‖A‖₁ counts as λ = 0.
     pair_share : least participation of a capacitor and of an inductor for a real
         eigenvalue to belong to an L–C section (see the module text).
+    rounding_scale : 1/s, the size of the terms ``A`` was computed from when larger than
+        ``A`` itself (the stiff conductances eliminated to form a configuration's A leave
+        rounding of their size); the zero test then uses it instead of ‖A‖₁.
 
     Returns
     -------
@@ -283,7 +287,7 @@ def analyse_modes(
         raise ModeAnalysisError(f"{len(state_units)} state units given for a state matrix of {n} states")
     w, shares = _participation(A)
     kinds = _state_kinds(names, state_units)
-    scale = max(float(np.linalg.norm(A, 1)), float(np.max(np.abs(w))))
+    scale = max(float(np.linalg.norm(A, 1)), float(np.max(np.abs(w))), float(rounding_scale or 0.0))
     zero_scale = zero_tolerance * scale
 
     modes: list[Mode] = []
@@ -395,11 +399,17 @@ def circuit_modes(circuit: Any, until: float | None = None, **options: Any) -> l
 
         return sparse_circuit_modes(circuit, until)
     out = []
-    for configuration in reachable_configurations(circuit, until):
-        system = assemble(circuit, configuration.closed)
+    configurations = list(reachable_configurations(circuit, until))
+    systems = [assemble(circuit, configuration.closed) for configuration in configurations]
+    # The zero test on the scale of the stiffest configuration: the same parts (a 20 mΩ diode
+    # beside a 470 nF capacitor: 1e8 1/s) enter every configuration's elimination, and their
+    # rounding (1e8 × 1e-16) is left in a configuration whose own A is small.
+    stiffest = max((float(np.linalg.norm(s.A, 1)) for s in systems), default=0.0)
+    for configuration, system in zip(configurations, systems):
         # the configuration's own free states: held inductor currents and tied
         # capacitor voltages are no modes (see equations.constraints)
-        modes = analyse_modes(system.A_free, system.free_names, state_units=system.free_units, **options)
+        modes = analyse_modes(system.A_free, system.free_names, state_units=system.free_units,
+                              rounding_scale=stiffest, **options)
         out.append(
             ConfigurationModes(
                 closed=tuple(configuration.closed),
