@@ -6,8 +6,11 @@ node, with the resonances found on the curve and their quality factor.
 
 * The solve is vectorised over frequencies: a stack of (n, n) complex systems,
   solved in chunks of :data:`CHUNK_ELEMENTS` matrix entries so that memory stays
-  bounded.  There is no sparse path: a circuit of a few hundred states is solved
-  densely (fine to ~300 states; larger ones are slow).
+  bounded.  Above :data:`circuitode.transient.sparse_driver.SPARSE_STATES` states
+  the curves come from the sparse descriptor equations instead (one sparse LU of
+  ``jωE − A`` per frequency, :mod:`.sparse_response`), and the poles that set the
+  grid and the pole Q are the few found by sparse shift-invert
+  (:mod:`.sparse_modes`): the slowest and the least damped, not all of them.
 * Impedance at a node: the independent sources are set to zero (voltage sources
   short, current sources open) and a test current is injected from ground into
   the node; Z = V(node) / I.  Where a current cannot be injected (the node is in
@@ -39,7 +42,7 @@ from ..model.configurations import reachable_configurations
 from ..model import Dc
 
 __all__ = ["CHUNK_ELEMENTS", "ResponseError", "Resonance", "ResponseCurve", "transfer",
-           "find_resonances", "frequency_grid", "circuit_response"]
+           "find_resonances", "frequency_grid", "grid_from_poles", "circuit_response"]
 
 #: Most complex matrix entries solved at once (bounds memory to ~16 bytes × this).
 CHUNK_ELEMENTS = 4_000_000
@@ -138,6 +141,14 @@ def frequency_grid(matrices, f_min: float | None = None, f_max: float | None = N
     pole (a picosecond time constant of an open switch's leakage) does not
     stretch the plot over twelve decades."""
     lam = np.concatenate([np.linalg.eigvals(np.atleast_2d(A)) if np.size(A) else np.zeros(0) for A in matrices])
+    return grid_from_poles(lam, f_min, f_max, points)
+
+
+def grid_from_poles(lam, f_min: float | None = None, f_max: float | None = None,
+                    points: int = 801) -> np.ndarray:
+    """:func:`frequency_grid` from the poles themselves (1/s, complex), e.g. the few a sparse
+    eigensolver found."""
+    lam = np.asarray(lam, dtype=complex)
     lam = lam[np.abs(lam) > 0]
     ringing = lam[np.abs(lam.imag) > 1e-9 * np.abs(lam)]
     mags = np.abs(ringing if ringing.size else lam) / (2 * np.pi)
@@ -166,16 +177,20 @@ def _half_power_width(f, mag, k, extreme, kind, H_of_f) -> float:
     return float(f2 - f1)
 
 
-def find_resonances(f, H_of_f, A, *, dips: bool = False) -> tuple[Resonance, ...]:
+def find_resonances(f, H_of_f, A, *, dips: bool = False, poles=None) -> tuple[Resonance, ...]:
     """Local maxima (and with ``dips`` minima) of |H| on the grid ``f`` (Hz), refined.
 
-    ``H_of_f`` maps an (F,) array of Hz to (F,) complex values; ``A`` gives the poles.
+    ``H_of_f`` maps an (F,) array of Hz to (F,) complex values; ``A`` gives the poles
+    (or ``poles`` directly, 1/s, when A is not formed: a large circuit's few found poles).
     Extremes at the ends of the grid are not resonances, nor those less prominent
     than :data:`PROMINENCE` (scipy.signal.find_peaks on ln |H|).
     """
     f = np.asarray(f, dtype=float)
     mag = np.abs(H_of_f(f))
-    lam = np.linalg.eigvals(np.atleast_2d(A)) if np.size(A) else np.array([])
+    if poles is not None:
+        lam = np.asarray(poles, dtype=complex)
+    else:
+        lam = np.linalg.eigvals(np.atleast_2d(A)) if np.size(A) else np.array([])
     pairs = lam[lam.imag > 0]
     found = []
     level = np.log(np.maximum(mag, 1e-300))
@@ -257,6 +272,13 @@ def circuit_response(
     if probe is not None and source not in names:
         raise ResponseError(f"--from {source!r}: no independent source of that name; sources: "
                             f"{', '.join(names) or 'none'}")
+    from ..transient.sparse_driver import SPARSE_STATES
+
+    if len(circuit.state_names) > SPARSE_STATES:  # dense (n, n) solves per frequency: O(n³) each
+        from .sparse_response import sparse_circuit_response
+
+        return sparse_circuit_response(circuit, source=source, probe=probe, impedance_at=impedance_at,
+                                       until=until, f_min=f_min, f_max=f_max, points=points)
     curves, problems, found = [], [], []
     for cfg in reachable_configurations(circuit, until):
         words = describe_configuration(circuit, cfg.closed)

@@ -11,6 +11,9 @@ from .plots import _PALETTE
 
 __all__ = ["plot_response"]
 
+#: Relative level below which a computed response is rounding (double precision).
+ROUNDING_FLOOR = 1e-15
+
 
 def plot_response(curves: Sequence, path: Path, *, title: str = "") -> Path:
     """Draw the curves of one quantity (one line per switch configuration).
@@ -25,11 +28,18 @@ def plot_response(curves: Sequence, path: Path, *, title: str = "") -> Path:
     top, bottom = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": (3, 2)})
     unit = curves[0].unit
     in_db = unit in ("V/V", "A/A", "W/W")
+    hidden = False
     for i, cu in enumerate(curves):
         color = _PALETTE[i % len(_PALETTE)]
-        mag = 20 * np.log10(np.maximum(cu.magnitude, 1e-300)) if in_db else cu.magnitude
+        # below 1e-15 of the curve's largest value the computed response is rounding of the
+        # double-precision solve (a ladder far above its cut-off): neither magnitude nor phase
+        # means anything there, so it is not drawn
+        noise = cu.magnitude < ROUNDING_FLOOR * np.max(cu.magnitude)
+        hidden |= bool(noise.any())
+        shown = np.where(noise, np.nan, cu.magnitude)
+        mag = 20 * np.log10(shown) if in_db else shown
         top.plot(cu.frequency_hz, mag, color=color, lw=1.4, label=cu.configuration)
-        bottom.plot(cu.frequency_hz, cu.phase_deg, color=color, lw=1.2)
+        bottom.plot(cu.frequency_hz, np.where(noise, np.nan, cu.phase_deg), color=color, lw=1.2)
         for r in cu.resonances:
             y = 20 * np.log10(r.magnitude) if in_db else r.magnitude
             top.plot(r.frequency_hz, y, "o", ms=5, color=color, mec="white", mew=0.8, zorder=5)
@@ -41,6 +51,9 @@ def plot_response(curves: Sequence, path: Path, *, title: str = "") -> Path:
         top.set_yscale("log")
     top.set_ylabel(f"|{curves[0].label}| [dB]" if in_db else f"|{curves[0].label}| [{unit}]")
     bottom.set_ylabel("phase [°]")
+    if hidden:
+        top.text(0.99, 0.02, "not drawn where |H| < 1e-15 of its largest value (−300 dB): rounding",
+                 transform=top.transAxes, ha="right", va="bottom", fontsize=7, color="#555555")
     bottom.set_xlabel("frequency [Hz]")
     bottom.set_yticks(np.arange(-180, 181, 90))
     for ax in (top, bottom):
