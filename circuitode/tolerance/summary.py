@@ -104,6 +104,36 @@ def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
     return lead + [(first + body).rstrip()]
 
 
+#: What the two driver columns mean, printed above them (≤ 80 columns).
+DRIVER_WORDS = ("strongest driver of each figure: η² = share of the figure's variance the part\n"
+                "explains alone (sees a rise-and-fall too), ρ = Spearman rank correlation (+: the\n"
+                "figure rises with the part; near 0 when it rises then falls)")
+
+
+def _driver_lines(result, levels: dict) -> list[str]:
+    """The driver table: per figure the part with the largest η², its η² and its ρ."""
+    lines = DRIVER_WORDS.split("\n") + [f"  {'figure':<46}{'part':<18}{'η²':>5}{'ρ':>7}"]
+    for (key, drivers), s, unit in zip(result.sensitivity.items(), result.summaries.values(), result.figure_units):
+        label = figure_label(key)
+        if len(label) > 45:
+            lines.append(f"  {label}")
+            label = ""
+        state = _state(s, unit, levels.get(key[1], 0.0))
+        if state in ("fixed", "rounding", "zero"):
+            lines.append(f"  {label:<46}does not vary")
+        elif state == "absurd":
+            lines.append(f"  {label:<46}not a step response")
+        elif state == "missing":
+            lines.append(f"  {label:<46}no value")
+        elif drivers and (np.isfinite(drivers[0].eta2) or np.isfinite(drivers[0].rho)):
+            d = drivers[0]
+            name = d.parameter  # whole, even when long: a cut name could point at the wrong part
+            cells = f"{d.eta2:5.2f}" + (f"{d.rho:+7.2f}" if np.isfinite(d.rho) else f"{'—':>7}")
+            lines.append(f"  {label:<46}{name:<18}{cells}" if len(name) <= 17
+                         else f"  {label:<46}{name} {cells.lstrip()}")
+    return lines
+
+
 def format_batch_summary(result) -> str:
     """Statistics per figure, yield with its Wilson interval, closest samples, drivers."""
     t = result.samples
@@ -145,23 +175,7 @@ def format_batch_summary(result) -> str:
     else:
         lines.append("yield: no 'require' limits in the netlist")
     lines.append("")
-    lines.append("strongest driver of each figure (Spearman rank correlation):")
-    for (key, drivers), s, unit in zip(result.sensitivity.items(), result.summaries.values(), result.figure_units):
-        label = figure_label(key)
-        if len(label) > 45:
-            lines.append(f"  {label}")
-            label = ""
-        state = _state(s, unit, levels.get(key[1], 0.0))
-        if state in ("fixed", "rounding", "zero"):
-            lines.append(f"  {label:<46}does not vary")
-        elif state == "absurd":
-            lines.append(f"  {label:<46}not a step response")
-        elif state == "missing":
-            lines.append(f"  {label:<46}no value")
-        elif drivers and np.isfinite(drivers[0].rho):
-            name = drivers[0].parameter  # whole, even when long: a cut name could point at the wrong part
-            lines.append(f"  {label:<46}{name:<21}{drivers[0].rho:+.2f}" if len(name) <= 20
-                         else f"  {label:<46}{name} {drivers[0].rho:+.2f}")
+    lines.extend(_driver_lines(result, levels))
     if result.out_dir is not None:
         plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
         waves = sum(1 for k in result.files if k.startswith("waveform"))
