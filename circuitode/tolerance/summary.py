@@ -104,6 +104,19 @@ def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
     return lead + [(first + body).rstrip()]
 
 
+def _corner_warning(result) -> list[str]:
+    """One line when a corners batch spreads an angle or an instant: their effect rises and falls
+    (a closing angle is worst near a voltage zero, between the corners), so the extremes may miss it."""
+    if result.samples.sampler != "corners":
+        return []
+    units = getattr(result, "parameter_units", {}) or {}
+    timed = [n for n in result.samples.names if units.get(n) in ("rad", "s")]
+    if not timed:
+        return []
+    return textwrap.wrap(f"  note: corners miss a worst case between the extremes, which a closing angle "
+                         f"or instant often has ({', '.join(timed)}): run --sampler lhs or a sweep too", WIDTH, subsequent_indent="    ")
+
+
 #: What the two driver columns mean, printed above them (≤ 80 columns).
 DRIVER_WORDS = ("strongest driver of each figure: η² = share of the figure's variance the part\n"
                 "explains alone (sees a rise-and-fall too), ρ = Spearman rank correlation (+: the\n"
@@ -143,6 +156,7 @@ def format_batch_summary(result) -> str:
              f"tolerance batch: {t.count} samples ({t.sampler}, seed {t.seed}), all ran"]
     if t.note:
         lines.append(f"  note: {t.note}")
+    lines.extend(_corner_warning(result))
     if result.chunks_resumed:
         lines.append(f"  resumed: {result.chunks_resumed} chunk(s) were already on disk")
     lines.append("")
