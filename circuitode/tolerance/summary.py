@@ -13,7 +13,7 @@ import textwrap
 import numpy as np
 
 from ..quantities import format_si, format_value
-from ..analysis.limits import figure_key
+from ..analysis.limits import figure_key, unmeasurable_reason
 from ..output.report import SAFETY_LINE, WIDTH, requirement_words
 
 __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
@@ -82,8 +82,9 @@ def _levels(result) -> dict[str, float]:
     return out
 
 
-def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
-    """The statistics row of one figure; a long label gets a line of its own."""
+def _figure_row(label: str, s, unit: str, level: float = 0.0, step: bool = False) -> list[str]:
+    """The statistics row of one figure; a long label gets a line of its own.  ``step``: a figure
+    in % of a step's amplitude, which has no value where there is no step (figures.step.NO_STEP)."""
     width = _LABEL - 1
     lead = [] if len(label) <= width else textwrap.wrap(label, WIDTH, subsequent_indent="  ")
     first = f"{label:<{_LABEL}}" if not lead else f"{'':<{_LABEL}}"
@@ -92,6 +93,8 @@ def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
         body = f"{'—':>10}  over {PERCENT_ABSURD:g} %: not a step"
     elif state == "zero":
         body = f"{_si(0.0, unit, 3):>10}  does not vary (rounding)"
+    elif state == "missing" and step:
+        body = f"{'—':>10}  no step in any sample"
     elif state == "missing":
         body = f"{'—':>10}  no value in any sample"
     elif state == "rounding":
@@ -164,7 +167,8 @@ def format_batch_summary(result) -> str:
     lines += [head, "─" * len(head)]
     levels = _levels(result)
     for (key, s), unit in zip(result.summaries.items(), result.figure_units):
-        lines.extend(_figure_row(figure_label(key), s, unit, levels.get(key[1], 0.0)))
+        lines.extend(_figure_row(figure_label(key), s, unit, levels.get(key[1], 0.0),
+                                 key[0] in ("overshoot", "undershoot")))
     lines.append("")
     y = result.yield_estimate
     if result.requirements:
@@ -186,6 +190,9 @@ def format_batch_summary(result) -> str:
                 word = "closest" if _meets(r, value) else "worst (fails)"
                 lines.extend(textwrap.wrap(f"{word}: {_si(value, unit)} at sample {k} ({params})", WIDTH,
                                            initial_indent=" " * 6, subsequent_indent=" " * 8))
+            else:  # no sample gave a value: say why, as a single run does
+                lines.extend(textwrap.wrap(f"not measurable in any sample: {unmeasurable_reason(r.figure)}",
+                                           WIDTH, initial_indent=" " * 6, subsequent_indent=" " * 8))
     else:
         lines.append("yield: no 'require' limits in the netlist")
     lines.append("")
