@@ -79,6 +79,12 @@ class BatchResult:
 
         return batch_frame(self)
 
+    def drivers_frame(self):
+        """The sensitivity ranking: figure, part, eta2, spearman_rho, largest η² first (needs pandas)."""
+        from .frames import drivers_frame
+
+        return drivers_frame(self)
+
     def __repr__(self) -> str:
         from .frames import batch_repr
 

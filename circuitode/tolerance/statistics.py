@@ -182,7 +182,9 @@ def variance_shares(parameters: np.ndarray, figure: np.ndarray) -> np.ndarray:
     values share a bin, so a corners batch gets one bin per level), and the bias
     the slices add on pure noise, (B − 1)/(N − B) of the unexplained share, is
     removed (Kelley's ε², PNAS 21 (1935) 554; from memory).  Unlike a rank
-    correlation it sees effects that rise and fall (a closing angle).
+    correlation it sees effects that rise and fall (a closing angle).  A smooth effect
+    loses about 1/B² of its share to the slicing (B bins: 6 % at 16 samples, 0.2 % at
+    500), so compare parts within one batch rather than across batch sizes.
 
     parameters : (N, k).  figure : (N,).  Samples with a non-finite value are
     dropped.  Returns (k,) in [0, 1]; NaN where a column or the figure is constant
