@@ -116,8 +116,9 @@ def _corner_warning(result) -> list[str]:
     timed = [n for n in result.samples.names if units.get(n) in ("rad", "s")]
     if not timed:
         return []
-    return textwrap.wrap(f"  note: corners miss a worst case between the extremes, which a closing angle "
-                         f"or instant often has ({', '.join(timed)}): run --sampler lhs or a sweep too", WIDTH, subsequent_indent="    ")
+    words = (f"  note: corners miss a worst case between the extremes, which a closing angle "
+             f"or instant often has ({', '.join(timed)}): run --sampler lhs or a sweep too")
+    return textwrap.wrap(words, WIDTH, subsequent_indent="    ")
 
 
 #: What the two driver columns mean, printed above them (≤ 80 columns).
