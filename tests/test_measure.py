@@ -453,3 +453,57 @@ def test_first_largest_magnitude_is_argmax_of_abs():
     y[::37, 4] = np.nan
     y[5] = 0.0
     assert np.array_equal(_first_largest_magnitude(y), np.argmax(np.abs(y), axis=-1))
+
+
+def test_step_figures_need_a_step_of_a_tenth_of_the_swing():
+    # IEEE Std 181-2011 gives overshoot, undershoot and the 10 %/90 % reference levels in
+    # terms of the amplitude final − initial.  A first-order step of amplitude a under a
+    # decaying 30 A ring: with a = 2 A beside a ~50 A swing (the LC filter's inductor
+    # current, 0 → 61 A → 2 A, printed "overshoot 2977 %") there is no step to refer to
+    # (NO_STEP = 10 % of the peak-to-peak range, our choice); with a = 20 A there is, and
+    # the overshoot is the definition's 100·(max − final)/a.
+    from circuitode.analysis.figures.step import NO_STEP
+
+    t = np.linspace(0.0, 0.05, 5001)
+    ring = 30.0 * np.exp(-200 * t) * np.sin(2 * np.pi * 100 * t)
+    for a in (2.0, 20.0):
+        y = a * (1 - np.exp(-t / 2e-3)) + ring
+        stepped = abs(y[-1] - y[0]) >= NO_STEP * np.ptp(y)
+        assert stepped == (a == 20.0)
+        for name in ("overshoot", "undershoot", "rise_time"):
+            assert np.isnan(getattr(m, name)(t, y)) != stepped, (a, name)
+        if stepped:
+            assert m.overshoot(t, y) == pytest.approx(100 * (y.max() - y[-1]) / (y[-1] - y[0]), rel=1e-12)
+    waves = SimpleNamespace(t=t, signals={"current through L1": 2.0 * (1 - np.exp(-t / 2e-3)) + ring},
+                            units={"current through L1": "A"}, probes={})
+    row = m.summarise(waves)["current through L1"]
+    assert row["step"] == (False, "") and np.isnan(row["overshoot"][0])
+
+
+def test_the_lc_filter_inductor_current_has_no_overshoot_in_run_text_limits_and_batches(tmp_path, capsys):
+    # netlists/lc_filter.cnet: the inductor current starts at 0 A, peaks at 61.38 A and ends at
+    # 24 V / 12 Ω ≈ 2 A (Ohm's law at DC), 3.3 % of its swing.  Its overshoot was printed as
+    # 2977 %; the run, summary.json, a 'require' on it and a batch now say there is no step.
+    import json
+    from pathlib import Path
+
+    from circuitode.cli import main
+
+    text = (Path(__file__).parents[1] / "netlists" / "lc_filter.cnet").read_text(encoding="utf-8")
+    netlist = tmp_path / "lc.cnet"
+    netlist.write_text(text + "require overshoot current through L1 < 50 %\n", encoding="utf-8")
+    assert main(["run", str(netlist), "--out", str(tmp_path / "run"), "--no-plots"]) == 1
+    out = capsys.readouterr().out
+    lines = out.splitlines()
+    row = lines.index(next(x for x in lines if x.startswith("current through L1")))
+    assert lines[row + 1].strip().startswith("no step (final ≈ initial)") and "2977" not in out
+    assert "FAIL overshoot of current through L1 < 50 %" in out and "not measurable: no step" in out
+    figures = json.loads((tmp_path / "run" / "summary.json").read_text(encoding="utf-8"))["figures"]
+    assert figures["current through L1"]["overshoot"]["value"] is None
+    assert figures["current through L1"]["step"]["value"] is False
+    assert figures["voltage at out"]["step"]["value"] is True
+    main(["tolerance", str(netlist), "--samples", "16", "--out", str(tmp_path / "batch"), "--no-plots"])
+    out = capsys.readouterr().out
+    assert "overshoot, current through L1" in out and "no step in any sample" in out
+    assert "not measurable in any sample: no step (final ≈ initial)" in out
+    assert all(len(line) <= 80 for line in out.splitlines())

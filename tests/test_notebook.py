@@ -98,6 +98,13 @@ def test_batch_result_as_a_frame(tmp_path):
     assert frame.attrs["units"]["R1"] == "Ω" and frame.attrs["units"]["peak of current through R1"] == "A"
     # peak current at closing is V/R for every sample (Nilsson & Riedel ch. 7)
     np.testing.assert_allclose(frame["peak of current through R1"], 10.0 / frame["R1"], rtol=1e-12)
+    # the ranking as a frame: R1 alone varies, so it explains the peak's whole variance and
+    # the peak falls as it rises (ρ = −1); 16 samples make 4 slices, and binning a smooth
+    # effect into B slices loses about 1/B² of its share (a line over uniform x: 1 − 1/B²)
+    drivers = result.drivers_frame()
+    peak = drivers[drivers["figure"] == "peak of current through R1"]
+    assert list(peak["part"]) == ["R1"] and list(drivers.columns) == ["figure", "part", "eta2", "spearman_rho"]
+    assert 0.8 < peak["eta2"].iloc[0] <= 1.0 and peak["spearman_rho"].iloc[0] == pytest.approx(-1.0)
 
 
 def test_run_and_batch_results_show_compactly(tmp_path):

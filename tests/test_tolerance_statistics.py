@@ -9,6 +9,7 @@ from circuitode.tolerance.statistics import (
     rank_correlations,
     sensitivity_ranking,
     summarise_figure,
+    variance_shares,
     wilson_interval,
 )
 
@@ -79,6 +80,53 @@ def test_sensitivity_ranks_the_strong_driver_first_and_constant_last():
     ranking = sensitivity_ranking(("a", "b", "c"), x, y)
     assert [d.parameter for d in ranking] == ["c", "a", "b"]
     assert ranking[0].rho < -0.9 and np.isnan(ranking[2].rho)
+
+
+def test_variance_share_sees_a_rise_and_fall_that_spearman_misses():
+    # y = sin²(θ) + 0.1·x, θ ~ U(0, π), x ~ U(0, 1) independent.  First-order index
+    # S_θ = Var(E[y|θ]) / Var(y) (Saltelli et al., "Global Sensitivity Analysis: The
+    # Primer", 2008, ch. 1): sin²θ = (1 − cos 2θ)/2 has variance ½·½·½ = 1/8 over
+    # whole periods, 0.1·x has 0.01/12, so S_θ = (1/8) / (1/8 + 1/1200) = 150/151 and
+    # S_x = 1/151.  sin²θ is symmetric about π/2, so its rank correlation is ≈ 0.
+    rng = np.random.default_rng(3)
+    n = 4000
+    theta, x = rng.uniform(0.0, np.pi, n), rng.uniform(0.0, 1.0, n)
+    params = np.column_stack([x, theta])
+    y = np.sin(theta) ** 2 + 0.1 * x
+    var_theta, var_x = 1 / 8, 0.01 / 12
+    exact = np.array([var_x, var_theta]) / (var_theta + var_x)
+    eta2 = variance_shares(params, y)
+    assert eta2[1] == pytest.approx(exact[1], abs=0.005)  # binning of about √N slices loses ~1e-3
+    assert eta2[0] == pytest.approx(exact[0], abs=0.01)
+    rho = rank_correlations(params, y)
+    assert abs(rho[0]) > abs(rho[1])  # Spearman would name x
+    ranking = sensitivity_ranking(("x", "theta"), params, y)
+    assert [d.parameter for d in ranking] == ["theta", "x"]
+    assert ranking[0].eta2 == pytest.approx(eta2[1]) and ranking[0].rho == pytest.approx(rho[1])
+
+
+def test_variance_share_of_two_level_parameters_is_the_anova_main_effect():
+    # A corners batch gives each parameter two levels: ties share a bin, so η² is the
+    # one-way ANOVA between-group share SS_between / SS_total (common practice), less
+    # Kelley's bias term (B − 1)/(N − B)·SS_within/SS_total with B = 2 groups.
+    rng = np.random.default_rng(4)
+    a = rng.choice([-1.0, 1.0], 400)
+    b = rng.choice([-1.0, 1.0], 400)
+    y = 3.0 * a + 1.0 * b + 0.5 * rng.normal(size=400)
+    total = ((y - y.mean()) ** 2).sum()
+    expected = []
+    for g in (a, b):
+        between = sum((g == v).sum() * (y[g == v].mean() - y.mean()) ** 2 for v in (-1.0, 1.0))
+        expected.append((between - (total - between) / (400 - 2)) / total)
+    assert np.allclose(variance_shares(np.column_stack([a, b]), y), expected, atol=1e-12)
+
+
+def test_variance_share_of_noise_is_near_zero_and_of_a_constant_is_nan():
+    rng = np.random.default_rng(5)
+    x = rng.normal(size=(2000, 2))
+    x[:, 1] = 7.0
+    eta2 = variance_shares(x, rng.normal(size=2000))
+    assert 0.0 <= eta2[0] < 0.02 and np.isnan(eta2[1])
 
 
 def test_a_level_of_rounding_size_beside_its_quantity_prints_as_zero():

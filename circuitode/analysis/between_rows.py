@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 
 from .figures import rise_time, settling_time
+from .figures.step import has_step
 from .window_integrals import integral_figure
 
 __all__ = ["EXTREMUM_FIGURES", "CROSSING_FIGURES", "carried_figure"]
@@ -45,6 +46,8 @@ def _extremum_figure(figure: str, waveforms: Any, label: str) -> float | None:
     amplitude = final - initial
     if amplitude == 0 or not math.isfinite(amplitude):
         return None
+    if not has_step(amplitude, found.maximum - found.minimum):
+        return float("nan")  # no step to refer to (analysis.figures.step.NO_STEP)
     beyond = found.maximum - final if amplitude > 0 else final - found.minimum
     return 100.0 * max(beyond, 0.0) / abs(amplitude)
 

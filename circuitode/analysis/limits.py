@@ -22,6 +22,7 @@ import numpy as np
 from ..errors import CircuitodeError
 from .measure import FIGURE_UNITS, figure_unit, measure
 from .between_rows import carried_figure
+from .figures.step import NO_STEP_WORDS
 from .windows import run_figure
 
 __all__ = [
@@ -34,6 +35,7 @@ __all__ = [
     "figures_needed",
     "figure_key",
     "all_passed",
+    "unmeasurable_reason",
 ]
 
 #: The comparisons a requirement may use.
@@ -70,11 +72,16 @@ _NO_RINGING = (
 _UNMEASURABLE = {
     "damping_ratio": _NO_RINGING,
     "damped_frequency": _NO_RINGING,
-    "overshoot": "there is no step: the final value equals the initial one",
-    "undershoot": "there is no step: the final value equals the initial one",
-    "rise_time": "the signal never crosses the 10 % and 90 % levels of its step (or there is no step)",
+    "overshoot": NO_STEP_WORDS,
+    "undershoot": NO_STEP_WORDS,
+    "rise_time": "the signal never crosses the 10 % and 90 % levels of its step, or there is " + NO_STEP_WORDS,
     "settling_time": "the signal has not settled within the run (or there is no step); run longer",
 }
+
+
+def unmeasurable_reason(figure: str) -> str:
+    """Why ``figure`` can come out NaN, in words ("not measurable: …" follows it in reports)."""
+    return _UNMEASURABLE.get(figure, "the figure is undefined for this waveform")
 
 
 def _validated(requirement: Any) -> tuple[str, str]:
@@ -159,8 +166,7 @@ def check_requirements(requirements: Sequence[Any], waveforms: Any) -> list[Limi
         value_f = float(value)
         reason = ""
         if np.isnan(value_f):
-            why = _UNMEASURABLE.get(figure, "the figure is undefined for this waveform")
-            reason = "not measurable: " + why
+            reason = "not measurable: " + unmeasurable_reason(figure)
         elif not passed:
             reason = (
                 f"measured {value_f:g} {figure_unit(figure, unit)} does not meet "

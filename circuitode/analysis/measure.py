@@ -37,6 +37,7 @@ from .figures import (
     undershoot,
 )
 from .figures._common import _checked, trusted_clocks
+from .figures.step import has_step
 from .figures.window import window_bounds, window_groups
 from .between_rows import carried_figure
 
@@ -285,12 +286,17 @@ def summarise(waveforms: Any) -> dict[str, dict[str, tuple[Any, str]]]:
         # pulse) or one that never settles (AC, still ringing) has no final state
         # level to refer to, so its overshoot or rise time would mean nothing.
         values = {name: _whole_window(name, waveforms, label, t, y, unit) for name in figures}
-        no_step = _is_pulse(y) | np.isnan(values["settling_time"])
+        pulse = _is_pulse(y)
+        no_step = pulse | np.isnan(values["settling_time"])
         row = {}
         for name, value in values.items():
             if name in _STEP_FIGURES:
                 value = np.where(no_step, np.nan, value)
             row[name] = (_plain(value), figure_unit(name, unit))
+        swing = np.max(y, axis=-1) - np.min(y, axis=-1)
+        stepped = has_step(y[..., -1] - y[..., 0], swing)
+        # a step from initial to final (IEEE 181)?  False: it moved but ends ≈ where it began; None: never moved
+        row["step"] = ((None if not swing > 0 else bool(stepped)) if np.ndim(stepped) == 0 else stepped, "")
         flag = settled(t, y)  # is `final` a final state level or a snapshot of motion?
         row["settled"] = (bool(flag) if np.ndim(flag) == 0 else flag, "")
         out[label] = row
@@ -308,12 +314,13 @@ def _whole_window(name: str, waveforms: Any, label: str, t, y, unit: str) -> Any
 _STEP_FIGURES = ("overshoot", "undershoot", "rise_time", "settling_time")
 
 
-def _is_pulse(y: np.ndarray, ratio: float = 1e-3) -> np.ndarray:
-    """True where the signal ends (almost) where it began although it moved: an inrush
-    pulse rather than a step, for which step figures would divide by a vanishing
-    amplitude.  The threshold is |final − initial| < ratio × (max − min)."""
+def _is_pulse(y: np.ndarray) -> np.ndarray:
+    """True where the signal ends near where it began although it moved: an inrush pulse,
+    or a current that rings to 61 A and ends at 2 A, rather than a step, for which step
+    figures would divide by a vanishing amplitude: |final − initial| < NO_STEP × (max − min)
+    (:func:`~circuitode.analysis.figures.step.has_step`)."""
     swing = np.max(y, axis=-1) - np.min(y, axis=-1)
-    return np.abs(y[..., -1] - y[..., 0]) < ratio * swing
+    return (swing > 0) & ~has_step(y[..., -1] - y[..., 0], swing)
 
 
 def _plain(value: np.ndarray) -> Any:

@@ -120,6 +120,8 @@ def waveform_figure(
         _label_events(axes[0], waveforms.events, tf)
     if title:
         fig.suptitle(title, fontsize=11, x=0.01, ha="left")
+    for ax in axes:
+        _settle_labels(ax)
     if path is not None:
         fig.savefig(Path(path))
     return fig
@@ -206,9 +208,9 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
         windowed = start is not None or stop is not None  # drawn over its window only
         if req.figure in ("settling_time", "rise_time"):
             ax.axvline(((start or 0.0) + req.limit) * tf, color=color, lw=1.3, ls="--")
-            notes.append(("┆ " + words, color))  # the dashed vertical line
+            notes.append(("┆ " + words, color, None, None))  # the dashed vertical line
         elif windowed and req.figure in ("i2t", "energy"):  # the running integral counts from 0 s
-            notes.append((words, color))
+            notes.append((words, color, start, stop))
         elif req.figure in ("peak", "minimum", "final", "mean", "rms", "i2t", "energy") and r.unit == unit:
             level = req.limit * yf
             span = high - low
@@ -221,17 +223,21 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
                     ax.hlines(-level, x0, x1, color=color, lw=1.3, ls="--") if windowed else \
                         ax.axhline(-level, color=color, lw=1.3, ls="--")
                 if any(abs(level - other) < 0.07 * span for other in labelled):  # labels would overlap
-                    notes.append((words, color))
+                    notes.append((words, color, None, None))
                     continue
                 labelled.append(level)
-                # an upper limit is labelled above its line, a lower one below, on the side the data must avoid
-                ax.text(0.99, level, words + " ", transform=transforms.blended_transform_factory(
-                    ax.transAxes, ax.transData), fontsize=7, color=color, ha="right",
-                    va="bottom" if req.comparison.startswith("<") else "top")
+                # an upper limit is labelled above its line, a lower one below, on the side the data must avoid;
+                # _settle_labels moves it along its line (or to the other side) when another label is there
+                va = "bottom" if req.comparison.startswith("<") else "top"
+                other = "top" if va == "bottom" else "bottom"
+                spots = _level_spots(ax, (x0, x1) if windowed else None)
+                label = ax.text(spots[0][1], level, words + " ", transform=spots[0][0], fontsize=7, color=color,
+                                ha=spots[0][2], va=va)
+                label._circuitode_spots = [(tr, x, level, ha, v) for v in (va, other) for tr, x, ha in spots]
             else:  # far off the scale: an arrow at the edge keeps the waveform readable
-                notes.append((("↑ " if level > high else "↓ ") + words + ", off scale", color))
+                notes.append((("↑ " if level > high else "↓ ") + words + ", off scale", color, None, None))
         else:
-            notes.append((words, color))
+            notes.append((words, color, start, stop))
     if notes:  # head room above the data for the notes, so they hide no trace
         low, high = ax.get_ylim()
         top = max(high, max((r.requirement.limit * yf for r in results if r.requirement.figure in
@@ -239,9 +245,57 @@ def _draw_limits(ax: Any, tf: float, results: Sequence[Any], unit: str) -> None:
                              and low - (high - low) <= r.requirement.limit * yf <= high + (high - low)),
                             default=high))
         ax.set_ylim(low, top + (top - low) * (0.08 + 0.14 * len(notes)))
-    for i, (words, color) in enumerate(notes):  # time limits and limits with no line of their own, top left
-        ax.text(0.01, 0.97 - 0.1 * i, words, transform=ax.transAxes, fontsize=7, color=color, ha="left",
-                va="top", bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=1.0))
+    high_up = transforms.blended_transform_factory(ax.transData, ax.transAxes)
+    for i, (words, color, start, stop) in enumerate(notes):  # limits with no line of their own, at the top
+        y = 0.97 - 0.1 * i
+        spots = [(ax.transAxes, 0.01, y, "left", "top")]
+        if start is not None:  # over its window ("after 1 ms": from 1 ms on), else as far into it as fits
+            spots = [(high_up, start * tf, y, "left", "top"), (ax.transAxes, 0.99, y, "right", "top")]
+        elif stop is not None:  # "before …": ending where the window ends
+            spots = [(high_up, stop * tf, y, "right", "top")] + spots
+        note = ax.text(spots[0][1], y, words, transform=spots[0][0], fontsize=7, color=color, ha=spots[0][3],
+                       va="top", bbox=dict(facecolor="white", edgecolor="none", alpha=0.85, pad=1.0))
+        note._circuitode_spots = spots
+
+
+def _level_spots(ax: Any, window: tuple[float, float] | None) -> list[tuple[Any, float, str]]:
+    """Where a limit level's label may sit along its line, best first: (x transform, x, ha).
+
+    At the right end, then centred further and further left, then at the left end; a limit over
+    part of the run (``window``, x0 and x1 in plotted time units) first starts over its own stretch."""
+    import matplotlib.transforms as transforms
+
+    along = transforms.blended_transform_factory(ax.transAxes, ax.transData)
+    spots = [(along, 0.99, "right")] + [(along, f, "center") for f in (0.6, 0.5, 0.4, 0.3)] + [(along, 0.01, "left")]
+    if window is not None:
+        on_line = transforms.blended_transform_factory(ax.transData, ax.transData)
+        x0, x1 = window
+        spots = [(on_line, x0 + f * (x1 - x0), "left") for f in (0.0, 0.1, 0.2, 0.3, 0.4, 0.5)] + [
+            (on_line, x1, "right")] + spots
+    return spots
+
+
+def _settle_labels(ax: Any) -> None:
+    """Put each limit label and note at the first of its spots (``_circuitode_spots``: transform, x, y,
+    ha, va) where it stays inside the panel and overlaps no other text of the panel and no inset;
+    a label with no free spot stays at its first.  Runs once the panel's scales are final."""
+    texts = [t for t in ax.texts if t.get_text().strip()]
+    frame = ax.get_window_extent()
+    for text in texts:
+        spots = getattr(text, "_circuitode_spots", None)
+        if not spots:
+            continue
+        others = [t.get_window_extent() for t in texts if t is not text]
+        others += [inset.get_window_extent() for inset in ax.child_axes]
+        for transform, x, y, ha, va in spots + spots[:1]:  # none free: back to the first
+            text.set_transform(transform)
+            text.set_position((x, y))
+            text.set_ha(ha)
+            text.set_va(va)
+            box = text.get_window_extent()
+            inside = box.x0 >= frame.x0 - 1 and box.x1 <= frame.x1 + 1
+            if inside and not any(box.overlaps(o) for o in others):
+                break
 
 
 def _inset(ax: Any, t: np.ndarray, tf: float, curves, window: tuple[float, float]) -> None:

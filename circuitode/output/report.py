@@ -345,6 +345,8 @@ def _figure_line(label: str, row: Mapping[str, tuple[Any, str]]) -> list[str]:
         cells.append(f"{_si(value, unit):>12}")
     lines = ["".join(cells)]
     extras = []
+    if row.get("step", (True, ""))[0] is False:  # it moved, but IEEE 181 step figures need a step
+        extras.append("no step (final ≈ initial)")
     for key, word in (("overshoot", "overshoot"), ("rise_time", "rise"), ("settling_time", "settles"),
                       ("rms", "rms"), ("i2t", "I²t"), ("energy", "energy")):
         value, unit = row.get(key, (None, ""))

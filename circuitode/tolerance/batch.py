@@ -31,6 +31,7 @@ from .engine import BATCH_METHODS, simulate_chunk
 from .executors import make_executor
 from .sample_values import check_supported, element_values
 from .sampling import SampleTable, draw_samples, spreads_with_overrides
+from .summary import DRIVER_WORDS
 from .statistics import YieldEstimate, estimate_yield, sensitivity_ranking, summarise_figure
 from .lock import FolderLock
 from .progress import Counter
@@ -77,6 +78,12 @@ class BatchResult:
         from .frames import batch_frame
 
         return batch_frame(self)
+
+    def drivers_frame(self):
+        """The sensitivity ranking: figure, part, eta2, spearman_rho, largest η² first (needs pandas)."""
+        from .frames import drivers_frame
+
+        return drivers_frame(self)
 
     def __repr__(self) -> str:
         from .frames import batch_repr
@@ -435,8 +442,10 @@ def _write_outputs(result: BatchResult, folder: Path, plots: bool) -> dict:
         "figures": {f"{k[0]} of {k[1]}": {
             "unit": u, "mean": s.mean, "std": s.std, "percentiles": dict(zip(["p1", "p5", "p50", "p95", "p99"], s.percentiles)),
             "min": s.minimum, "min_sample": s.argmin, "max": s.maximum, "max_sample": s.argmax,
-            "drivers": [[d.parameter, d.rho] for d in result.sensitivity[k]]}
+            "drivers": [{"part": d.parameter, "eta2": d.eta2, "spearman_rho": d.rho}
+                        for d in result.sensitivity[k]]}
             for k, u, s in zip(result.figure_keys, result.figure_units, result.summaries.values())},
+        "drivers_meaning": DRIVER_WORDS.replace("\n", " ") + "; strongest (largest η²) first",
         "safety": SAFETY_TEXT,
     }
     path = folder / "batch_summary.json"

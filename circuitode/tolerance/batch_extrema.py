@@ -32,6 +32,7 @@ from typing import Sequence
 
 import numpy as np
 
+from ..analysis.figures.step import has_step
 from .batchexpm import expm_stack
 
 __all__ = ["ChunkExtrema", "EXTREMUM_FIGURES", "extremum_figures", "hermite_guess", "locate_roots"]
@@ -266,4 +267,4 @@ def extremum_figures(figure: str, t: np.ndarray, y: np.ndarray, located) -> np.n
     beyond = np.where(amplitude > 0, top - last, last - low)
     with np.errstate(invalid="ignore", divide="ignore"):
         out = 100.0 * np.maximum(beyond, 0.0) / np.abs(amplitude)
-    return np.where((amplitude == 0) | ~np.isfinite(amplitude), np.nan, out)
+    return np.where(has_step(amplitude, top - low), out, np.nan)  # NaN: no step (figures.step.NO_STEP)

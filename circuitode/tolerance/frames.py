@@ -7,7 +7,7 @@ from typing import Any
 
 from ..notebook import pandas_module
 
-__all__ = ["batch_frame", "batch_repr", "batch_html"]
+__all__ = ["batch_frame", "drivers_frame", "batch_repr", "batch_html"]
 
 
 def batch_frame(result: Any):
@@ -28,6 +28,16 @@ def batch_frame(result: Any):
     frame.index.name = "sample"
     frame.attrs["units"] = units
     return frame
+
+
+def drivers_frame(result: Any):
+    """One row per figure and part, strongest first within a figure: ``figure``, ``part``,
+    ``eta2`` (share of the figure's variance the part explains alone, sees a rise-and-fall)
+    and ``spearman_rho`` (rank correlation: its sign is the direction)."""
+    pd = pandas_module()
+    rows = [(f"{figure.replace('_', ' ')} of {label}", d.parameter, d.eta2, d.rho)
+            for (figure, label), drivers in result.sensitivity.items() for d in drivers]
+    return pd.DataFrame(rows, columns=["figure", "part", "eta2", "spearman_rho"])
 
 
 def batch_repr(result: Any) -> str:

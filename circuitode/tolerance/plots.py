@@ -120,7 +120,7 @@ def write_plots(result, folder: Path) -> dict:
         files[f"hist {title}"] = _save(fig, ax, out_dir / f"hist_{_safe(title)}.png")
 
         drivers = result.sensitivity.get(key) or []
-        if drivers and np.isfinite(drivers[0].rho) and varies(result.summaries[key]):
+        if drivers and np.isfinite(drivers[0].eta2) and varies(result.summaries[key]):
             p = names.index(drivers[0].parameter)
             x = params[good, p]
             xf, xunit = _axis(x, units_of.get(drivers[0].parameter, ""))
@@ -129,7 +129,7 @@ def write_plots(result, folder: Path) -> dict:
             if key in limited:
                 ax.axhline(limited[key].limit * vf, color=_LIMIT, lw=1.5)
             xname = drivers[0].parameter + (f" [{xunit}]" if xunit else "")
-            ax.set_xlabel(f"{xname}   (rank correlation {drivers[0].rho:+.2f})")
+            ax.set_xlabel(f"{xname}   (variance share η² {drivers[0].eta2:.2f}, rank correlation ρ {drivers[0].rho:+.2f})")
             ax.set_ylabel(vlabel)
             ax.set_title(f"{title} against its strongest driver", fontsize=10, loc="left")
             files[f"scatter {title}"] = _save(fig, ax, out_dir / f"scatter_{_safe(title)}.png")

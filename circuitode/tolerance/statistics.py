@@ -1,5 +1,7 @@
 """Statistics of a finished batch: per-figure summaries, yield with a Wilson
-interval, and the sensitivity ranking of parameters.
+interval, and the sensitivity ranking of parameters (by the share of a figure's
+variance each parameter explains, η², which sees a rise-and-fall too; with the
+Spearman rank correlation beside it for the direction).
 
 All functions take whole arrays (N samples) and never loop over samples.
 Samples whose run failed carry NaN figures and are left out of every
@@ -21,6 +23,7 @@ __all__ = [
     "wilson_interval",
     "estimate_yield",
     "rank_correlations",
+    "variance_shares",
     "sensitivity_ranking",
 ]
 
@@ -126,10 +129,17 @@ def estimate_yield(limit_passes: dict[str, np.ndarray], ran: np.ndarray, confide
 
 @dataclass(frozen=True)
 class Driver:
-    """One parameter's influence on a figure: Spearman rank correlation rho in [-1, 1]."""
+    """One parameter's influence on a figure.
+
+    eta2 : share of the figure's variance explained by the parameter alone, in [0, 1]
+    (:func:`variance_shares`); sees non-monotonic effects.  rho : Spearman rank
+    correlation in [-1, 1]; its sign says whether the figure rises with the parameter,
+    and it is near 0 for an effect that rises then falls.
+    """
 
     parameter: str
     rho: float
+    eta2: float = float("nan")
 
 
 def rank_correlations(parameters: np.ndarray, figure: np.ndarray) -> np.ndarray:
@@ -156,9 +166,62 @@ def rank_correlations(parameters: np.ndarray, figure: np.ndarray) -> np.ndarray:
     return np.where(den > 0, rho, np.nan)
 
 
+def _bin_count(n: int) -> int:
+    """Bins per parameter for :func:`variance_shares`: about √n, 2 to 50."""
+    return int(min(50, max(2, np.floor(np.sqrt(n)))))
+
+
+def variance_shares(parameters: np.ndarray, figure: np.ndarray) -> np.ndarray:
+    """Share of the figure's variance explained by each parameter alone: the correlation
+    ratio η² = Var(E[y | x_j]) / Var(y), the first-order sensitivity index.
+
+    Estimated by binning, as the first-order index is read off a scatter plot by
+    cutting the parameter's axis into slices and taking the variance of the slice
+    means (Saltelli et al., "Global Sensitivity Analysis: The Primer", Wiley 2008,
+    ch. 1; from memory): each column is cut into about √N equal-count bins (tied
+    values share a bin, so a corners batch gets one bin per level), and the bias
+    the slices add on pure noise, (B − 1)/(N − B) of the unexplained share, is
+    removed (Kelley's ε², PNAS 21 (1935) 554; from memory).  Unlike a rank
+    correlation it sees effects that rise and fall (a closing angle).  A smooth effect
+    loses about 1/B² of its share to the slicing (B bins: 6 % at 16 samples, 0.2 % at
+    500), so compare parts within one batch rather than across batch sizes.
+
+    parameters : (N, k).  figure : (N,).  Samples with a non-finite value are
+    dropped.  Returns (k,) in [0, 1]; NaN where a column or the figure is constant
+    or fewer than 3 samples remain.
+    """
+    x = np.asarray(parameters, dtype=float)
+    y = np.asarray(figure, dtype=float).reshape(-1)
+    ok = np.isfinite(y) & np.all(np.isfinite(x), axis=1)
+    x, y = x[ok], y[ok]
+    n, k = x.shape
+    if n < 3:
+        return np.full(k, np.nan)
+    bins = _bin_count(n)
+    ranks = rankdata(x, axis=0)  # average ranks: tied values fall in one bin
+    slot = np.minimum(((ranks - 1.0) * bins / n).astype(np.int64), bins - 1)
+    flat = (slot + bins * np.arange(k)).reshape(-1, order="C")  # (N·k,), column j in [j·B, (j+1)·B)
+    dy = y - y.mean()
+    counts = np.bincount(flat, minlength=k * bins).reshape(k, bins)
+    sums = np.bincount(flat, weights=np.repeat(dy[:, None], k, axis=1).reshape(-1), minlength=k * bins)
+    sums = sums.reshape(k, bins)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        between = np.where(counts > 0, sums * sums / np.maximum(counts, 1), 0.0).sum(axis=1)
+    total = float(dy @ dy)
+    used = (counts > 0).sum(axis=1)
+    if total <= 0.0:
+        return np.full(k, np.nan)
+    within = total - between
+    share = (between - (used - 1) * within / np.maximum(n - used, 1)) / total
+    return np.where(used > 1, np.clip(share, 0.0, 1.0), np.nan)
+
+
 def sensitivity_ranking(names: tuple[str, ...], parameters: np.ndarray, figure: np.ndarray) -> list[Driver]:
-    """Parameters ordered by |Spearman rho| with the figure, strongest first (NaN last)."""
+    """Parameters ordered by the variance share η² they explain, strongest first (NaN last);
+    ties (and a figure no share can be computed for) ordered by |Spearman rho|."""
     rho = rank_correlations(parameters, figure)
-    key = np.where(np.isfinite(rho), -np.abs(rho), np.inf)
-    order = np.argsort(key, kind="stable")
-    return [Driver(names[i], float(rho[i])) for i in order]
+    eta2 = variance_shares(parameters, figure)
+    key_rho = np.where(np.isfinite(rho), -np.abs(rho), np.inf)
+    key_eta = np.where(np.isfinite(eta2), -eta2, np.inf)
+    order = np.lexsort((key_rho, key_eta))
+    return [Driver(names[i], float(rho[i]), float(eta2[i])) for i in order]

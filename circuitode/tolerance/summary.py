@@ -13,7 +13,7 @@ import textwrap
 import numpy as np
 
 from ..quantities import format_si, format_value
-from ..analysis.limits import figure_key
+from ..analysis.limits import figure_key, unmeasurable_reason
 from ..output.report import SAFETY_LINE, WIDTH, requirement_words
 
 __all__ = ["format_batch_summary", "figure_label", "varies", "NO_SPREAD"]
@@ -82,8 +82,9 @@ def _levels(result) -> dict[str, float]:
     return out
 
 
-def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
-    """The statistics row of one figure; a long label gets a line of its own."""
+def _figure_row(label: str, s, unit: str, level: float = 0.0, step: bool = False) -> list[str]:
+    """The statistics row of one figure; a long label gets a line of its own.  ``step``: a figure
+    in % of a step's amplitude, which has no value where there is no step (figures.step.NO_STEP)."""
     width = _LABEL - 1
     lead = [] if len(label) <= width else textwrap.wrap(label, WIDTH, subsequent_indent="  ")
     first = f"{label:<{_LABEL}}" if not lead else f"{'':<{_LABEL}}"
@@ -92,6 +93,8 @@ def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
         body = f"{'—':>10}  over {PERCENT_ABSURD:g} %: not a step"
     elif state == "zero":
         body = f"{_si(0.0, unit, 3):>10}  does not vary (rounding)"
+    elif state == "missing" and step:
+        body = f"{'—':>10}  no step in any sample"
     elif state == "missing":
         body = f"{'—':>10}  no value in any sample"
     elif state == "rounding":
@@ -104,6 +107,50 @@ def _figure_row(label: str, s, unit: str, level: float = 0.0) -> list[str]:
     return lead + [(first + body).rstrip()]
 
 
+def _corner_warning(result) -> list[str]:
+    """One line when a corners batch spreads an angle or an instant: their effect rises and falls
+    (a closing angle is worst near a voltage zero, between the corners), so the extremes may miss it."""
+    if result.samples.sampler != "corners":
+        return []
+    units = getattr(result, "parameter_units", {}) or {}
+    timed = [n for n in result.samples.names if units.get(n) in ("rad", "s")]
+    if not timed:
+        return []
+    words = (f"  note: corners miss a worst case between the extremes, which a closing angle "
+             f"or instant often has ({', '.join(timed)}): run --sampler lhs or a sweep too")
+    return textwrap.wrap(words, WIDTH, subsequent_indent="    ")
+
+
+#: What the two driver columns mean, printed above them (≤ 80 columns).
+DRIVER_WORDS = ("strongest driver of each figure: η² = share of the figure's variance the part\n"
+                "explains alone (sees a rise-and-fall too), ρ = Spearman rank correlation (+: the\n"
+                "figure rises with the part; near 0 when it rises then falls)")
+
+
+def _driver_lines(result, levels: dict) -> list[str]:
+    """The driver table: per figure the part with the largest η², its η² and its ρ."""
+    lines = DRIVER_WORDS.split("\n") + [f"  {'figure':<46}{'part':<18}{'η²':>5}{'ρ':>7}"]
+    for (key, drivers), s, unit in zip(result.sensitivity.items(), result.summaries.values(), result.figure_units):
+        label = figure_label(key)
+        if len(label) > 45:
+            lines.append(f"  {label}")
+            label = ""
+        state = _state(s, unit, levels.get(key[1], 0.0))
+        if state in ("fixed", "rounding", "zero"):
+            lines.append(f"  {label:<46}does not vary")
+        elif state == "absurd":
+            lines.append(f"  {label:<46}not a step response")
+        elif state == "missing":
+            lines.append(f"  {label:<46}no value")
+        elif drivers and (np.isfinite(drivers[0].eta2) or np.isfinite(drivers[0].rho)):
+            d = drivers[0]
+            name = d.parameter  # whole, even when long: a cut name could point at the wrong part
+            cells = f"{d.eta2:5.2f}" + (f"{d.rho:+7.2f}" if np.isfinite(d.rho) else f"{'—':>7}")
+            lines.append(f"  {label:<46}{name:<18}{cells}" if len(name) <= 17
+                         else f"  {label:<46}{name} {cells.lstrip()}")
+    return lines
+
+
 def format_batch_summary(result) -> str:
     """Statistics per figure, yield with its Wilson interval, closest samples, drivers."""
     t = result.samples
@@ -113,6 +160,7 @@ def format_batch_summary(result) -> str:
              f"tolerance batch: {t.count} samples ({t.sampler}, seed {t.seed}), all ran"]
     if t.note:
         lines.append(f"  note: {t.note}")
+    lines.extend(_corner_warning(result))
     if result.chunks_resumed:
         lines.append(f"  resumed: {result.chunks_resumed} chunk(s) were already on disk")
     lines.append("")
@@ -120,7 +168,8 @@ def format_batch_summary(result) -> str:
     lines += [head, "─" * len(head)]
     levels = _levels(result)
     for (key, s), unit in zip(result.summaries.items(), result.figure_units):
-        lines.extend(_figure_row(figure_label(key), s, unit, levels.get(key[1], 0.0)))
+        lines.extend(_figure_row(figure_label(key), s, unit, levels.get(key[1], 0.0),
+                                 key[0] in ("overshoot", "undershoot")))
     lines.append("")
     y = result.yield_estimate
     if result.requirements:
@@ -142,26 +191,13 @@ def format_batch_summary(result) -> str:
                 word = "closest" if _meets(r, value) else "worst (fails)"
                 lines.extend(textwrap.wrap(f"{word}: {_si(value, unit)} at sample {k} ({params})", WIDTH,
                                            initial_indent=" " * 6, subsequent_indent=" " * 8))
+            else:  # no sample gave a value: say why, as a single run does
+                lines.extend(textwrap.wrap(f"not measurable in any sample: {unmeasurable_reason(r.figure)}",
+                                           WIDTH, initial_indent=" " * 6, subsequent_indent=" " * 8))
     else:
         lines.append("yield: no 'require' limits in the netlist")
     lines.append("")
-    lines.append("strongest driver of each figure (Spearman rank correlation):")
-    for (key, drivers), s, unit in zip(result.sensitivity.items(), result.summaries.values(), result.figure_units):
-        label = figure_label(key)
-        if len(label) > 45:
-            lines.append(f"  {label}")
-            label = ""
-        state = _state(s, unit, levels.get(key[1], 0.0))
-        if state in ("fixed", "rounding", "zero"):
-            lines.append(f"  {label:<46}does not vary")
-        elif state == "absurd":
-            lines.append(f"  {label:<46}not a step response")
-        elif state == "missing":
-            lines.append(f"  {label:<46}no value")
-        elif drivers and np.isfinite(drivers[0].rho):
-            name = drivers[0].parameter  # whole, even when long: a cut name could point at the wrong part
-            lines.append(f"  {label:<46}{name:<21}{drivers[0].rho:+.2f}" if len(name) <= 20
-                         else f"  {label:<46}{name} {drivers[0].rho:+.2f}")
+    lines.extend(_driver_lines(result, levels))
     if result.out_dir is not None:
         plots = sum(1 for p in result.files.values() if str(p).endswith(".png"))
         waves = sum(1 for k in result.files if k.startswith("waveform"))

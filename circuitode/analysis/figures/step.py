@@ -4,6 +4,10 @@ A step goes from an *initial* to a *final* state level (by default the first and
 last samples); its *amplitude* is final − initial.  Overshoot and undershoot are
 aberrations in percent of the amplitude; the rise time is the transition duration
 between the 10 % and 90 % reference levels, whichever way the step goes.
+A waveform whose amplitude is small beside its own peak-to-peak range (an
+inductor current that starts at 0 A, rings to 61 A and ends at 2 A) is no step:
+its overshoot, undershoot and rise time, referred to that amplitude, would be
+meaningless numbers (2977 %), so they are NaN (:data:`NO_STEP`, :func:`has_step`).
 Inputs and outputs follow :mod:`circuitode.analysis.figures`.
 """
 from __future__ import annotations
@@ -14,7 +18,28 @@ import numpy as np
 
 from ._common import MeasurementError, _at, _checked, _ends, _level
 
-__all__ = ["overshoot", "undershoot", "rise_time", "settling_time"]
+__all__ = ["overshoot", "undershoot", "rise_time", "settling_time", "has_step", "NO_STEP", "NO_STEP_WORDS"]
+
+#: A waveform is a step only when |final − initial| is at least this share of its peak-to-peak
+#: range; below it an overshoot would exceed (1 − NO_STEP)/NO_STEP = 900 % (our choice: IEEE Std
+#: 181-2011 refers aberrations to the amplitude, but sets no bound on it).
+NO_STEP = 0.1
+#: How a figure that needs a step is explained when there is none (run text, limits, batches).
+NO_STEP_WORDS = (f"no step (final ≈ initial): |final − initial| is below {100 * NO_STEP:g} % of the "
+                 "peak-to-peak range, and step figures are in % of that amplitude")
+
+
+def has_step(amplitude, swing) -> np.ndarray:
+    """True where an amplitude final − initial is a step: finite, non-zero and at least
+    NO_STEP of the waveform's peak-to-peak ``swing`` (same unit)."""
+    amplitude, swing = np.asarray(amplitude, dtype=float), np.asarray(swing, dtype=float)
+    with np.errstate(invalid="ignore"):
+        return np.isfinite(amplitude) & (amplitude != 0) & ~(np.abs(amplitude) < NO_STEP * swing)
+
+
+def _stepped(y: np.ndarray, amplitude: np.ndarray) -> np.ndarray:
+    with np.errstate(invalid="ignore"):
+        return has_step(amplitude, np.max(y, axis=-1) - np.min(y, axis=-1))
 
 
 def _first_crossing(t: np.ndarray, z: np.ndarray, level: float) -> np.ndarray:
@@ -47,13 +72,13 @@ def overshoot(t, y, *, initial=None, final=None) -> np.ndarray:
     of the step, in percent of the amplitude |final − initial| (IEEE Std 181-2011).
 
     ``initial`` and ``final`` default to the first and last samples.  0 when the signal
-    never passes the final level; NaN when the amplitude is zero (no step to refer to).
+    never passes the final level; NaN when there is no step to refer to (:func:`has_step`).
     """
     t, y = _checked(t, y)
     y0, yf, amplitude, direction = _step_levels(y, initial, final)
     beyond = np.max(direction[..., None] * (y - yf[..., None]), axis=-1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return 100.0 * np.maximum(beyond, 0.0) / np.abs(amplitude)
+        return np.where(_stepped(y, amplitude), 100.0 * np.maximum(beyond, 0.0) / np.abs(amplitude), np.nan)
 
 
 def undershoot(t, y, *, initial=None, final=None) -> np.ndarray:
@@ -61,8 +86,8 @@ def undershoot(t, y, *, initial=None, final=None) -> np.ndarray:
     level, its largest excursion back towards the initial level, in percent of the
     amplitude (IEEE Std 181-2011).  For a ringing step this is the first trough.
 
-    0 when the signal never reaches the final level or never comes back; NaN when the
-    amplitude is zero.
+    0 when the signal never reaches the final level or never comes back; NaN when there
+    is no step (:func:`has_step`).
     """
     t, y = _checked(t, y)
     y0, yf, amplitude, direction = _step_levels(y, initial, final)
@@ -70,14 +95,14 @@ def undershoot(t, y, *, initial=None, final=None) -> np.ndarray:
     reached = np.cumsum(progress >= 0, axis=-1) > 0
     back = np.max(np.where(reached, -progress, 0.0), axis=-1)
     with np.errstate(invalid="ignore", divide="ignore"):
-        return np.where(amplitude != 0, 100.0 * np.maximum(back, 0.0) / np.abs(amplitude), np.nan)
+        return np.where(_stepped(y, amplitude), 100.0 * np.maximum(back, 0.0) / np.abs(amplitude), np.nan)
 
 
 def rise_time(t, y, *, low: float = 0.1, high: float = 0.9, initial=None, final=None) -> np.ndarray:
     """Transition duration (s) between the ``low`` and ``high`` reference levels
     (10 % and 90 % of the amplitude by default, IEEE Std 181-2011), taking the first
     crossing of each, interpolated linearly between samples.  Works for falling steps
-    too.  NaN when a level is never reached or the amplitude is zero.
+    too.  NaN when a level is never reached or there is no step (:func:`has_step`).
     """
     if not 0.0 <= low < high <= 1.0:
         raise MeasurementError(
@@ -87,7 +112,7 @@ def rise_time(t, y, *, low: float = 0.1, high: float = 0.9, initial=None, final=
     y0, yf, amplitude, _ = _step_levels(y, initial, final)
     with np.errstate(invalid="ignore", divide="ignore"):
         z = (y - y0[..., None]) / amplitude[..., None]
-    return _first_crossing(t, z, high) - _first_crossing(t, z, low)
+    return np.where(_stepped(y, amplitude), _first_crossing(t, z, high) - _first_crossing(t, z, low), np.nan)
 
 
 def settling_time(
