@@ -22,6 +22,7 @@ import numpy as np
 
 from ..equations.statespace import StateSpaceCache
 from .batchexpm import expm_stack, rk4_stack
+from .kernel import compiled_for, write_columns
 
 __all__ = ["matvec", "Stretch", "Record"]
 
@@ -122,7 +123,8 @@ class Record:
     samples share that offset, so columns are copied in slices per offset.
     """
 
-    def __init__(self, N: int, capacity: int, extra_capacity: int, p: int):
+    def __init__(self, N: int, capacity: int, extra_capacity: int, p: int, batch: int = 0):
+        self.compiled = compiled_for(N, batch)  # copy blocks by the compiled loop (kernel.py)
         self.t_common = np.empty(capacity)
         self.y = np.empty((N, p, capacity + extra_capacity))
         self.t = np.empty((N, capacity + extra_capacity)) if extra_capacity else None
@@ -160,6 +162,9 @@ class Record:
         self.common += K
         if self.t is None:
             self.y[:, :, c0:c0 + K] = Y
+            return
+        if self.compiled:
+            write_columns(self.y, self.t, Y, ts, c0, self.ext_pos, self.ext_count)
             return
         count = self.ext_count
         last = np.where(count > 0, self.ext_pos[np.arange(count.size), np.maximum(count - 1, 0)], -1)
