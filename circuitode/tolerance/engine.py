@@ -428,8 +428,9 @@ def _collect(ss, ok: np.ndarray, problems: dict) -> None:
 
 
 def _recipe_rows(y: np.ndarray, recipe) -> list:
-    """(N, p_all, L) assembled rows → one contiguous (N, L) array per recorded probe: a
-    copy of its row, or the product v·i for a power probe.  (Every figure reads each
-    sample's row whole; numpy's argmax, argmin and reductions copy a strided row on
-    every call, about 8× the time of reading a contiguous one.)"""
+    """(N, p_all, L) assembled rows → one contiguous (N, L) array per recorded probe: its
+    row (a view when the record holds it whole, see :class:`.stepping.Record`, else a
+    copy), or the product v·i for a power probe.  (Every figure reads each sample's row
+    whole; numpy's argmax, argmin and reductions copy a strided row on every call, about
+    8× the time of reading a contiguous one.)"""
     return [np.ascontiguousarray(y[:, r[1]]) if r[0] == "row" else y[:, r[1]] * y[:, r[2]] for r in recipe]

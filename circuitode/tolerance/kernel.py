@@ -67,7 +67,7 @@ def write_columns(y: np.ndarray, t: np.ndarray | None, Y: np.ndarray, ts: np.nda
     """The compiled copy of a block's rows into a chunk's record (numba only; see
     :meth:`.stepping.Record.columns`, whose numpy code it replaces, for the layout).
 
-    y (N, p, width), t (N, width) or None, Y (N, p, K), ts (K,) s: common column c0 + k
+    y (p, N, width) (quantity-major), t (N, width) or None, Y (N, p, K), ts (K,) s: common column c0 + k
     of sample n lands at c0 + k + (its extra rows with position ≤ c0 + k), read from
     ext_pos (N, E) and ext_count (N,)."""
     _compiled_columns()(y, np.empty((0, 0)) if t is None else t, Y, np.ascontiguousarray(ts, dtype=float),
@@ -166,7 +166,7 @@ def _columns_loop(y, t, Y, ts, c0, ext_pos, ext_count, has_t):  # pragma: no cov
             d = c0 + cnt
             for r in range(p):
                 for k in range(K):
-                    y[n, r, d + k] = Y[n, r, k]
+                    y[r, n, d + k] = Y[n, r, k]
             if has_t:
                 for k in range(K):
                     t[n, d + k] = ts[k]
@@ -179,7 +179,7 @@ def _columns_loop(y, t, Y, ts, c0, ext_pos, ext_count, has_t):  # pragma: no cov
             dest[k] = c0 + k + before
         for r in range(p):
             for k in range(K):
-                y[n, r, dest[k]] = Y[n, r, k]
+                y[r, n, dest[k]] = Y[n, r, k]
         if has_t:
             for k in range(K):
                 t[n, dest[k]] = ts[k]
