@@ -150,6 +150,11 @@ def test_compiled_record_copy_equals_the_numpy_copy(monkeypatch, moving):
             r.ext_count[n] = count
         r.columns(ts, Y)
         out.append((r.y.copy(), r.t.copy()))
-    (y_np, t_np), (y_nb, t_nb) = out
+        t_end, y_end = r.finish()  # compiled: the rows moved to the front of the buffer
+        assert y_end.shape == (N, p, c0 + K + int(r.ext_count.max()))
+        assert y_end[:, 0].flags.c_contiguous == (batch > 0)
+        out[-1] += (t_end.copy(), y_end.copy())
+    (y_np, t_np, te_np, ye_np), (y_nb, t_nb, te_nb, ye_nb) = out
     assert np.array_equal(y_np, y_nb, equal_nan=True) and np.array_equal(t_np, t_nb, equal_nan=True)
     assert np.isfinite(y_nb).sum() == N * p * K  # every value written once, nothing else
+    assert np.array_equal(ye_np, ye_nb, equal_nan=True) and np.array_equal(te_np, te_nb, equal_nan=True)

@@ -28,8 +28,8 @@ import os
 
 import numpy as np
 
-__all__ = ["MIN_SAMPLES", "TILE", "block_steps", "compiled_for", "flops", "have_numba", "kernel_name",
-           "write_columns"]
+__all__ = ["MIN_SAMPLES", "TILE", "block_steps", "compact_rows", "compiled_for", "flops", "have_numba",
+           "kernel_name", "write_columns"]
 
 #: Samples per tile of the compiled loop (the vectorised innermost axis): Φ, G, the state
 #: and the sums of a tile (s = 7, p = 6: about 150 kB) stay in the second-level cache
@@ -72,6 +72,18 @@ def write_columns(y: np.ndarray, t: np.ndarray | None, Y: np.ndarray, ts: np.nda
     ext_pos (N, E) and ext_count (N,)."""
     _compiled_columns()(y, np.empty((0, 0)) if t is None else t, Y, np.ascontiguousarray(ts, dtype=float),
                         int(c0), ext_pos, ext_count, t is not None)
+
+
+def compact_rows(y: np.ndarray, L: int) -> np.ndarray:
+    """The first L columns of every row of a C-contiguous y (…, width), moved in place to
+    the front of its buffer (numba only): returns them as a contiguous (…, L) view of
+    that buffer, whose old layout is then spoilt.  A record's rows become contiguous
+    without a second record's worth of fresh memory."""
+    width = y.shape[-1]
+    flat = y.reshape(-1)
+    rows = flat.size // max(width, 1)
+    _compiled_compact()(flat, rows, width, int(L))
+    return flat[:rows * L].reshape(y.shape[:-1] + (L,))
 
 
 def flops(N: int, K: int, s: int, p: int, sums: bool = True) -> float:
@@ -145,6 +157,24 @@ def _compiled():
             _KERNEL["fn"] = numba.njit(cache=True, nogil=True, error_model="numpy",
                                        fastmath={"contract"})(_tile_loop)
     return _KERNEL["fn"]
+
+
+def _compiled_compact():
+    if "compact" not in _KERNEL:
+        import numba
+
+        _KERNEL["compact"] = numba.njit(cache=True, nogil=True)(_compact_loop)
+    return _KERNEL["compact"]
+
+
+def _compact_loop(flat, rows, width, L):  # pragma: no cover - compiled by numba
+    """Row i's first L values from flat[i·width:] to flat[i·L:], rows in order (a value is
+    overwritten only after it was read: i·L ≤ i·width)."""
+    for i in range(rows):
+        src, dst = i * width, i * L
+        if src != dst:
+            for k in range(L):
+                flat[dst + k] = flat[src + k]
 
 
 def _compiled_columns():

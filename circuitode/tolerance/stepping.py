@@ -22,7 +22,7 @@ import numpy as np
 
 from ..equations.statespace import StateSpaceCache
 from .batchexpm import expm_stack, rk4_stack
-from .kernel import compiled_for, write_columns
+from .kernel import compact_rows, compiled_for, write_columns
 
 __all__ = ["matvec", "Stretch", "Record"]
 
@@ -206,16 +206,25 @@ class Record:
 
     def finish(self) -> tuple[np.ndarray, np.ndarray]:
         """t (N, L) s and y (N, p, L).  A sample with fewer extra rows than another is
-        padded at the end with copies of its last row (zero-length, changes no figure)."""
+        padded at the end with copies of its last row (zero-length, changes no figure).
+        With the compiled loops the rows are moved to the front of the record's buffer
+        (:func:`.kernel.compact_rows`), so each quantity's (N, L) rows are contiguous; the
+        record takes no more rows after this."""
         C = self.common
         N = self.y.shape[1]
         E = int(self.ext_count.max(initial=0))
-        if E == 0:
-            return np.broadcast_to(self.t_common[:C], (N, C)), np.swapaxes(self.y[:, :, :C], 0, 1)
         L = C + E
-        for o in np.unique(self.ext_count):
-            if o < E:
-                sel = self.ext_count == o
-                self.y[:, sel, C + o:L] = self.y[:, sel, C + o - 1:C + o]
-                self.t[sel, C + o:L] = self.t[sel, C + o - 1:C + o]
-        return self.t[:, :L], np.swapaxes(self.y[:, :, :L], 0, 1)
+        if E == 0:
+            t = np.broadcast_to(self.t_common[:C], (N, C))
+        else:
+            for o in np.unique(self.ext_count):
+                if o < E:
+                    sel = self.ext_count == o
+                    self.y[:, sel, C + o:L] = self.y[:, sel, C + o - 1:C + o]
+                    self.t[sel, C + o:L] = self.t[sel, C + o - 1:C + o]
+            t = self.t[:, :L]
+        if self.compiled and L < self.y.shape[2]:  # each quantity's rows one contiguous block
+            y = compact_rows(self.y, L)
+            self.y = None  # (its layout is spoilt)
+            return t, np.swapaxes(y, 0, 1)
+        return t, np.swapaxes(self.y[:, :, :L], 0, 1)
