@@ -101,3 +101,60 @@ def test_batch_figures_equal_with_and_without_the_compiled_loop(monkeypatch, tmp
         assert np.nanmax(np.abs(a - b)) <= 1e-9 * scale, key
         compared += 1
     assert compared >= 10
+
+
+def test_a_large_batch_of_small_chunks_takes_the_compiled_loop(monkeypatch):
+    """A chunk below MIN_SAMPLES of a batch above it (a long run's chunks are small) runs the
+    compiled loop: numba's start is paid once per process, not per chunk.  Same states as
+    the exponential solution (Ogata ch. 9, as above)."""
+    pytest.importorskip("numba")
+    monkeypatch.setenv("CIRCUITODE_NO_NUMBA", "0")
+    calls = []
+    real = kernel._compiled()
+    monkeypatch.setattr(kernel, "_compiled", lambda: calls.append(1) or real)
+    M, G, w = _systems(N=20, s=3, p=2)
+    h = 0.1
+    phi = np.stack([expm(m * h) for m in M])
+    W = kernel.block_steps(phi, G, w, 3, batch=kernel.MIN_SAMPLES)[0]
+    assert calls, "the compiled loop was not used"
+    exact = np.stack([expm(m * 3 * h) @ v for m, v in zip(M, w)])
+    assert np.allclose(W[:, 2], exact, rtol=1e-12, atol=1e-13)
+    assert not kernel.compiled_for(20, 0) and kernel.compiled_for(20, kernel.MIN_SAMPLES)
+
+
+@pytest.mark.parametrize("moving", [False, True])
+def test_compiled_record_copy_equals_the_numpy_copy(monkeypatch, moving):
+    """Record.columns by the compiled loop (kernel.write_columns) puts every value where the
+    numpy code puts it, bit for bit: samples with 0–5 extra rows before the block, and (moving)
+    extra rows placed among the block's columns.  A structural check: the same copy two ways."""
+    pytest.importorskip("numba")
+    from circuitode.tolerance.stepping import Record
+
+    monkeypatch.setenv("CIRCUITODE_NO_NUMBA", "0")
+    rng = np.random.default_rng(3)
+    N, p, K, c0 = 40, 3, 16, 20
+    Y = rng.normal(size=(N, p, K))
+    ts = 1e-3 + 1e-5 * np.arange(K)
+    out = []
+    for batch in (0, kernel.MIN_SAMPLES):
+        r = Record(N, 64, 12, p, batch=batch)
+        assert r.compiled == (batch > 0)
+        r.y[:] = np.nan
+        r.t[:] = np.nan
+        r.common = c0
+        rng2 = np.random.default_rng(5)
+        for n in range(N):
+            count = int(rng2.integers(0, 6))
+            top = c0 + (K if moving and n % 2 else 0)
+            r.ext_pos[n, :count] = np.sort(rng2.integers(0, top, count))
+            r.ext_count[n] = count
+        r.columns(ts, Y)
+        out.append((r.y.copy(), r.t.copy()))
+        t_end, y_end = r.finish()  # compiled: the rows moved to the front of the buffer
+        assert y_end.shape == (N, p, c0 + K + int(r.ext_count.max()))
+        assert y_end[:, 0].flags.c_contiguous == (batch > 0)
+        out[-1] += (t_end.copy(), y_end.copy())
+    (y_np, t_np, te_np, ye_np), (y_nb, t_nb, te_nb, ye_nb) = out
+    assert np.array_equal(y_np, y_nb, equal_nan=True) and np.array_equal(t_np, t_nb, equal_nan=True)
+    assert np.isfinite(y_nb).sum() == N * p * K  # every value written once, nothing else
+    assert np.array_equal(ye_np, ye_nb, equal_nan=True) and np.array_equal(te_np, te_nb, equal_nan=True)

@@ -151,7 +151,8 @@ def run_chunk(task: dict) -> dict:
         values = element_values(circuit, names, block)
         if not values:
             raise CircuitodeError("no element value depends on the sampled parameters")
-        waves = simulate_chunk(circuit, values, task["probes"], method=task["method"])
+        waves = simulate_chunk(circuit, values, task["probes"], method=task["method"],
+                               batch=task.get("batch", 0))
         labels = [p.label for p in task["probes"]]
         units = [p.unit for p in task["probes"]]
         windows = {r.quantity: r for r in circuit.requirements if r.windowed}
@@ -329,7 +330,7 @@ def _run_chunks(circuit, table, store, n_chunks, chunk_size, keys, probes, metho
     values = table.values
     tasks = [(c, {"circuit": circuit, "names": table.names, "start": c * chunk_size,
                   "values": values[c * chunk_size:(c + 1) * chunk_size], "keys": keys,
-                  "probes": probes, "method": method, "keep_waveforms": int(keep_waveforms)})
+                  "probes": probes, "method": method, "keep_waveforms": int(keep_waveforms), "batch": N})
              for c in todo]
     try:
         for c, result in executor.map_unordered(run_chunk, tasks):

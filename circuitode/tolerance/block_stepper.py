@@ -40,8 +40,10 @@ class BlockStepper:
     """
 
     def __init__(self, stretch: Stretch, watch: Watch, code, ok, G_cur, record: Record,
-                 tally: ChunkIntegrals | None = None, extrema: ChunkExtrema | None = None):
+                 tally: ChunkIntegrals | None = None, extrema: ChunkExtrema | None = None,
+                 batch: int = 0):
         self.stretch, self.watch, self.code, self.ok = stretch, watch, code, ok
+        self.batch = batch  # samples of the whole batch (chooses the kernel, see kernel.block_steps)
         self.G_cur, self.record, self.tally, self.extrema = G_cur, record, tally, extrema
         self.moments: dict = {}  # (configuration code, step length) → integral operators
         self.phi: dict = {}  # step length → (N, s, s), each sample's configuration
@@ -146,7 +148,8 @@ class BlockStepper:
         if h not in self.phi:
             self.phi[h] = self.stretch.phi(code, h)
         # (N, Kb, s), (N, p, Kb) and the sums of the start states, one compiled pass
-        W, Y, S1, S2 = block_steps(self.phi[h], self.G_cur, w, Kb, sums=self.tally is not None)
+        W, Y, S1, S2 = block_steps(self.phi[h], self.G_cur, w, Kb, sums=self.tally is not None,
+                                     batch=self.batch)
         g = watch.values(Y, code)  # (N, k, Kb)
         col_code = np.repeat(code[:, None], Kb, axis=1)  # each step's configuration
         t_before = np.concatenate([[t_start], ts[:-1]])
@@ -176,7 +179,8 @@ class BlockStepper:
                 col_code[idx] = np.where(later, code[idx, None], col_code[idx])
                 col_code[idx, j] = -1
                 if later.any():
-                    tail = block_steps(self.phi[h][idx], self.G_cur[idx], w_e, Kb - 1, sums=False)[0]
+                    tail = block_steps(self.phi[h][idx], self.G_cur[idx], w_e, Kb - 1, sums=False,
+                                       batch=self.batch)[0]
                     back = np.clip(cols[None, :] - j[:, None] - 1, 0, None)
                     W_idx = np.where(later[:, :, None], np.take_along_axis(tail, back[:, :, None], axis=1), W[idx])
                     W[idx] = W_idx

@@ -148,7 +148,8 @@ def linear_probes(probes) -> tuple[list, list]:
     return rows, recipe
 
 
-def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exact") -> ChunkWaves:
+def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exact",
+                   batch: int = 0) -> ChunkWaves:
     """Run one chunk of samples through the circuit's transient window.
 
     Parameters
@@ -158,6 +159,8 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         level fields are given as (source, "waveform.<field>") (see source_batch).
     probes : what to record (PowerIn allowed).
     method : "exact" (batched matrix exponential) or "rk4" (batched classic RK4).
+    batch : samples of the whole batch this chunk belongs to (0: the chunk alone); it
+        chooses the block kernel (:func:`.kernel.block_steps`), not the results.
     """
     if method not in BATCH_METHODS:
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
@@ -270,7 +273,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     # instant it falls on)
     # (room for a few commutations of each diode: the record grows by doubling beyond it)
     record = Record(N, t_grid.size + 2 * len(changes) + 2 * corners.size + marks.size,
-                    2 * len(rules) + EXTRA_ROWS_PER_DIODE * len(dio), p_all)
+                    2 * len(rules) + EXTRA_ROWS_PER_DIODE * len(dio), p_all, batch)
     y_end_before = None
     queue = list(changes)
     for seg, (a, b) in enumerate(zip(bounds[:-1], bounds[1:])):
@@ -340,7 +343,7 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         if not last or stops.size == 0 or stops[-1] < b - slack:
             stops, slots = np.append(stops, b), np.append(slots, -1)
         lengths = np.diff(np.concatenate([[a], stops]))
-        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally, located)
+        stepper = BlockStepper(stretch, watch, code, ok, G_cur, record, tally, located, batch)
         located.begin(stretch)
         w, y_now, g_prev = stepper.run(w, g_prev, a, stops, lengths, slots >= 0)
         located.finish()
@@ -425,6 +428,9 @@ def _collect(ss, ok: np.ndarray, problems: dict) -> None:
 
 
 def _recipe_rows(y: np.ndarray, recipe) -> list:
-    """(N, p_all, L) assembled rows → one (N, L) array per recorded probe: a view of
-    its row, or the product v·i for a power probe."""
-    return [y[:, r[1]] if r[0] == "row" else y[:, r[1]] * y[:, r[2]] for r in recipe]
+    """(N, p_all, L) assembled rows → one contiguous (N, L) array per recorded probe: its
+    row (a view when the record holds it whole, see :class:`.stepping.Record`, else a
+    copy), or the product v·i for a power probe.  (Every figure reads each sample's row
+    whole; numpy's argmax, argmin and reductions copy a strided row on every call, about
+    8× the time of reading a contiguous one.)"""
+    return [np.ascontiguousarray(y[:, r[1]]) if r[0] == "row" else y[:, r[1]] * y[:, r[2]] for r in recipe]

@@ -9,8 +9,9 @@ state w_n (s,), one block of K steps gives
                                          (N, s), (N, s, s)  sums of the steps' start
                                          states (the running output integrals use them)
 
-With numba installed (the ``fast`` extra) and at least :data:`MIN_SAMPLES` samples,
-it is one compiled loop per tile of
+With numba installed (the ``fast`` extra) and at least :data:`MIN_SAMPLES` samples
+in the chunk or in the whole batch (``batch``: a batch of many small chunks pays
+numba's start once per process), it is one compiled loop per tile of
 :data:`TILE` samples: the tile's Φ and G are laid out samples-innermost, stay in
 the first-level cache through the K steps, and each step updates the state, the
 outputs and both sums for the whole tile in one pass (the sample loop is the one
@@ -27,15 +28,18 @@ import os
 
 import numpy as np
 
-__all__ = ["MIN_SAMPLES", "TILE", "block_steps", "flops", "have_numba", "kernel_name"]
+__all__ = ["MIN_SAMPLES", "TILE", "block_steps", "compact_rows", "compiled_for", "flops", "have_numba",
+           "kernel_name", "write_columns"]
 
 #: Samples per tile of the compiled loop (the vectorised innermost axis): Φ, G, the state
 #: and the sums of a tile (s = 7, p = 6: about 150 kB) stay in the second-level cache
 #: through the K steps.  Measured on a 2-core AVX-512 machine: 128 beat 64 and 256.
 TILE = 128
-#: Fewest samples for which the compiled loop is used: below, the numpy recurrence costs
-#: less than numba's start on the first call (0.5–1.3 s measured: import, typing, loading
-#: the cached machine code), e.g. the 33–200 points of a sweep or a sizing.
+#: Fewest samples (of the chunk, or of the whole batch) for which the compiled loop is used:
+#: below, the numpy recurrence costs less than numba's start on the first call (0.5–1.3 s
+#: measured: import, typing, loading the cached machine code), e.g. the 33–200 points of a
+#: sweep or a sizing.  A long run's chunks can be smaller (the bridge rectifier's 20,080
+#: rows a sample give chunks of 155): the batch's size decides for them.
 MIN_SAMPLES = 256
 #: Steps whose states and outputs a tile gathers before writing them out sample-major
 #: (each sample's KB·s states and KB outputs per row are whole cache lines).
@@ -53,22 +57,53 @@ def kernel_name() -> str:
     return "numba" if have_numba() else "numpy"
 
 
+def compiled_for(N: int, batch: int = 0) -> bool:
+    """True when a chunk of N samples of a batch of ``batch`` runs the compiled loops."""
+    return max(N, batch) >= MIN_SAMPLES and have_numba()
+
+
+def write_columns(y: np.ndarray, t: np.ndarray | None, Y: np.ndarray, ts: np.ndarray, c0: int,
+                  ext_pos: np.ndarray, ext_count: np.ndarray) -> None:
+    """The compiled copy of a block's rows into a chunk's record (numba only; see
+    :meth:`.stepping.Record.columns`, whose numpy code it replaces, for the layout).
+
+    y (p, N, width) (quantity-major), t (N, width) or None, Y (N, p, K), ts (K,) s: common column c0 + k
+    of sample n lands at c0 + k + (its extra rows with position ≤ c0 + k), read from
+    ext_pos (N, E) and ext_count (N,)."""
+    _compiled_columns()(y, np.empty((0, 0)) if t is None else t, Y, np.ascontiguousarray(ts, dtype=float),
+                        int(c0), ext_pos, ext_count, t is not None)
+
+
+def compact_rows(y: np.ndarray, L: int) -> np.ndarray:
+    """The first L columns of every row of a C-contiguous y (…, width), moved in place to
+    the front of its buffer (numba only): returns them as a contiguous (…, L) view of
+    that buffer, whose old layout is then spoilt.  A record's rows become contiguous
+    without a second record's worth of fresh memory."""
+    width = y.shape[-1]
+    flat = y.reshape(-1)
+    rows = flat.size // max(width, 1)
+    _compiled_compact()(flat, rows, width, int(L))
+    return flat[:rows * L].reshape(y.shape[:-1] + (L,))
+
+
 def flops(N: int, K: int, s: int, p: int, sums: bool = True) -> float:
     """Floating-point operations of one :func:`block_steps` call (multiply and add count 2)."""
     per = 2 * s * s + 2 * p * s + ((s + 2 * s * s) if sums else 0)
     return float(N) * K * per
 
 
-def block_steps(phi: np.ndarray, G: np.ndarray, w: np.ndarray, K: int, sums: bool = True):
+def block_steps(phi: np.ndarray, G: np.ndarray, w: np.ndarray, K: int, sums: bool = True, batch: int = 0):
     """K steps of w ← Φ w for every sample; see the module docstring.
 
-    phi : (N, s, s), G : (N, p, s), w : (N, s), K ≥ 1.
+    phi : (N, s, s), G : (N, p, s), w : (N, s), K ≥ 1.  batch : samples of the whole
+    batch the chunk belongs to (0: the chunk alone); the compiled loop runs when N or
+    batch reaches :data:`MIN_SAMPLES`.
     Returns W (N, K, s), Y (N, p, K) and, with sums, S1 (N, s), S2 (N, s, s)
     (None, None without).
     """
     N, s = w.shape
     p = G.shape[1]
-    fn = _compiled() if N >= MIN_SAMPLES else None
+    fn = _compiled() if compiled_for(N, batch) else None
     if fn is None:
         return _numpy_steps(phi, G, w, K, sums)
     W = np.empty((N, K, s))
@@ -122,6 +157,62 @@ def _compiled():
             _KERNEL["fn"] = numba.njit(cache=True, nogil=True, error_model="numpy",
                                        fastmath={"contract"})(_tile_loop)
     return _KERNEL["fn"]
+
+
+def _compiled_compact():
+    if "compact" not in _KERNEL:
+        import numba
+
+        _KERNEL["compact"] = numba.njit(cache=True, nogil=True)(_compact_loop)
+    return _KERNEL["compact"]
+
+
+def _compact_loop(flat, rows, width, L):  # pragma: no cover - compiled by numba
+    """Row i's first L values from flat[i·width:] to flat[i·L:], rows in order (a value is
+    overwritten only after it was read: i·L ≤ i·width)."""
+    for i in range(rows):
+        src, dst = i * width, i * L
+        if src != dst:
+            for k in range(L):
+                flat[dst + k] = flat[src + k]
+
+
+def _compiled_columns():
+    if "columns" not in _KERNEL:
+        import numba
+
+        _KERNEL["columns"] = numba.njit(cache=True, nogil=True)(_columns_loop)
+    return _KERNEL["columns"]
+
+
+def _columns_loop(y, t, Y, ts, c0, ext_pos, ext_count, has_t):  # pragma: no cover - compiled by numba
+    """See :func:`write_columns`: one sample at a time, its rows copied whole."""
+    N, p, K = Y.shape
+    dest = np.empty(K, dtype=np.int64)
+    for n in range(N):
+        cnt = ext_count[n]
+        last = ext_pos[n, cnt - 1] if cnt > 0 else -1
+        if last < c0:  # no extra row among these columns: one offset for the block
+            d = c0 + cnt
+            for r in range(p):
+                for k in range(K):
+                    y[r, n, d + k] = Y[n, r, k]
+            if has_t:
+                for k in range(K):
+                    t[n, d + k] = ts[k]
+            continue
+        for k in range(K):  # each column's place: after the extra rows placed up to it
+            before = 0
+            for e in range(cnt):
+                if ext_pos[n, e] <= c0 + k:
+                    before += 1
+            dest[k] = c0 + k + before
+        for r in range(p):
+            for k in range(K):
+                y[r, n, dest[k]] = Y[n, r, k]
+        if has_t:
+            for k in range(K):
+                t[n, dest[k]] = ts[k]
 
 
 def _tile_loop(phiB, GB, wB, W, Y, S1, S2, sums):  # pragma: no cover - compiled by numba

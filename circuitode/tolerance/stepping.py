@@ -22,6 +22,7 @@ import numpy as np
 
 from ..equations.statespace import StateSpaceCache
 from .batchexpm import expm_stack, rk4_stack
+from .kernel import compact_rows, compiled_for, write_columns
 
 __all__ = ["matvec", "Stretch", "Record"]
 
@@ -119,12 +120,16 @@ class Record:
     threshold switch acting: just before and just after) are *extra rows*, each
     placed before the common column ``pos`` it precedes.  A sample's common column
     c therefore lands at c plus the number of its extra rows with ``pos ≤ c``; most
-    samples share that offset, so columns are copied in slices per offset.
+    samples share that offset, so columns are copied in slices per offset.  The rows are
+    held quantity-major, (p, N, width), so that each recorded quantity of every sample is
+    one contiguous block for the figures that read it (:meth:`finish` returns the (N, p, L)
+    view).
     """
 
-    def __init__(self, N: int, capacity: int, extra_capacity: int, p: int):
+    def __init__(self, N: int, capacity: int, extra_capacity: int, p: int, batch: int = 0):
+        self.compiled = compiled_for(N, batch)  # copy blocks by the compiled loop (kernel.py)
         self.t_common = np.empty(capacity)
-        self.y = np.empty((N, p, capacity + extra_capacity))
+        self.y = np.empty((p, N, capacity + extra_capacity))
         self.t = np.empty((N, capacity + extra_capacity)) if extra_capacity else None
         self.common = 0
         self.extra_capacity = extra_capacity
@@ -137,8 +142,8 @@ class Record:
         if need <= self.extra_capacity:
             return
         grow = max(need, 2 * self.extra_capacity) - self.extra_capacity
-        N, p, width = self.y.shape
-        self.y = np.concatenate([self.y, np.empty((N, p, grow))], axis=2)
+        p, N, width = self.y.shape
+        self.y = np.concatenate([self.y, np.empty((p, N, grow))], axis=2)
         if self.t is None:  # no extra row yet: every sample's rows are the common columns
             self.t = np.empty((N, width + grow))
             self.t[:, :self.common] = self.t_common[:self.common]
@@ -159,7 +164,10 @@ class Record:
         self.t_common[c0:c0 + K] = ts
         self.common += K
         if self.t is None:
-            self.y[:, :, c0:c0 + K] = Y
+            self.y[:, :, c0:c0 + K] = np.swapaxes(Y, 0, 1)
+            return
+        if self.compiled:
+            write_columns(self.y, self.t, Y, ts, c0, self.ext_pos, self.ext_count)
             return
         count = self.ext_count
         last = np.where(count > 0, self.ext_pos[np.arange(count.size), np.maximum(count - 1, 0)], -1)
@@ -168,10 +176,10 @@ class Record:
         for o in np.unique(count[steady]):
             sel = steady & (count == o)
             if sel.all():
-                self.y[:, :, c0 + o:c0 + o + K] = Y
+                self.y[:, :, c0 + o:c0 + o + K] = np.swapaxes(Y, 0, 1)
                 self.t[:, c0 + o:c0 + o + K] = ts
             else:
-                self.y[sel, :, c0 + o:c0 + o + K] = Y[sel]
+                self.y[:, sel, c0 + o:c0 + o + K] = np.swapaxes(Y[sel], 0, 1)
                 self.t[sel, c0 + o:c0 + o + K] = ts
         r = np.flatnonzero(moving)
         if r.size:
@@ -179,9 +187,9 @@ class Record:
             used = np.arange(self.ext_pos.shape[1])[None, :] < count[r, None]  # (R, E)
             before = ((self.ext_pos[r, :, None] <= cols[None, None, :]) & used[:, :, None]).sum(axis=1)
             dest = cols[None, :] + before  # (R, K)
-            N, p, width = self.y.shape
-            rows = (r[:, None] * p + np.arange(p)[None, :]).reshape(-1, 1)  # (R·p, 1)
-            self.y.reshape(N * p, width)[rows, np.repeat(dest, p, axis=0)] = Y[r].reshape(-1, K)
+            p, N, width = self.y.shape
+            rows = (r[:, None] + N * np.arange(p)[None, :]).reshape(-1, 1)  # (R·p, 1), sample-major
+            self.y.reshape(p * N, width)[rows, np.repeat(dest, p, axis=0)] = Y[r].reshape(-1, K)
             self.t[r[:, None], dest] = ts[None, :]
 
     def some(self, idx: np.ndarray, t: np.ndarray, y: np.ndarray, pos=None) -> None:
@@ -192,22 +200,31 @@ class Record:
         pos = np.broadcast_to(self.common if pos is None else np.asarray(pos, dtype=np.int64), idx.shape)
         dest = pos + k
         self.t[idx, dest] = t
-        self.y[idx, :, dest] = y
+        self.y[:, idx, dest] = y.T
         self.ext_pos[idx, k] = pos
         self.ext_count[idx] += 1
 
     def finish(self) -> tuple[np.ndarray, np.ndarray]:
         """t (N, L) s and y (N, p, L).  A sample with fewer extra rows than another is
-        padded at the end with copies of its last row (zero-length, changes no figure)."""
+        padded at the end with copies of its last row (zero-length, changes no figure).
+        With the compiled loops the rows are moved to the front of the record's buffer
+        (:func:`.kernel.compact_rows`), so each quantity's (N, L) rows are contiguous; the
+        record takes no more rows after this."""
         C = self.common
-        N = self.y.shape[0]
+        N = self.y.shape[1]
         E = int(self.ext_count.max(initial=0))
-        if E == 0:
-            return np.broadcast_to(self.t_common[:C], (N, C)), self.y[:, :, :C]
         L = C + E
-        for o in np.unique(self.ext_count):
-            if o < E:
-                sel = self.ext_count == o
-                self.y[sel, :, C + o:L] = self.y[sel, :, C + o - 1:C + o]
-                self.t[sel, C + o:L] = self.t[sel, C + o - 1:C + o]
-        return self.t[:, :L], self.y[:, :, :L]
+        if E == 0:
+            t = np.broadcast_to(self.t_common[:C], (N, C))
+        else:
+            for o in np.unique(self.ext_count):
+                if o < E:
+                    sel = self.ext_count == o
+                    self.y[:, sel, C + o:L] = self.y[:, sel, C + o - 1:C + o]
+                    self.t[sel, C + o:L] = self.t[sel, C + o - 1:C + o]
+            t = self.t[:, :L]
+        if self.compiled and L < self.y.shape[2]:  # each quantity's rows one contiguous block
+            y = compact_rows(self.y, L)
+            self.y = None  # (its layout is spoilt)
+            return t, np.swapaxes(y, 0, 1)
+        return t, np.swapaxes(self.y[:, :, :L], 0, 1)
