@@ -18,9 +18,9 @@ largest value found.  With the exact method the states are exact, so the peak an
 its instant are exact to rounding whatever the output step; with rk4 they inherit
 the method's state error, as in the single run.
 
-Where the step is longer than an eighth of the period 2π/|λ| of the fastest mode the
-recorded rows see (|λ| the largest seen eigenvalue modulus of the stretch's augmented
-matrices over the samples, :data:`circuitode.solvers.visibility.SEEN`), a whole swing
+Where the step is longer than an eighth of the period 2π/ω of the fastest ringing the
+recorded rows see (ω the largest seen |Im λ| of the stretch's augmented matrices over
+the samples, :data:`circuitode.solvers.visibility.SEEN`), a whole swing
 may begin and end inside one step: each step is then searched at :data:`PER_PERIOD`
 sub-points per period (e^{M s_j} stacked over samples once per configuration and step
 length, applied to every step's start state at once), and the best sub-interval with a
@@ -55,7 +55,7 @@ _ITERATIONS = 80
 #: A Newton step below this fraction of the interval ends the search (the error after it is
 #: of its square, far below rounding).
 _STEP_TOL = 1e-12
-#: Sub-points per period 2π/|λ| of the fastest seen mode where the steps are coarser.
+#: Sub-points per period 2π/|Im λ| of the fastest seen ringing where the steps are coarser.
 PER_PERIOD = 8
 #: Caps of the sub-point search: sub-points per step, and bytes of the stacked sub-point
 #: exponentials of one configuration and step length.
@@ -115,7 +115,7 @@ class ChunkExtrema:
         for c in codes[codes >= 0]:
             use = None if codes.size == 1 else (col_code == c)[:, None, :]  # (N, 1, K)
             sub = self._subpoints(int(c), h)
-            if sub is not None:  # the step does not resolve the fastest seen mode
+            if sub is not None:  # the step does not resolve the fastest seen ringing
                 self._swings(sub, int(c), h, points, use, t_left)
                 continue
             both = self._outputs(int(c)) @ across  # (N, 2r, K + 1): values, slopes at the bounds
@@ -147,10 +147,7 @@ class ChunkExtrema:
             full = np.full(self.value.shape[0], c)
             M = self.stretch.M(full)
             G = self.stretch.G(full)[:, self.rows]
-            lam, V = np.linalg.eig(M)  # (N, s), (N, s, s)
-            scale = np.linalg.norm(G, axis=(1, 2))[:, None] * np.linalg.norm(V, axis=1)
-            seen = np.max(np.abs(G @ V), axis=1) > SEEN * np.where(scale > 0, scale, 1.0)
-            rate = float(np.max(np.where(seen, np.abs(lam), 0.0), initial=0.0))
+            rate = float(np.max(_seen_rate(M, G), initial=0.0))
             wanted = int(np.ceil(PER_PERIOD * h * rate / (2 * np.pi)))
             if wanted <= 1:
                 self._sub[key] = None
@@ -207,27 +204,36 @@ class ChunkExtrema:
               w1: np.ndarray, length: np.ndarray, t0: np.ndarray) -> None:
         """Pieces of a step split by a switch, one per sample idx (each once): configuration
         codes (K,), output and system matrices G (K, p, s), M (K, s, s), states at both ends
-        w0, w1 (K, s), lengths (K,) s, starting instants t0 (K,) s."""
+        w0, w1 (K, s), lengths (K,) s, starting instants t0 (K,) s.  A piece longer than
+        PER_PERIOD-th of its fastest seen period is searched at sub-points (as :meth:`steps`)."""
         if self.rows.size == 0 or self.stretch is None or idx.size == 0:
             return
         if self.w is None:
             self.w = np.zeros(self.value.shape + (w0.shape[1],))
         Gr = G[:, self.rows]
         GM = Gr @ M
-        y0, y1 = np.einsum("krs,ks->kr", Gr, w0), np.einsum("krs,ks->kr", Gr, w1)
-        d0, d1 = np.einsum("krs,ks->kr", GM, w0), np.einsum("krs,ks->kr", GM, w1)
         length = np.asarray(length, dtype=float)
+        t0 = np.asarray(t0, dtype=float)
+        wanted = int(np.ceil(PER_PERIOD * np.max(length * _seen_rate(M, Gr), initial=0.0) / (2 * np.pi)))
+        P = max(1, min(wanted, MAX_PER_STEP))
+        self.capped |= P < wanted
+        W = [w0] + [(expm_stack(M * (j * length / P)[:, None, None]) @ w0[:, :, None])[:, :, 0]
+                    for j in range(1, P)] + [w1]  # states at the sub-points, (P + 1) × (K, s)
+        W = np.stack(W)
+        y, d = np.einsum("krs,jks->jkr", Gr, W), np.einsum("krs,jks->jkr", GM, W)  # (P + 1, K, r)
         for k, sign in enumerate(_SIGNS):
-            inside = (sign * d0 > 0) & (sign * d1 < 0) & (length > 0)[:, None]
-            score = np.where(inside, np.maximum(sign * y0, sign * y1), -np.inf)  # (K, r)
+            inside = (sign * d[:-1] > 0) & (sign * d[1:] < 0) & (length > 0)[None, :, None]
+            score = np.where(inside, np.maximum(sign * y[:-1], sign * y[1:]), -np.inf)  # (P, K, r)
+            jj = np.argmax(score, axis=0)  # (K, r): the best sub-interval of each piece
+            score = np.take_along_axis(score, jj[None], axis=0)[0]
             a, r = np.nonzero(score > self.score[idx, :, k])
-            n = idx[a]
+            n, j = idx[a], jj[a, r]
             self.score[n, r, k] = score[a, r]
             self.code[n, r, k] = codes[a]
-            self.h[n, r, k] = length[a]
-            self.t0[n, r, k] = np.asarray(t0, dtype=float)[a]
-            self.w[n, r, k] = w0[a]
-            self.ends[:, n, r, k] = (y0[a, r], y1[a, r], d0[a, r], d1[a, r])
+            self.h[n, r, k] = length[a] / P
+            self.t0[n, r, k] = t0[a] + j * length[a] / P
+            self.w[n, r, k] = W[j, a]
+            self.ends[:, n, r, k] = (y[j, a, r], y[j + 1, a, r], d[j, a, r], d[j + 1, a, r])
 
     def finish(self) -> None:
         """Locate the stretch's candidates that may beat the best so far; keep the larger."""
@@ -262,6 +268,17 @@ class ChunkExtrema:
             v = np.where(np.isfinite(self.value[:, j]), self.value[:, j], np.nan)
             out[int(row)] = (v[:, 0], self.when[:, j, 0], -v[:, 1], self.when[:, j, 1])
         return out
+
+
+def _seen_rate(M: np.ndarray, G: np.ndarray) -> np.ndarray:
+    """(K,) rad/s: per matrix the largest |Im λ| of M (K, s, s) whose mode some row of G
+    (K, r, s) sees (as :func:`circuitode.solvers.visibility.fastest_seen_ringing`, stacked)."""
+    if M.shape[0] == 0 or M.shape[1] == 0:
+        return np.zeros(M.shape[0])
+    lam, V = np.linalg.eig(M)  # (K, s), (K, s, s)
+    scale = np.linalg.norm(G, axis=(1, 2))[:, None] * np.linalg.norm(V, axis=1)
+    seen = np.max(np.abs(G @ V), axis=1) > SEEN * np.where(scale > 0, scale, 1.0)
+    return np.max(np.where(seen, np.abs(lam.imag), 0.0), axis=1)
 
 
 def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sign: np.ndarray,

@@ -14,18 +14,21 @@ extremum.  With the exact method the rows' states are exact, so the refined
 peak and its instant are exact to the root tolerance whatever the output step;
 with another method they inherit that method's state error (not the step's).
 
-Where the output step resolves the fastest mode a quantity sees (with its
-sources' own oscillation: h·|λ| ≤ π/4, at least 8 rows per period 2π/|λ|), the
+Where the output step resolves the fastest oscillation the recorded quantities see
+(with their sources' own: h·ω ≤ π/4, at least 8 rows per period 2π/ω, ω = |Im λ|), the
 intervals around the largest discrete local extrema of the rows are searched
 (:data:`CANDIDATES` per quantity and direction).  Where it does not, a whole swing
 may begin and end between two rows, so every interval of such a stretch is searched
-at :data:`PER_PERIOD` sub-points per period 2π/|λ| (|λ| the fastest rate of the
-stretch's augmented matrix that the quantity sees, :mod:`circuitode.solvers.visibility`),
+at :data:`PER_PERIOD` sub-points per period 2π/ω (ω the largest |Im λ| of the
+stretch's augmented matrix that a recorded quantity sees, :mod:`circuitode.solvers.visibility`),
 evaluated for all intervals at once through the stacked exponentials e^{M s_j}; each
 sign change of the slope between sub-points is a bracket, and the brackets with the
 largest values (:data:`CANDIDATES`) are refined as above.  The sub-points per
 quantity are capped (:data:`MAX_SUBPOINTS`, :data:`MAX_PER_INTERVAL`);
-``Extremum.capped`` says when the cap thinned them below :data:`PER_PERIOD`.
+``Extremum.capped`` says when the cap thinned them below :data:`PER_PERIOD`.  Modes that
+do not ring (real λ) need no sub-points: the slope of a sum of two decaying
+exponentials and a constant changes sign at most once, which the rows' slope test sees;
+two sign changes inside one interval from three or more real modes are not looked for.
 """
 from __future__ import annotations
 
@@ -37,14 +40,14 @@ from ..solvers.roots import brent_root
 
 from ..solvers.base import generator_matrices
 from ..solvers.exact import augmented_matrix
-from ..solvers.visibility import fastest_seen_rate
+from ..solvers.visibility import fastest_seen_ringing
 
 __all__ = ["CANDIDATES", "PER_PERIOD", "MAX_SUBPOINTS", "MAX_PER_INTERVAL", "Extremum", "BetweenRows",
            "refine_extrema"]
 
 #: Discrete local maxima (and minima) of the rows refined per quantity.
 CANDIDATES = 6
-#: Sub-points per period 2π/|λ| of the fastest seen mode where the rows are coarser.
+#: Sub-points per period 2π/|Im λ| of the fastest seen ringing where the rows are coarser.
 PER_PERIOD = 8
 #: Caps of the sub-point search: points per interval, and points per quantity and stretch.
 MAX_PER_INTERVAL = 1024
@@ -197,7 +200,7 @@ def _swing_brackets(t, states, configs, signals, bank):
             continue
         M, z0, G = system
         g = G[rows]
-        rate = fastest_seen_rate(M, g)
+        rate = fastest_seen_ringing(M, g)  # rad/s of the fastest seen oscillation
         h_max = float(np.max(gaps[i0:i1]))
         wanted = int(np.ceil(PER_PERIOD * h_max * rate / (2 * np.pi)))
         if wanted <= 1:  # the rows resolve every mode seen here
