@@ -180,6 +180,26 @@ def _stretches(t: np.ndarray, configs: Sequence, bank) -> list[tuple[int, int]]:
     return list(zip(first.tolist(), last.tolist()))
 
 
+def _powers(E1: np.ndarray, P: int) -> np.ndarray:
+    """(P + 1, s, s): E1⁰ … E1ᴾ, one product each (rounding grows as j·eps; the brackets
+    they give are refined on the solution itself)."""
+    out = np.empty((P + 1,) + E1.shape)
+    out[0] = np.eye(E1.shape[0])
+    for j in range(1, P + 1):  # over the sub-points, not the rows
+        out[j] = out[j - 1] @ E1
+    return out
+
+
+def _generator_states(F: np.ndarray, z0: np.ndarray, tau: np.ndarray) -> np.ndarray:
+    """(k, q): e^{F τ_k} z0 for every τ (s): by the eigenvectors of F when they are well
+    conditioned (constants, sines, exponentials), else by stacked expm (polynomials)."""
+    lam, V = np.linalg.eig(F)
+    if np.linalg.cond(V) < 1e4:
+        c = np.linalg.solve(V, z0)
+        return np.real((np.exp(tau[:, None] * lam[None, :]) * c) @ V.T)
+    return (expm(F[None] * tau[:, None, None]) @ z0[:, None])[:, :, 0]
+
+
 def _swing_brackets(t, states, configs, signals, bank):
     """Brackets of slope sign changes found at sub-points inside intervals the rows do not
     resolve (module docstring).  Returns label → ({+1: [...], −1: [...]}, capped, searched),
@@ -210,9 +230,7 @@ def _swing_brackets(t, states, configs, signals, bank):
         searched = True
         n = states.shape[1]
         if z0.size:  # the generator's state at each row: z(t_i) = e^{F (t_i − t_i0)} z0
-            tau = t[i0:i1] - t[i0]
-            Z = (expm(M[None, n:, n:] * tau[:, None, None]) @ z0[:, None])[:, :, 0]
-            W = np.concatenate([states[i0:i1], Z], axis=1)
+            W = np.concatenate([states[i0:i1], _generator_states(M[n:, n:], z0, t[i0:i1] - t[i0])], axis=1)
         else:
             W = states[i0:i1]
         h = gaps[i0:i1]
@@ -220,7 +238,7 @@ def _swing_brackets(t, states, configs, signals, bank):
         for k in np.unique(key):
             idx = np.flatnonzero(key == k)
             hk = float(np.max(h[idx]))
-            E = expm(M[None] * (np.arange(P + 1) * (hk / P))[:, None, None])  # (P + 1, s, s)
+            E = _powers(expm(M * (hk / P)), P)  # (P + 1, s, s): e^{M j hk/P}
             Y = np.einsum("jrs,is->rij", g @ E, W[idx])  # (labels, intervals, P + 1)
             D = np.einsum("jrs,is->rij", (g @ M) @ E, W[idx])
             for sign in (1.0, -1.0):
