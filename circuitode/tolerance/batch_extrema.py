@@ -282,12 +282,16 @@ def _powers(E1: np.ndarray, P: int) -> np.ndarray:
 def _seen_rate(M: np.ndarray, G: np.ndarray) -> np.ndarray:
     """(K,) rad/s: per matrix the largest |Im λ| of M (K, s, s) whose mode some row of G
     (K, r, s) sees (as :func:`circuitode.solvers.visibility.fastest_seen_ringing`, stacked)."""
+    out = np.zeros(M.shape[0])
     if M.shape[0] == 0 or M.shape[1] == 0:
-        return np.zeros(M.shape[0])
+        return out
+    good = np.isfinite(M).all(axis=(1, 2)) & np.isfinite(G).all(axis=(1, 2))  # a failed sample: 0
+    M, G = M[good], G[good]
     lam, V = np.linalg.eig(M)  # (K, s), (K, s, s)
     scale = np.linalg.norm(G, axis=(1, 2))[:, None] * np.linalg.norm(V, axis=1)
     seen = np.max(np.abs(G @ V), axis=1) > SEEN * np.where(scale > 0, scale, 1.0)
-    return np.max(np.where(seen, np.abs(lam.imag), 0.0), axis=1)
+    out[good] = np.max(np.where(seen, np.abs(lam.imag), 0.0), axis=1, initial=0.0)
+    return out
 
 
 def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sign: np.ndarray,
