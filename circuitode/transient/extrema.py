@@ -24,7 +24,7 @@ stretch's augmented matrix that a recorded quantity sees, :mod:`circuitode.solve
 evaluated for all intervals at once through the stacked exponentials e^{M s_j}; each
 sign change of the slope between sub-points is a bracket, and the brackets with the
 largest values (:data:`CANDIDATES`) are refined as above.  The sub-points per
-quantity are capped (:data:`MAX_SUBPOINTS`, :data:`MAX_PER_INTERVAL`);
+quantity are capped (:data:`MAX_SUBPOINTS`, :data:`MAX_PER_INTERVAL`, :data:`MAX_WORK`);
 ``Extremum.capped`` says when the cap thinned them below :data:`PER_PERIOD`.  Modes that
 do not ring (real λ) need no sub-points: the slope of a sum of two decaying
 exponentials and a constant changes sign at most once, which the rows' slope test sees;
@@ -42,7 +42,7 @@ from ..solvers.base import generator_matrices
 from ..solvers.exact import augmented_matrix
 from ..solvers.visibility import fastest_seen_ringing
 
-__all__ = ["CANDIDATES", "PER_PERIOD", "MAX_SUBPOINTS", "MAX_PER_INTERVAL", "Extremum", "BetweenRows",
+__all__ = ["CANDIDATES", "PER_PERIOD", "MAX_SUBPOINTS", "MAX_PER_INTERVAL", "MAX_WORK", "Extremum", "BetweenRows",
            "refine_extrema"]
 
 #: Discrete local maxima (and minima) of the rows refined per quantity.
@@ -52,6 +52,8 @@ PER_PERIOD = 8
 #: Caps of the sub-point search: points per interval, and points per quantity and stretch.
 MAX_PER_INTERVAL = 1024
 MAX_SUBPOINTS = 2_000_000
+#: Cap of the multiply-adds of the sub-point search of a run (P·intervals·s² for s states).
+MAX_WORK = 2e9
 
 
 class Extremum:
@@ -180,16 +182,6 @@ def _stretches(t: np.ndarray, configs: Sequence, bank) -> list[tuple[int, int]]:
     return list(zip(first.tolist(), last.tolist()))
 
 
-def _powers(E1: np.ndarray, P: int) -> np.ndarray:
-    """(P + 1, s, s): E1⁰ … E1ᴾ, one product each (rounding grows as j·eps; the brackets
-    they give are refined on the solution itself)."""
-    out = np.empty((P + 1,) + E1.shape)
-    out[0] = np.eye(E1.shape[0])
-    for j in range(1, P + 1):  # over the sub-points, not the rows
-        out[j] = out[j - 1] @ E1
-    return out
-
-
 def _generator_states(F: np.ndarray, z0: np.ndarray, tau: np.ndarray) -> np.ndarray:
     """(k, q): e^{F τ_k} z0 for every τ (s): by the eigenvectors of F when they are well
     conditioned (constants, sines, exponentials), else by stacked expm (polynomials)."""
@@ -211,7 +203,8 @@ def _swing_brackets(t, states, configs, signals, bank):
     if not labels or not runs:
         return out
     gaps = np.diff(t)
-    per_interval = max(1, MAX_SUBPOINTS // (len(labels) * sum(b - a for a, b in runs)))
+    total = sum(b - a for a, b in runs)
+    per_interval = max(1, MAX_SUBPOINTS // (len(labels) * total))
     capped = searched = False
     found = {label: {1.0: [], -1.0: []} for label in labels}
     for i0, i1 in runs:
@@ -225,7 +218,8 @@ def _swing_brackets(t, states, configs, signals, bank):
         wanted = int(np.ceil(PER_PERIOD * h_max * rate / (2 * np.pi)))
         if wanted <= 1:  # the rows resolve every mode seen here
             continue
-        P = min(wanted, MAX_PER_INTERVAL, per_interval)
+        size = M.shape[0]
+        P = max(1, min(wanted, MAX_PER_INTERVAL, per_interval, int(MAX_WORK // (size * size * total))))
         capped |= P < wanted
         searched = True
         n = states.shape[1]
@@ -238,9 +232,13 @@ def _swing_brackets(t, states, configs, signals, bank):
         for k in np.unique(key):
             idx = np.flatnonzero(key == k)
             hk = float(np.max(h[idx]))
-            E = _powers(expm(M * (hk / P)), P)  # (P + 1, s, s): e^{M j hk/P}
-            Y = np.einsum("jrs,is->rij", g @ E, W[idx])  # (labels, intervals, P + 1)
-            D = np.einsum("jrs,is->rij", (g @ M) @ E, W[idx])
+            E1, gM = expm(M * (hk / P)), g @ M
+            Y = np.empty((rows.size, idx.size, P + 1))  # (labels, intervals, sub-points)
+            D = np.empty_like(Y)
+            Wj = W[idx].T  # (s, intervals): the states at sub-point j of every interval
+            for j in range(P + 1):  # over the sub-points; the intervals at once
+                Y[:, :, j], D[:, :, j] = g @ Wj, gM @ Wj
+                Wj = E1 @ Wj
             for sign in (1.0, -1.0):
                 inside = (sign * D[:, :, :-1] > 0) & (sign * D[:, :, 1:] < 0)
                 score = np.where(inside, np.maximum(sign * Y[:, :, :-1], sign * Y[:, :, 1:]), -np.inf)
