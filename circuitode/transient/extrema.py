@@ -42,7 +42,7 @@ from ..solvers.base import generator_matrices
 from ..solvers.exact import augmented_matrix
 from ..solvers.visibility import fastest_seen_ringing
 
-__all__ = ["CANDIDATES", "PER_PERIOD", "MAX_SUBPOINTS", "MAX_PER_INTERVAL", "MAX_WORK", "Extremum", "BetweenRows",
+__all__ = ["CANDIDATES", "PER_PERIOD", "MAX_SUBPOINTS", "MAX_PER_INTERVAL", "MAX_WORK", "MAX_SEARCH_STATES", "Extremum", "BetweenRows",
            "refine_extrema"]
 
 #: Discrete local maxima (and minima) of the rows refined per quantity.
@@ -54,6 +54,9 @@ MAX_PER_INTERVAL = 1024
 MAX_SUBPOINTS = 2_000_000
 #: Cap of the multiply-adds of the sub-point search of a run (P·intervals·s² for s states).
 MAX_WORK = 2e9
+#: Above this many states (with the sources' generator) a stretch is not searched at
+#: sub-points (its eigenvalues and each refinement would cost seconds); ``capped`` says so.
+MAX_SEARCH_STATES = 64
 
 
 class Extremum:
@@ -212,6 +215,9 @@ def _swing_brackets(t, states, configs, signals, bank):
         if system is None:
             continue
         M, z0, G = system
+        if M.shape[0] > MAX_SEARCH_STATES:  # not searched: said as a cap
+            capped = True
+            continue
         g = G[rows]
         rate = fastest_seen_ringing(M, g)  # rad/s of the fastest seen oscillation
         h_max = float(np.max(gaps[i0:i1]))
