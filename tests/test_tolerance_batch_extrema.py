@@ -180,17 +180,61 @@ def test_a_peak_inside_the_step_a_threshold_switch_splits_is_located():
     assert off_rows > 1e-3  # the rows alone miss it (the check can fail)
 
 
-def test_a_swing_hidden_between_two_rows_is_warned_about():
+def test_a_swing_hidden_between_two_rows_is_located():
     # With L1 = 10 µH the loop rings with a 14 µs period inside one 50 µs step: the first
-    # current peak (0.95 A with a 0.5 µs step) begins and ends between two rows, so neither
-    # the rows nor the slope test at the rows see it; the run says so beside its figures
+    # current peak (0.95 A with a 0.5 µs step) begins and ends between two rows (the slope
+    # test at the rows alone printed 0.116 A); the sub-point search finds it in single runs
+    # and in batches (the piece after the switch), to 1e-9 of the fine run's located peak
     from circuitode.analysis.resolution import resolution_warnings
 
     text = RING_AFTER_THRESHOLD.replace("1.2 mH", "10 uH")
     label = "current through L1"
-    fine = co.simulate(loads(text.replace("step 50 us", "step 0.5 us"), overrides={"R_c": 800.0}))
-    coarse = co.simulate(loads(text, overrides={"R_c": 800.0}))
-    assert carried_figure("peak", fine, label) > 5 * carried_figure("peak", coarse, label)
-    (warning,) = resolution_warnings(coarse)
-    assert "a swing that begins and ends between two rows is not seen" in warning
+    values = np.array([[800.0], [900.0]])
+    got = _chunk(text, ("R_c",), values)
+    for i, (R,) in enumerate(values):
+        fine = co.simulate(loads(text.replace("step 50 us", "step 0.5 us"), overrides={"R_c": R}))
+        coarse = co.simulate(loads(text, overrides={"R_c": R}))
+        want = carried_figure("peak", fine, label)
+        assert want > 0.9  # the swing's peak (the check can fail: the rows see about 0.1 A)
+        assert carried_figure("peak", coarse, label) == pytest.approx(want, rel=1e-9)
+        assert got["peak", label][i] == pytest.approx(want, rel=1e-9)
+        assert got["time_of_peak", label][i] == pytest.approx(carried_figure("time_of_peak", fine, label), rel=1e-9)
+        assert np.max(np.abs(coarse.signals[label])) < 0.5 * want
+    (warning,) = resolution_warnings(coarse)  # rise and settling times stay row-based
+    assert "every output interval searched" in warning
     assert resolution_warnings(fine) == []
+
+
+@pytest.mark.parametrize("fraction", [1.3, 3.7])
+def test_series_rlc_batch_peaks_with_the_step_longer_than_the_damped_period(fraction):
+    # Output step 1.3 and 3.7 damped periods of the fastest sample (R = 1 Ω): each sample's
+    # first overshoot begins and ends between its first two rows; peak V(1 + e^{−ζπ/√(1−ζ²)})
+    # at π/ω_d (Ogata ch. 5), loop current extremes (Nilsson & Riedel ch. 8), to 1e-9
+    Td = 2 * math.pi / (W_N * math.sqrt(1 - (0.5 * math.sqrt(C / L)) ** 2))
+    text = SERIES_RLC.format(step=f"{fraction * Td * 1e6:.6f} us", method="exact")
+    got = _chunk(text, ("R_s",), R_VALUES[:, None])
+    vc, il = "voltage across C1", "current through L1"
+    for i, R in enumerate(R_VALUES):
+        t_p, v_peak, overshoot, i_max, i_min = _closed_form(R)
+        assert got["time_of_peak", vc][i] == pytest.approx(t_p, rel=1e-9)
+        assert got["peak", vc][i] == pytest.approx(v_peak, rel=1e-9)
+        assert got["peak", il][i] == pytest.approx(i_max, rel=1e-9)
+        assert got["minimum", il][i] == pytest.approx(i_min, rel=1e-9)
+    rows = co.simulate(loads(text, overrides={"R_s": 1.0}))  # the rows alone miss it
+    assert float(np.max(rows.signals[vc])) < 0.8 * _closed_form(1.0)[1]
+
+
+def test_lightly_damped_lc_batch_with_a_step_of_ten_periods():
+    # R = 0.01…0.03 Ω (ζ ≈ 0.0016…0.0047): a step of 10 damped periods; the first peak
+    # V(1 + e^{−ζπ/√(1−ζ²)}) at π/ω_d (Ogata ch. 5) to 1e-9, and the same as single runs
+    Rs = np.array([0.01, 0.02, 0.03])
+    Td = 2 * math.pi / W_N
+    text = SERIES_RLC.format(step=f"{10 * Td * 1e6:.6f} us", method="exact").replace("until 8 ms", "until 6.3 ms")
+    got = _chunk(text, ("R_s",), Rs[:, None])
+    vc = "voltage across C1"
+    for i, R in enumerate(Rs):
+        t_p, v_peak, *_ = _closed_form(R)
+        assert got["peak", vc][i] == pytest.approx(v_peak, rel=1e-9)
+        assert got["time_of_peak", vc][i] == pytest.approx(t_p, rel=1e-9)
+        single = co.simulate(loads(text, overrides={"R_s": R}))
+        assert got["minimum", vc][i] == pytest.approx(carried_figure("minimum", single, vc), rel=1e-9, abs=1e-12)

@@ -18,6 +18,16 @@ largest value found.  With the exact method the states are exact, so the peak an
 its instant are exact to rounding whatever the output step; with rk4 they inherit
 the method's state error, as in the single run.
 
+Where the step is longer than an eighth of the period 2π/ω of the fastest ringing the
+recorded rows see (ω the largest seen |Im λ| of the stretch's augmented matrices over
+the samples, :data:`circuitode.solvers.visibility.SEEN`), a whole swing
+may begin and end inside one step: each step is then searched at :data:`PER_PERIOD`
+sub-points per period (e^{M s_j} stacked over samples once per configuration and step
+length, applied to every step's start state at once), and the best sub-interval with a
+sign change of the slope is the candidate (as the single run,
+:mod:`circuitode.transient.extrema`).  The sub-points are capped
+(:data:`MAX_PER_STEP`, :data:`SUB_BYTES`); ``ChunkExtrema.capped`` says when.
+
 Only the best candidate step per stretch is located, and only when its end rows
 reach the best value located so far (a true peak between two rows that both lie
 below an earlier located peak is not looked for; the single run looks at the six
@@ -33,6 +43,7 @@ from typing import Sequence
 import numpy as np
 
 from ..analysis.figures.step import has_step
+from ..solvers.visibility import SEEN
 from .batchexpm import expm_stack
 
 __all__ = ["ChunkExtrema", "EXTREMUM_FIGURES", "extremum_figures", "hermite_guess", "locate_roots"]
@@ -45,6 +56,12 @@ _ITERATIONS = 80
 #: A Newton step below this fraction of the interval ends the search (the error after it is
 #: of its square, far below rounding).
 _STEP_TOL = 1e-12
+#: Sub-points per period 2π/|Im λ| of the fastest seen ringing where the steps are coarser.
+PER_PERIOD = 8
+#: Caps of the sub-point search: sub-points per step, and bytes of the stacked sub-point
+#: exponentials of one configuration and step length.
+MAX_PER_STEP = 256
+SUB_BYTES = 64e6
 
 
 class ChunkExtrema:
@@ -60,6 +77,7 @@ class ChunkExtrema:
         self.value = np.full(shape, -np.inf)
         self.when = np.full(shape, np.nan)
         self.stretch = None
+        self.capped = False  # the sub-point search was thinned by its caps somewhere
 
     def begin(self, stretch) -> None:
         """A new stretch (see :class:`.stepping.Stretch`): its candidates start afresh."""
@@ -72,6 +90,7 @@ class ChunkExtrema:
         self.ends = np.zeros((4, N, r, 2))  # y and dy/ds at the step's two ends (the first guess)
         self.w = None
         self._gm: dict = {}
+        self._sub: dict = {}
 
     def _outputs(self, c: int):
         """[G; G M] (N, 2r, s) of configuration c for every sample: values and slopes."""
@@ -95,9 +114,13 @@ class ChunkExtrema:
         across = np.swapaxes(points, 1, 2)  # (N, s, K + 1)
         codes = np.unique(col_code)
         for c in codes[codes >= 0]:
+            use = None if codes.size == 1 else (col_code == c)[:, None, :]  # (N, 1, K)
+            sub = self._subpoints(int(c), h)
+            if sub is not None:  # the step does not resolve the fastest seen ringing
+                self._swings(sub, int(c), h, points, use, t_left)
+                continue
             both = self._outputs(int(c)) @ across  # (N, 2r, K + 1): values, slopes at the bounds
             y, d = both[:, :self.rows.size], both[:, self.rows.size:]
-            use = None if codes.size == 1 else (col_code == c)[:, None, :]  # (N, 1, K)
             for k, sign in enumerate(_SIGNS):
                 inside = (sign * d[:, :, :-1] > 0) & (sign * d[:, :, 1:] < 0)
                 if use is not None:
@@ -117,31 +140,100 @@ class ChunkExtrema:
                 jj = j[n, r]
                 self.ends[:, n, r, k] = (y[n, r, jj], y[n, r, jj + 1], d[n, r, jj], d[n, r, jj + 1])
 
+    def _subpoints(self, c: int, h: float):
+        """(P, E (P + 1, N, s, s), [G; G M] E (P + 1, N, 2r, s)) for steps of length h (s) in
+        configuration c when h is longer than PER_PERIOD-th of the fastest seen period, else None."""
+        key = (c, h)
+        if key not in self._sub:
+            full = np.full(self.value.shape[0], c)
+            M = self.stretch.M(full)
+            G = self.stretch.G(full)[:, self.rows]
+            rate = float(np.max(_seen_rate(M, G), initial=0.0))
+            wanted = int(np.ceil(PER_PERIOD * h * rate / (2 * np.pi)))
+            if wanted <= 1:
+                self._sub[key] = None
+            else:
+                N, s = M.shape[0], M.shape[1]
+                room = int(SUB_BYTES // (8 * N * s * (s + 2 * self.rows.size))) - 1
+                P = max(2, min(wanted, MAX_PER_STEP, room))
+                self.capped |= P < wanted
+                E = _powers(expm_stack(M * (h / P)), P)  # (P + 1, N, s, s): e^{M j h/P}
+                self._sub[key] = (P, E, self._outputs(c)[None] @ E)
+        return self._sub[key]
+
+    def _swings(self, sub, c: int, h: float, points: np.ndarray, use, t_left) -> None:
+        """Candidates from the sub-points of K steps (see :meth:`steps`): per sample, row and
+        direction the sub-interval with a slope sign change whose end values are largest."""
+        P, E, GE = sub
+        r = self.rows.size
+        starts = np.swapaxes(points[:, :-1], 1, 2)  # (N, s, K)
+        N, K = starts.shape[0], starts.shape[2]
+        best = np.full((N, r, 2), -np.inf)
+        at = np.zeros((N, r, 2, 2), dtype=np.int64)  # step k and sub-point j of the best
+        ends = np.zeros((4, N, r, 2))
+        prev = None
+        for j in range(P + 1):  # over the sub-points; samples and steps at once
+            both = GE[j] @ starts  # (N, 2r, K)
+            y, d = both[:, :r], both[:, r:]
+            if prev is not None:
+                y0, d0 = prev
+                for k, sign in enumerate(_SIGNS):
+                    inside = (sign * d0 > 0) & (sign * d < 0)
+                    if use is not None:
+                        inside &= use
+                    score = np.where(inside, np.maximum(sign * y0, sign * y), -np.inf)
+                    kk = np.argmax(score, axis=2)  # (N, r)
+                    top = np.take_along_axis(score, kk[:, :, None], axis=2)[:, :, 0]
+                    n, q = np.nonzero(top > best[:, :, k])
+                    best[n, q, k] = top[n, q]
+                    at[n, q, k] = np.stack([kk[n, q], np.full(n.size, j - 1)], axis=1)
+                    m = kk[n, q]
+                    ends[:, n, q, k] = (y0[n, q, m], y[n, q, m], d0[n, q, m], d[n, q, m])
+            prev = (y, d)
+        n, q, k = np.nonzero(best > self.score)
+        if n.size == 0:
+            return
+        step, j = at[n, q, k, 0], at[n, q, k, 1]
+        self.score[n, q, k] = best[n, q, k]
+        self.code[n, q, k] = c
+        self.h[n, q, k] = h / P
+        self.t0[n, q, k] = t_left[step] + j * (h / P)
+        self.w[n, q, k] = np.einsum("ist,it->is", E[j, n], points[n, step])
+        self.ends[:, n, q, k] = ends[:, n, q, k]
+
     def piece(self, idx: np.ndarray, codes: np.ndarray, G: np.ndarray, M: np.ndarray, w0: np.ndarray,
               w1: np.ndarray, length: np.ndarray, t0: np.ndarray) -> None:
         """Pieces of a step split by a switch, one per sample idx (each once): configuration
         codes (K,), output and system matrices G (K, p, s), M (K, s, s), states at both ends
-        w0, w1 (K, s), lengths (K,) s, starting instants t0 (K,) s."""
+        w0, w1 (K, s), lengths (K,) s, starting instants t0 (K,) s.  A piece longer than
+        PER_PERIOD-th of its fastest seen period is searched at sub-points (as :meth:`steps`)."""
         if self.rows.size == 0 or self.stretch is None or idx.size == 0:
             return
         if self.w is None:
             self.w = np.zeros(self.value.shape + (w0.shape[1],))
         Gr = G[:, self.rows]
         GM = Gr @ M
-        y0, y1 = np.einsum("krs,ks->kr", Gr, w0), np.einsum("krs,ks->kr", Gr, w1)
-        d0, d1 = np.einsum("krs,ks->kr", GM, w0), np.einsum("krs,ks->kr", GM, w1)
         length = np.asarray(length, dtype=float)
+        t0 = np.asarray(t0, dtype=float)
+        wanted = int(np.ceil(PER_PERIOD * np.max(length * _seen_rate(M, Gr), initial=0.0) / (2 * np.pi)))
+        P = max(1, min(wanted, MAX_PER_STEP))
+        self.capped |= P < wanted
+        W = (_powers(expm_stack(M * (length / P)[:, None, None]), P) @ w0[:, :, None])[..., 0]
+        W[0], W[-1] = w0, w1  # states at the sub-points, (P + 1, K, s)
+        y, d = np.einsum("krs,jks->jkr", Gr, W), np.einsum("krs,jks->jkr", GM, W)  # (P + 1, K, r)
         for k, sign in enumerate(_SIGNS):
-            inside = (sign * d0 > 0) & (sign * d1 < 0) & (length > 0)[:, None]
-            score = np.where(inside, np.maximum(sign * y0, sign * y1), -np.inf)  # (K, r)
+            inside = (sign * d[:-1] > 0) & (sign * d[1:] < 0) & (length > 0)[None, :, None]
+            score = np.where(inside, np.maximum(sign * y[:-1], sign * y[1:]), -np.inf)  # (P, K, r)
+            jj = np.argmax(score, axis=0)  # (K, r): the best sub-interval of each piece
+            score = np.take_along_axis(score, jj[None], axis=0)[0]
             a, r = np.nonzero(score > self.score[idx, :, k])
-            n = idx[a]
+            n, j = idx[a], jj[a, r]
             self.score[n, r, k] = score[a, r]
             self.code[n, r, k] = codes[a]
-            self.h[n, r, k] = length[a]
-            self.t0[n, r, k] = np.asarray(t0, dtype=float)[a]
-            self.w[n, r, k] = w0[a]
-            self.ends[:, n, r, k] = (y0[a, r], y1[a, r], d0[a, r], d1[a, r])
+            self.h[n, r, k] = length[a] / P
+            self.t0[n, r, k] = t0[a] + j * length[a] / P
+            self.w[n, r, k] = W[j, a]
+            self.ends[:, n, r, k] = (y[j, a, r], y[j + 1, a, r], d[j, a, r], d[j + 1, a, r])
 
     def finish(self) -> None:
         """Locate the stretch's candidates that may beat the best so far; keep the larger."""
@@ -176,6 +268,31 @@ class ChunkExtrema:
             v = np.where(np.isfinite(self.value[:, j]), self.value[:, j], np.nan)
             out[int(row)] = (v[:, 0], self.when[:, j, 0], -v[:, 1], self.when[:, j, 1])
         return out
+
+
+def _powers(E1: np.ndarray, P: int) -> np.ndarray:
+    """(P + 1, K, s, s): E1⁰ … E1ᴾ of stacked E1 (K, s, s), one product each (rounding grows
+    as j·eps; the brackets they give are refined on the solution itself)."""
+    out = np.empty((P + 1,) + E1.shape)
+    out[0] = np.eye(E1.shape[-1])
+    for j in range(1, P + 1):  # over the sub-points; samples at once
+        out[j] = out[j - 1] @ E1
+    return out
+
+
+def _seen_rate(M: np.ndarray, G: np.ndarray) -> np.ndarray:
+    """(K,) rad/s: per matrix the largest |Im λ| of M (K, s, s) whose mode some row of G
+    (K, r, s) sees (as :func:`circuitode.solvers.visibility.fastest_seen_ringing`, stacked)."""
+    out = np.zeros(M.shape[0])
+    if M.shape[0] == 0 or M.shape[1] == 0:
+        return out
+    good = np.isfinite(M).all(axis=(1, 2)) & np.isfinite(G).all(axis=(1, 2))  # a failed sample: 0
+    M, G = M[good], G[good]
+    lam, V = np.linalg.eig(M)  # (K, s), (K, s, s)
+    scale = np.linalg.norm(G, axis=(1, 2))[:, None] * np.linalg.norm(V, axis=1)
+    seen = np.max(np.abs(G @ V), axis=1) > SEEN * np.where(scale > 0, scale, 1.0)
+    out[good] = np.max(np.where(seen, np.abs(lam.imag), 0.0), axis=1, initial=0.0)
+    return out
 
 
 def locate_roots(M: np.ndarray, w: np.ndarray, g: np.ndarray, h: np.ndarray, sign: np.ndarray,
