@@ -17,18 +17,7 @@ import circuitode as co
 from circuitode.analysis.modes import circuit_modes
 from circuitode.equations.statespace import assemble
 
-L_SEC, C_SEC = 10e-6, 1e-6
-Z0 = float(np.sqrt(L_SEC / C_SEC))
-
-
-def ladder(sections):
-    lines = ['circuit "ladder"', "ground gnd", "voltage_source V1 src -- gnd constant 1 V",
-             f"resistor R_s src -- n0 {Z0!r} Ω"]
-    for k in range(1, sections + 1):
-        lines += [f"resistor R{k} n{k - 1} -- m{k} 50 mΩ", f"inductor L{k} m{k} -- n{k} 10 uH",
-                  f"capacitor C{k} n{k} -- gnd 1 uF"]
-    lines += [f"resistor R_t n{sections} -- gnd {Z0!r} Ω", "transient until 1 ms"]
-    return "\n".join(lines) + "\n"
+from ladder_text import C_SEC, L_SEC, Z0, ladder  # noqa: F401  (shared with the other sparse tests)
 
 
 def test_few_modes_of_a_602_state_ladder_against_dense_eigenvalues():

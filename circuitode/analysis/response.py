@@ -241,6 +241,18 @@ def _impedance_system(circuit: Circuit, node: str, closed):
     return ss.A, ss.B[:, [col]], ss.C, ss.D[:, [col]], sign
 
 
+def checked_request(circuit: Circuit, source, probe, impedance_at) -> list[str]:
+    """The names of the circuit's sources, once the request is known to make sense: a transfer
+    (a source that exists and a probe) or an impedance; else a :class:`ResponseError`."""
+    if probe is None and impedance_at is None:
+        raise ResponseError("ask for a transfer (a source and a quantity) or an impedance at a node")
+    names = [s.name for s in circuit.sources]
+    if probe is not None and source not in names:
+        raise ResponseError(f"--from {source!r}: no independent source of that name; sources: "
+                            f"{', '.join(names) or 'none'}")
+    return names
+
+
 def circuit_response(
     circuit: Circuit,
     *,
@@ -266,12 +278,7 @@ def circuit_response(
     (curves, problems) : the curves (transfer first, then impedance, per configuration)
     and one message per configuration that could not be analysed.
     """
-    if probe is None and impedance_at is None:
-        raise ResponseError("ask for a transfer (a source and a quantity) or an impedance at a node")
-    names = [s.name for s in circuit.sources]
-    if probe is not None and source not in names:
-        raise ResponseError(f"--from {source!r}: no independent source of that name; sources: "
-                            f"{', '.join(names) or 'none'}")
+    checked_request(circuit, source, probe, impedance_at)
     from ..transient.sparse_driver import SPARSE_STATES
 
     if len(circuit.state_names) > SPARSE_STATES:  # dense (n, n) solves per frequency: O(n³) each

@@ -86,15 +86,10 @@ def sparse_circuit_response(circuit, *, source=None, probe=None, impedance_at=No
     from ..model import CurrentSource
     from ..model.configurations import reachable_configurations
     from ..equations.sparse_statespace import assemble_sparse
-    from .response import ResponseCurve, ResponseError, _ratio_unit, find_resonances, grid_from_poles
+    from .response import ResponseCurve, _ratio_unit, checked_request, find_resonances, grid_from_poles
     from .sparse_modes import sparse_circuit_modes
 
-    if probe is None and impedance_at is None:
-        raise ResponseError("ask for a transfer (a source and a quantity) or an impedance at a node")
-    names = [s.name for s in circuit.sources]
-    if probe is not None and source not in names:
-        raise ResponseError(f"--from {source!r}: no independent source of that name; sources: "
-                            f"{', '.join(names) or 'none'}")
+    names = checked_request(circuit, source, probe, impedance_at)
     poles = {tuple(c.closed): np.array([m.eigenvalue for m in c.modes] +
                                         [np.conj(m.eigenvalue) for m in c.modes], dtype=complex)
              for c in sparse_circuit_modes(circuit, until)}
