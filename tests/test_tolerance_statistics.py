@@ -142,3 +142,14 @@ def test_a_level_of_rounding_size_beside_its_quantity_prints_as_zero():
     assert _state(noise, "V") == "varies"  # without the quantity's scale nothing says it is rounding
     real = SimpleNamespace(mean=-2.75e-3, std=2.7e-4, minimum=-3.3e-3, maximum=-2.2e-3)
     assert _state(real, "A", level=4.8) == "varies"  # a 3 mA undershoot beside a 4.8 A peak is real
+
+
+def test_an_angle_axis_of_the_batch_plots_reads_in_degrees():
+    """A closing angle is written and printed in degrees; its plot axis must not read in rad."""
+    import numpy as np
+
+    from circuitode.tolerance.plots import _axis
+
+    factor, unit = _axis(np.array([0.5, 1.5]), "rad")
+    assert unit == "deg" and factor * np.pi == pytest.approx(180.0)
+    assert _axis(np.array([1e-3, 2e-3]), "A") == (1e3, "mA")

@@ -29,9 +29,12 @@ def _safe(text: str) -> str:
 
 
 def _axis(values: np.ndarray, unit: str) -> tuple[float, str]:
-    """(factor, axis unit text) so that values * factor read in e.g. "mA²s"."""
+    """(factor, axis unit text) so that values * factor read in e.g. "mA²s"; an angle
+    (SI radians) reads in degrees, as users write it and the text summary prints it."""
     if unit in ("", "%"):
         return 1.0, unit
+    if unit == "rad":
+        return 180.0 / np.pi, "deg"
     factor, prefix = si_scale(values)
     return factor, prefix + unit
 
