@@ -148,23 +148,24 @@ def _compiled():
     """The compiled tile loop, or None without numba (imported on first use only)."""
     if os.environ.get("CIRCUITODE_NO_NUMBA") == "1":
         return None
-    if "fn" not in _KERNEL:
-        try:
-            import numba
-        except ImportError:
-            _KERNEL["fn"] = None
-        else:  # contract: a·b + c as one fused multiply-add; no other reordering
-            _KERNEL["fn"] = numba.njit(cache=True, nogil=True, error_model="numpy",
-                                       fastmath={"contract"})(_tile_loop)
-    return _KERNEL["fn"]
+    try:  # contract: a·b + c as one fused multiply-add; no other reordering
+        return _jitted("fn", _tile_loop, error_model="numpy", fastmath={"contract"})
+    except ImportError:
+        _KERNEL["fn"] = None
+        return None
+
+
+def _jitted(key: str, loop, **options):
+    """``loop`` compiled by numba once per process (kept in _KERNEL under ``key``)."""
+    if key not in _KERNEL:
+        import numba
+
+        _KERNEL[key] = numba.njit(cache=True, nogil=True, **options)(loop)
+    return _KERNEL[key]
 
 
 def _compiled_compact():
-    if "compact" not in _KERNEL:
-        import numba
-
-        _KERNEL["compact"] = numba.njit(cache=True, nogil=True)(_compact_loop)
-    return _KERNEL["compact"]
+    return _jitted("compact", _compact_loop)
 
 
 def _compact_loop(flat, rows, width, L):  # pragma: no cover - compiled by numba
@@ -178,11 +179,7 @@ def _compact_loop(flat, rows, width, L):  # pragma: no cover - compiled by numba
 
 
 def _compiled_columns():
-    if "columns" not in _KERNEL:
-        import numba
-
-        _KERNEL["columns"] = numba.njit(cache=True, nogil=True)(_columns_loop)
-    return _KERNEL["columns"]
+    return _jitted("columns", _columns_loop)
 
 
 def _columns_loop(y, t, Y, ts, c0, ext_pos, ext_count, has_t):  # pragma: no cover - compiled by numba
