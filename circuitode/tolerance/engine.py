@@ -166,9 +166,10 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
         raise CircuitodeError(f"batch method {method!r} is not available; use one of {', '.join(BATCH_METHODS)}")
     N = _batch_size(values)
     t_grid = output_grid(circuit)
+    until = float(t_grid[-1])
+    slack = 1e-12 * until
     switches = circuit.switches
-    clocks = Clocks(circuit, {k: v for k, v in values.items() if k[1].startswith("control.")}, N,
-                    1e-12 * float(output_grid(circuit)[-1]))
+    clocks = Clocks(circuit, {k: v for k, v in values.items() if k[1].startswith("control.")}, N, slack)
     thr = [i for i, s in enumerate(switches) if isinstance(s.control, ThresholdRule)]
     rules = [switches[i].control for i in thr]
     dio = [i for i, s in enumerate(switches) if isinstance(s, Diode)]
@@ -189,8 +190,6 @@ def simulate_chunk(circuit: Circuit, values: dict, probes, *, method: str = "exa
     nominal_bank = SourceBank.of(circuit)
     bank = SourceBatch(nominal_bank, source_values, size=N) if source_values else nominal_bank
     m = nominal_bank.m
-    until = float(t_grid[-1])
-    slack = 1e-12 * until
     k_thr = len(rules)
     watched = rules + diode_rules(circuit)  # a diode is watched as a switch with hysteresis
     ok = np.ones(N, dtype=bool)
